@@ -1,0 +1,49 @@
+"""Command-line entry point: a thin typer app; commands live in rfmeas.commands."""
+
+from __future__ import annotations
+
+import importlib
+
+import typer
+
+from .commands import COMMAND_MODULES
+
+app = typer.Typer(
+    name="rfmeas",
+    help="Characterise hand-wound small-signal transformers from VNA and LCR measurements.",
+    no_args_is_help=True,
+    pretty_exceptions_enable=False,
+    add_completion=False,
+)
+
+DEBUG = {"enabled": False}
+
+
+def _version_callback(value: bool):
+    if value:
+        from . import __version__
+
+        typer.echo(f"rfmeas {__version__}")
+        raise typer.Exit(0)
+
+
+@app.callback()
+def _root(
+    debug: bool = typer.Option(False, "--debug", help="Show full tracebacks on errors."),
+    version: bool = typer.Option(False, "--version", callback=_version_callback, is_eager=True,
+                                 help="Print the version and exit."),
+):
+    DEBUG["enabled"] = debug
+
+
+for _name in COMMAND_MODULES:
+    importlib.import_module(f"rfmeas.commands.{_name}").register(app)
+
+
+def main() -> None:
+    """Console-script entry point."""
+    app()
+
+
+if __name__ == "__main__":
+    main()

@@ -1,0 +1,91 @@
+"""What every command shares: error reporting, JSON output, consoles."""
+
+from __future__ import annotations
+
+import functools
+import json
+import math
+import sys
+
+import typer
+
+from ..errors import EXIT_BAD_INPUT, RfmeasError
+
+
+def stderr_console():
+    from rich.console import Console
+
+    return Console(stderr=True, soft_wrap=True, highlight=False)
+
+
+def stdout_console():
+    from rich.console import Console
+
+    return Console(soft_wrap=True, highlight=False)
+
+
+def report_error(message: str) -> None:
+    """One line on stderr: 'error: <file>: <problem>'."""
+    stderr_console().print(f"[bold red]error:[/] {message}", markup=True) if sys.stderr.isatty() \
+        else print(f"error: {message}", file=sys.stderr)
+
+
+def handles_errors(func):
+    """Turn a project error into one stderr line and its exit code; hide tracebacks unless --debug."""
+
+    @functools.wraps(func)
+    def wrapper(*args, **kwargs):
+        from ..cli import DEBUG
+
+        try:
+            return func(*args, **kwargs)
+        except RfmeasError as exc:
+            if DEBUG["enabled"]:
+                raise
+            report_error(str(exc))
+            raise typer.Exit(exc.exit_code)
+        except (typer.Exit, typer.Abort, KeyboardInterrupt):
+            raise
+        except Exception as exc:  # an unforeseen failure: still one line, never a traceback
+            if DEBUG["enabled"]:
+                raise
+            report_error(f"internal error ({type(exc).__name__}: {exc}); rerun with --debug for details")
+            raise typer.Exit(EXIT_BAD_INPUT)
+
+    return wrapper
+
+
+def _json_default(value):
+    try:
+        import numpy as np
+
+        if isinstance(value, np.generic):
+            return value.item()
+        if isinstance(value, np.ndarray):
+            return value.tolist()
+    except ImportError:  # pragma: no cover
+        pass
+    if hasattr(value, "to_dict"):
+        return value.to_dict()
+    raise TypeError(f"cannot serialise {type(value).__name__}")
+
+
+def _clean_floats(value):
+    """JSON has no NaN/inf: map them to None so the output is valid JSON."""
+    if isinstance(value, float) and not math.isfinite(value):
+        return None
+    if isinstance(value, dict):
+        return {k: _clean_floats(v) for k, v in value.items()}
+    if isinstance(value, (list, tuple)):
+        return [_clean_floats(v) for v in value]
+    return value
+
+
+def dumps_json(data) -> str:
+    """Strict JSON text (no NaN), numpy values converted."""
+    text = json.dumps(data, default=_json_default)
+    return json.dumps(_clean_floats(json.loads(text)), indent=2, allow_nan=False)
+
+
+def print_json(data) -> None:
+    sys.stdout.write(dumps_json(data) + "\n")

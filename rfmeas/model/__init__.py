@@ -1,0 +1,18 @@
+"""The two-winding equivalent circuit: parameters and its pure, vectorised evaluation."""
+
+from .params import PARAMETER_NAMES, TransformerParams
+from .circuit import (
+    admittance_matrix,
+    input_impedance,
+    reflection,
+    s_matrix,
+)
+
+__all__ = [
+    "PARAMETER_NAMES",
+    "TransformerParams",
+    "admittance_matrix",
+    "input_impedance",
+    "reflection",
+    "s_matrix",
+]

@@ -1,0 +1,86 @@
+"""Parameters of the two-winding equivalent circuit (coupled-inductor form).
+
+The terminals determine L1, L2, k uniquely; the T-model view (Lm, Ll1, Ll2,
+ideal 1:n) is derived with the proportional leakage split (Ll1 = L1(1-k),
+Ll2 = L2(1-k), Lm = k L1), a convention the terminals cannot confirm.
+"""
+
+from __future__ import annotations
+
+import math
+from dataclasses import asdict, dataclass, replace
+
+PARAMETER_NAMES = (
+    "L1_H", "L2_H", "k", "R1_ohm", "R2_ohm", "Rc_ohm", "C1_F", "C2_F", "C12_F",
+)
+
+
+@dataclass(frozen=True)
+class TransformerParams:
+    """Lumped model of a small transformer, SI units.
+
+    L1_H, L2_H   open-circuit self-inductance of primary and secondary
+    k            coupling coefficient, 0 < k < 1; M = k sqrt(L1 L2)
+    R1_ohm       series resistance of the primary winding
+    R2_ohm       series resistance of the secondary winding
+    Rc_ohm       core-loss resistance across the magnetising branch (primary side);
+                 math.inf for a lossless core
+    C1_F         capacitance across the primary terminals
+    C2_F         capacitance across the secondary terminals
+    C12_F        interwinding capacitance between the two hot terminals
+    """
+
+    L1_H: float
+    L2_H: float
+    k: float
+    R1_ohm: float = 0.0
+    R2_ohm: float = 0.0
+    Rc_ohm: float = math.inf
+    C1_F: float = 0.0
+    C2_F: float = 0.0
+    C12_F: float = 0.0
+
+    def __post_init__(self):
+        if not (self.L1_H > 0 and self.L2_H > 0):
+            raise ValueError("L1_H and L2_H must be positive")
+        if not (0.0 < self.k < 1.0):
+            raise ValueError("k must lie strictly between 0 and 1")
+        for name in ("R1_ohm", "R2_ohm", "C1_F", "C2_F", "C12_F"):
+            if getattr(self, name) < 0:
+                raise ValueError(f"{name} must not be negative")
+        if not self.Rc_ohm > 0:
+            raise ValueError("Rc_ohm must be positive (math.inf for a lossless core)")
+
+    # Derived quantities (referred to the primary unless named otherwise)
+    @property
+    def mutual_inductance_H(self) -> float:
+        return self.k * math.sqrt(self.L1_H * self.L2_H)
+
+    @property
+    def leakage_inductance_H(self) -> float:
+        """Short-circuit inductance seen at the primary: L1 (1 - k²)."""
+        return self.L1_H * (1.0 - self.k ** 2)
+
+    @property
+    def effective_turns_ratio(self) -> float:
+        """n = sqrt(L2/L1), secondary : primary."""
+        return math.sqrt(self.L2_H / self.L1_H)
+
+    @property
+    def magnetizing_inductance_H(self) -> float:
+        """Lm = k L1 (proportional leakage split)."""
+        return self.k * self.L1_H
+
+    @property
+    def primary_leakage_H(self) -> float:
+        return self.L1_H * (1.0 - self.k)
+
+    @property
+    def secondary_leakage_H(self) -> float:
+        return self.L2_H * (1.0 - self.k)
+
+    def replace(self, **changes) -> "TransformerParams":
+        return replace(self, **changes)
+
+    def to_dict(self) -> dict:
+        return {name: float(value) for name, value in asdict(self).items()}
