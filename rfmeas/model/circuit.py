@@ -23,10 +23,11 @@ OPEN = 0.0
 SHORT = np.inf
 
 
-def y_elements(f_Hz, L1_H, L2_H, k, R1_ohm, R2_ohm, Rc_ohm, C1_F, C2_F, C12_F):
+def y_elements(f_Hz, L1_H, L2_H, k, R1_ohm, R2_ohm, Rc_ohm, C1_F, C2_F, C12_F, polarity=1):
     """Two-port admittance matrix elements (y11, y12, y22) at the primary (1) and secondary (2).
 
-    The network is reciprocal, so y21 = y12.
+    The network is reciprocal, so y21 = y12. `polarity` -1 reverses the
+    secondary winding (M < 0).
     """
     jw = 2j * np.pi * np.asarray(f_Hz, dtype=float)
     turns_ratio_sq = L2_H / L1_H
@@ -39,7 +40,7 @@ def y_elements(f_Hz, L1_H, L2_H, k, R1_ohm, R2_ohm, Rc_ohm, C1_F, C2_F, C12_F):
     det = za * zb + zm * (zb + turns_ratio_sq * za)
     z11 = za + zm
     z22 = zb + turns_ratio_sq * zm
-    z12 = turns_ratio * zm
+    z12 = polarity * turns_ratio * zm
     y11 = z22 / det + jw * (C1_F + C12_F)
     y22 = z11 / det + jw * (C2_F + C12_F)
     y12 = -z12 / det - jw * C12_F
@@ -47,8 +48,7 @@ def y_elements(f_Hz, L1_H, L2_H, k, R1_ohm, R2_ohm, Rc_ohm, C1_F, C2_F, C12_F):
 
 
 def _params_tuple(params: TransformerParams):
-    return (params.L1_H, params.L2_H, params.k, params.R1_ohm, params.R2_ohm,
-            params.Rc_ohm, params.C1_F, params.C2_F, params.C12_F)
+    return params.values() + (params.polarity,)
 
 
 def admittance_matrix(params: TransformerParams, f_Hz) -> np.ndarray:
@@ -118,13 +118,17 @@ def s_from_y(y11, y12, y22, z0_port1_ohm=50.0, z0_port2_ohm=50.0):
     return s11, s21, s21, s22
 
 
+def pack_s(s11, s21, s12, s22) -> np.ndarray:
+    """Stack four S elements into an (..., 2, 2) array."""
+    s = np.empty(np.shape(s11) + (2, 2), dtype=complex)
+    s[..., 0, 0], s[..., 1, 0], s[..., 0, 1], s[..., 1, 1] = s11, s21, s12, s22
+    return s
+
+
 def s_matrix(params: TransformerParams, f_Hz, port1: str = "primary",
              z0_port1_ohm: float = 50.0, z0_port2_ohm: float = 50.0) -> np.ndarray:
     """Two-port S matrix, shape (F, 2, 2), with the `port1` winding on port 1."""
     y11, y12, y22 = y_elements(np.asarray(f_Hz, float), *_params_tuple(params))
     if port1 == "secondary":
         y11, y22 = y22, y11
-    s11, s21, s12, s22 = s_from_y(y11, y12, y22, z0_port1_ohm, z0_port2_ohm)
-    s = np.empty(np.shape(s11) + (2, 2), dtype=complex)
-    s[..., 0, 0], s[..., 1, 0], s[..., 0, 1], s[..., 1, 1] = s11, s21, s12, s22
-    return s
+    return pack_s(*s_from_y(y11, y12, y22, z0_port1_ohm, z0_port2_ohm))

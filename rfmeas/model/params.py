@@ -8,7 +8,7 @@ Ll2 = L2(1-k), Lm = k L1), a convention the terminals cannot confirm.
 from __future__ import annotations
 
 import math
-from dataclasses import asdict, dataclass, replace
+from dataclasses import dataclass, replace
 
 PARAMETER_NAMES = (
     "L1_H", "L2_H", "k", "R1_ohm", "R2_ohm", "Rc_ohm", "C1_F", "C2_F", "C12_F",
@@ -28,6 +28,9 @@ class TransformerParams:
     C1_F         capacitance across the primary terminals
     C2_F         capacitance across the secondary terminals
     C12_F        interwinding capacitance between the two hot terminals
+    polarity     +1 when the secondary's hot terminal is in phase with the primary's
+                 (dotted ends both hot), -1 for an inverting connection; not fitted,
+                 decided from the data
     """
 
     L1_H: float
@@ -39,6 +42,7 @@ class TransformerParams:
     C1_F: float = 0.0
     C2_F: float = 0.0
     C12_F: float = 0.0
+    polarity: int = 1
 
     def __post_init__(self):
         if not (self.L1_H > 0 and self.L2_H > 0):
@@ -48,6 +52,8 @@ class TransformerParams:
         for name in ("R1_ohm", "R2_ohm", "C1_F", "C2_F", "C12_F"):
             if getattr(self, name) < 0:
                 raise ValueError(f"{name} must not be negative")
+        if self.polarity not in (1, -1):
+            raise ValueError("polarity must be +1 or -1")
         if not self.Rc_ohm > 0:
             raise ValueError("Rc_ohm must be positive (math.inf for a lossless core)")
 
@@ -82,5 +88,11 @@ class TransformerParams:
     def replace(self, **changes) -> "TransformerParams":
         return replace(self, **changes)
 
+    def values(self) -> tuple:
+        """The nine circuit values in PARAMETER_NAMES order."""
+        return tuple(getattr(self, name) for name in PARAMETER_NAMES)
+
     def to_dict(self) -> dict:
-        return {name: float(value) for name, value in asdict(self).items()}
+        data = {name: float(getattr(self, name)) for name in PARAMETER_NAMES}
+        data["polarity"] = int(self.polarity)
+        return data
