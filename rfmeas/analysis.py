@@ -1,0 +1,82 @@
+"""The main job in one call: a measurement set in, a fitted and judged transformer out."""
+
+from __future__ import annotations
+
+from dataclasses import dataclass, field
+from pathlib import Path
+
+from . import __version__
+from .results import FitResult
+from .sweep import MeasurementSet
+
+
+@dataclass(frozen=True)
+class Analysis:
+    """A measurement set, its fit, and everything derived from the fit."""
+
+    measurement: MeasurementSet
+    fit: FitResult
+    figures: dict = field(default_factory=dict)
+    design_check: dict | None = None
+    warnings: tuple[str, ...] = ()
+
+    @property
+    def name(self) -> str:
+        return self.measurement.name
+
+    @property
+    def design_passed(self) -> bool | None:
+        if not self.design_check:
+            return None
+        return bool(self.design_check.get("passed"))
+
+    @property
+    def sources(self) -> list[tuple[str, bytes]]:
+        return self.measurement.sources()
+
+    def to_dict(self) -> dict:
+        fit = self.fit.to_dict()
+        return {
+            "name": self.name,
+            "parameters": fit["parameters"],
+            "figures": self.figures,
+            "design_check": self.design_check,
+            "fit": fit["fit"],
+            "model": fit["model"],
+            "measurement": self.measurement.to_dict(),
+            "warnings": list(self.fit.warnings) + list(self.warnings),
+            "software": {"name": "rfmeas", "version": __version__},
+        }
+
+
+def analyze(measurement: MeasurementSet) -> Analysis:
+    """Fit every sweep of `measurement` at once and derive the figures of merit."""
+    from .fit import fit_sweeps
+    from .results import build_result
+
+    sweeps = list(measurement.sweeps)
+    outcome = fit_sweeps(sweeps)
+    result = build_result(outcome, sweeps)
+    figures, design_check, warnings = _figures(measurement, result)
+    return Analysis(measurement, result, figures, design_check, tuple(warnings))
+
+
+def _figures(measurement: MeasurementSet, result: FitResult):
+    """Figures of merit and the design check (rfmeas.figures), when that module is present."""
+    try:
+        from .figures import compute_figures
+    except ImportError:
+        return {}, None, []
+    return compute_figures(measurement, result)
+
+
+def analyze_manifest(path: str | Path) -> Analysis:
+    from .io.manifest import load_manifest
+
+    return analyze(load_manifest(path))
+
+
+def analyze_files(paths, turns=None, termination="open", port1="primary", name=None) -> Analysis:
+    from .io.manifest import measurement_set_from_files
+
+    return analyze(measurement_set_from_files(list(paths), turns, termination, port1, name))

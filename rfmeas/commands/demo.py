@@ -1,0 +1,61 @@
+"""`rfmeas demo`: the main job on the bundled, invented sample measurements."""
+
+from __future__ import annotations
+
+from pathlib import Path
+
+import typer
+
+from ._common import handles_errors, stdout_console
+
+
+def register(app: typer.Typer) -> None:
+    app.command("demo")(demo_command)
+
+
+def sample_data_root() -> Path:
+    """The bundled sample sets: installed as rfmeas.sample_data, or sample_data/ in a checkout."""
+    try:
+        from importlib.resources import files
+
+        root = Path(str(files("rfmeas.sample_data")))
+        if (root / "README.md").exists():
+            return root
+    except (ModuleNotFoundError, TypeError):
+        pass
+    return Path(__file__).resolve().parents[2] / "sample_data"
+
+
+def sample_manifests() -> list[Path]:
+    return sorted(sample_data_root().glob("*/manifest.toml"))
+
+
+@handles_errors
+def demo_command(
+    out: Path = typer.Option(Path("."), "--out", help="Folder for the demo's outputs (default: the current folder)."),
+):
+    """Analyse the bundled sample measurements and write the results into --out."""
+    from ..analysis import analyze_manifest
+    from ..errors import InputError
+    from ..io.atomic import atomic_write_text
+    from ..terminal import render_analysis
+    from ._common import dumps_json
+
+    manifests = sample_manifests()
+    if not manifests:
+        raise InputError("the bundled sample data are missing from this installation", sample_data_root())
+    out.mkdir(parents=True, exist_ok=True)
+    console = stdout_console()
+    console.print("[dim]Sample data: invented measurements of a 50 Ω → 450 Ω ladder-line coupler, "
+                  "as first wound and after a rewind (see sample_data/README.md).[/]")
+    written = []
+    for manifest in manifests:
+        analysis = analyze_manifest(manifest)
+        console.rule(manifest.parent.name)
+        render_analysis(analysis, console)
+        target = out / f"{manifest.parent.name}.json"
+        atomic_write_text(target, dumps_json(analysis.to_dict()) + "\n")
+        written.append(target)
+    console.rule()
+    for path in written:
+        console.print(f"wrote {path}")

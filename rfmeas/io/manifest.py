@@ -1,0 +1,222 @@
+"""Measurement-set manifests (TOML, see DESIGN.md): strict validation, paths relative to the file."""
+
+from __future__ import annotations
+
+import math
+import tomllib
+from pathlib import Path
+
+from ..errors import InputError
+from ..sweep import WINDINGS, DesignTarget, MeasurementSet, Sweep, other_winding
+
+_TOP_KEYS = {"transformer", "core", "design", "sweep"}
+_TRANSFORMER_KEYS = {"name", "primary_turns", "secondary_turns", "notes"}
+_DESIGN_KEYS = {
+    "source_impedance_ohm", "load_impedance_ohm", "lowest_frequency_Hz", "highest_frequency_Hz",
+    "reactance_factor", "ratio_tolerance_percent", "return_loss_dB",
+}
+_SWEEP_KEYS = {"file", "port1", "port2", "termination", "label", "method", "fixture"}
+
+MAX_MANIFEST_BYTES = 1_000_000
+
+
+def _number(table: dict, key: str, where: str, path, positive=True, integer=False):
+    value = table[key]
+    if isinstance(value, bool) or not isinstance(value, (int, float)):
+        raise InputError(f"{where}.{key} must be a number, not {type(value).__name__} {value!r}", path)
+    if integer and (not float(value).is_integer()):
+        raise InputError(f"{where}.{key} must be a whole number, not {value!r}", path)
+    if not math.isfinite(float(value)) or (positive and value <= 0):
+        raise InputError(f"{where}.{key} must be a positive number, not {value!r}", path)
+    return int(value) if integer else float(value)
+
+
+def _check_keys(table, allowed: set, where: str, path):
+    if not isinstance(table, dict):
+        raise InputError(f"[{where}] must be a table", path)
+    for key in table:
+        if key not in allowed:
+            raise InputError(f"unknown key '{key}' in [{where}] (allowed: {', '.join(sorted(allowed))})", path)
+
+
+def parse_termination(value, where: str, path) -> str | float:
+    """'open' | 'short' | a resistance in ohms (number, or text such as '200' or '1k')."""
+    if isinstance(value, str):
+        text = value.strip().lower()
+        if text in ("open", "short"):
+            return text
+        from ..units import parse_engineering
+
+        try:
+            value = parse_engineering(text.replace("ohms", "").replace("ohm", "").replace("ω", ""))
+        except InputError:
+            raise InputError(f"{where}.termination must be 'open', 'short' or a resistance in ohms, "
+                             f"not {value!r}", path) from None
+    if isinstance(value, bool) or not isinstance(value, (int, float)) or not math.isfinite(value) or value <= 0:
+        raise InputError(f"{where}.termination must be 'open', 'short' or a positive resistance in ohms, "
+                         f"not {value!r}", path)
+    return float(value)
+
+
+def load_sweep(file_path: Path, port1: str, termination=None, port2: str | None = None,
+               label: str | None = None, where: str = "sweep", manifest_path=None) -> Sweep:
+    """Read one Touchstone file and check it against how it is said to be connected."""
+    from .touchstone import read_touchstone
+
+    data = read_touchstone(file_path)
+    label = label or file_path.name
+    warnings = list(data.warnings)
+    if port2 is not None:
+        if data.port_count != 2:
+            raise InputError(f"{where} says port2 = '{port2}' but {file_path.name} is a one-port file",
+                             manifest_path or file_path)
+        if termination is not None:
+            raise InputError(f"{where}: give either port2 (a two-port sweep) or termination, not both",
+                             manifest_path or file_path)
+        network = data.network
+        forward_only = data.forward_only
+    else:
+        if termination is None:
+            raise InputError(f"{where}: say what the other winding sees: termination = \"open\", "
+                             "\"short\" or a resistance in ohms (or port2 for a two-port sweep)",
+                             manifest_path or file_path)
+        network = data.network
+        forward_only = False
+        if data.port_count == 2:
+            warnings.append("two-port file used as a one-port sweep: only S11 is fitted")
+            network = network.s11
+    return Sweep(network=network, port1=port1, termination=termination, port2=port2,
+                 forward_only=forward_only, label=label, path=str(file_path),
+                 warnings=tuple(warnings), raw_bytes=data.raw_bytes, sha256=data.sha256)
+
+
+def _winding(value, key, where, path) -> str:
+    if value not in WINDINGS:
+        raise InputError(f"{where}.{key} must be 'primary' or 'secondary', not {value!r}", path)
+    return value
+
+
+def load_manifest(path: str | Path) -> MeasurementSet:
+    """Read and validate a manifest and every sweep it names."""
+    path = Path(path)
+    if path.is_dir():
+        candidate = path / "manifest.toml"
+        if not candidate.is_file():
+            raise InputError("is a folder without a manifest.toml", path)
+        path = candidate
+    try:
+        raw = path.read_bytes()
+    except FileNotFoundError:
+        raise InputError("no such file", path) from None
+    except OSError as exc:
+        raise InputError(f"cannot read: {exc.strerror or exc}", path) from None
+    if len(raw) > MAX_MANIFEST_BYTES:
+        raise InputError("too large for a manifest (over 1 MB)", path)
+    try:
+        text = raw.decode("utf-8")
+        doc = tomllib.loads(text)
+    except UnicodeDecodeError:
+        raise InputError("not a text file (manifests are UTF-8 TOML)", path) from None
+    except tomllib.TOMLDecodeError as exc:
+        raise InputError(f"not valid TOML: {exc}", path) from None
+    for key in doc:
+        if key not in _TOP_KEYS:
+            raise InputError(f"unknown key '{key}' (allowed tables: {', '.join(sorted(_TOP_KEYS))})", path)
+
+    transformer = doc.get("transformer", {})
+    _check_keys(transformer, _TRANSFORMER_KEYS, "transformer", path)
+    name = transformer.get("name", path.parent.name or path.stem)
+    if not isinstance(name, str) or not name.strip():
+        raise InputError("transformer.name must be a non-empty string", path)
+    turns = {}
+    for key in ("primary_turns", "secondary_turns"):
+        if key in transformer:
+            turns[key] = _number(transformer, key, "transformer", path, integer=True)
+    notes = transformer.get("notes", "")
+    if not isinstance(notes, str):
+        raise InputError("transformer.notes must be a string", path)
+
+    core = doc.get("core")
+    if core is not None:
+        if not isinstance(core, dict):
+            raise InputError("[core] must be a table", path)
+        from ..magnetics.geometry import geometry_from_table
+
+        geometry_from_table(core, path)  # validates; the table itself is kept
+        core = dict(core)
+
+    design = None
+    if "design" in doc:
+        table = doc["design"]
+        _check_keys(table, _DESIGN_KEYS, "design", path)
+        values = {k: _number(table, k, "design", path) for k in table}
+        lo, hi = values.get("lowest_frequency_Hz"), values.get("highest_frequency_Hz")
+        if lo and hi and hi <= lo:
+            raise InputError("design.highest_frequency_Hz must be above lowest_frequency_Hz", path)
+        design = DesignTarget(**values)
+
+    entries = doc.get("sweep")
+    if not entries:
+        raise InputError("no [[sweep]] entries: a measurement set needs at least one sweep", path)
+    if not isinstance(entries, list):
+        raise InputError("sweep must be an array of tables ([[sweep]])", path)
+    sweeps = []
+    for i, entry in enumerate(entries, start=1):
+        where = f"sweep {i}"
+        _check_keys(entry, _SWEEP_KEYS, where, path)
+        if "file" not in entry or not isinstance(entry["file"], str):
+            raise InputError(f"{where} needs file = \"...\" (a Touchstone file relative to the manifest)", path)
+        for key in ("method", "fixture"):
+            if key in entry and entry[key] not in (None, "reflection"):
+                raise InputError(f"{where}.{key} = {entry[key]!r} is not supported yet", path)
+        port1 = _winding(entry.get("port1", "primary"), "port1", where, path)
+        port2 = entry.get("port2")
+        if port2 is not None:
+            port2 = _winding(port2, "port2", where, path)
+            if port2 != other_winding(port1):
+                raise InputError(f"{where}: port1 and port2 must be different windings", path)
+        termination = None
+        if "termination" in entry:
+            termination = parse_termination(entry["termination"], where, path)
+        label = entry.get("label")
+        if label is not None and not isinstance(label, str):
+            raise InputError(f"{where}.label must be a string", path)
+        file_path = (path.parent / entry["file"])
+        sweep = load_sweep(file_path, port1, termination, port2, label or entry["file"], where, path)
+        sweeps.append(sweep)
+
+    return MeasurementSet(
+        name=name.strip(), sweeps=tuple(sweeps),
+        primary_turns=turns.get("primary_turns"), secondary_turns=turns.get("secondary_turns"),
+        core=core, design=design, manifest_path=str(path), manifest_text=text, notes=notes,
+    )
+
+
+def parse_turns(text: str) -> tuple[int, int]:
+    """'3:9' -> (3, 9)."""
+    try:
+        a, b = (int(x) for x in str(text).split(":"))
+    except ValueError:
+        raise InputError(f"--turns must look like PRIMARY:SECONDARY (e.g. 3:9), not {text!r}") from None
+    if a <= 0 or b <= 0:
+        raise InputError(f"--turns must be positive whole numbers, not {text!r}")
+    return a, b
+
+
+def measurement_set_from_files(paths: list[str | Path], turns: tuple[int, int] | None = None,
+                               termination: str = "open", port1: str = "primary",
+                               name: str | None = None) -> MeasurementSet:
+    """A quick measurement set without a manifest: two-port files are primary→secondary thrus,
+    one-port files are `port1` with the other winding as `termination`."""
+    sweeps = []
+    term = parse_termination(termination, "--termination", None)
+    for p in paths:
+        p = Path(p)
+        if p.suffix.lower() == ".s2p":
+            sweeps.append(load_sweep(p, port1, None, other_winding(port1), p.name))
+        else:
+            sweeps.append(load_sweep(p, port1, term, None, p.name))
+    return MeasurementSet(
+        name=name or Path(paths[0]).stem, sweeps=tuple(sweeps),
+        primary_turns=turns[0] if turns else None, secondary_turns=turns[1] if turns else None,
+    )

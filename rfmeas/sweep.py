@@ -1,0 +1,167 @@
+"""Sweeps and measurement sets: what was measured, and how it was connected."""
+
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass, field
+from typing import Any
+
+import numpy as np
+
+WINDINGS = ("primary", "secondary")
+
+
+def other_winding(winding: str) -> str:
+    return "secondary" if winding == "primary" else "primary"
+
+
+@dataclass(frozen=True)
+class Sweep:
+    """One measured sweep: a scikit-rf Network plus how the transformer was connected.
+
+    port1        the winding on VNA port 1 ("primary" or "secondary")
+    termination  for a one-port sweep, what the other winding sees: "open",
+                 "short" or a resistance in ohms (float); None for a two-port sweep
+    port2        for a two-port sweep, the winding on port 2; else None
+    forward_only a two-port file whose S12/S22 were not measured (all zeros)
+    """
+
+    network: Any
+    port1: str
+    termination: str | float | None = "open"
+    port2: str | None = None
+    forward_only: bool = False
+    label: str = ""
+    path: str | None = None
+    warnings: tuple[str, ...] = ()
+    raw_bytes: bytes | None = field(default=None, repr=False, compare=False)
+    sha256: str | None = None
+
+    @property
+    def f_Hz(self) -> np.ndarray:
+        return np.asarray(self.network.f, dtype=float)
+
+    @property
+    def is_two_port(self) -> bool:
+        return self.port2 is not None
+
+    @property
+    def z0_ohm(self) -> tuple[float, ...]:
+        """Real reference impedance of each port used (taken at the first point)."""
+        z0 = np.asarray(self.network.z0)
+        ports = 2 if self.is_two_port else 1
+        return tuple(float(np.real(z0[0, i])) for i in range(ports))
+
+    @property
+    def elements(self) -> tuple[str, ...]:
+        """The S elements this sweep contributes to a fit."""
+        if not self.is_two_port:
+            return ("S11",)
+        return ("S11", "S21") if self.forward_only else ("S11", "S21", "S12", "S22")
+
+    def measured(self) -> np.ndarray:
+        """Measured S elements, shape (F, len(elements)), complex."""
+        s = np.asarray(self.network.s)
+        index = {"S11": (0, 0), "S21": (1, 0), "S12": (0, 1), "S22": (1, 1)}
+        return np.stack([s[:, index[e][0], index[e][1]] for e in self.elements], axis=1)
+
+    def describe(self) -> str:
+        """'primary on port 1, secondary open' in plain words."""
+        if self.is_two_port:
+            text = f"{self.port1} on port 1, {self.port2} on port 2"
+            return text + (" (forward only)" if self.forward_only else "")
+        other = other_winding(self.port1)
+        if self.termination in ("open", "short"):
+            state = "open" if self.termination == "open" else "shorted"
+            return f"{self.port1} on port 1, {other} {state}"
+        return f"{self.port1} on port 1, {other} loaded by {float(self.termination):g} Ω"
+
+    def to_dict(self) -> dict:
+        f = self.f_Hz
+        return {
+            "label": self.label,
+            "file": self.path,
+            "sha256": self.sha256,
+            "port1": self.port1,
+            "port2": self.port2,
+            "termination": self.termination,
+            "forward_only": self.forward_only,
+            "points": int(f.size),
+            "start_Hz": float(f[0]),
+            "stop_Hz": float(f[-1]),
+            "reference_impedance_ohm": list(self.z0_ohm),
+            "description": self.describe(),
+            "warnings": list(self.warnings),
+        }
+
+
+@dataclass(frozen=True)
+class DesignTarget:
+    """What the transformer should do (the manifest's [design] table)."""
+
+    source_impedance_ohm: float | None = None
+    load_impedance_ohm: float | None = None
+    lowest_frequency_Hz: float | None = None
+    highest_frequency_Hz: float | None = None
+    reactance_factor: float = 4.0
+    ratio_tolerance_percent: float = 2.0
+    return_loss_dB: float = 15.0
+
+    @property
+    def target_turns_ratio(self) -> float | None:
+        """sqrt(load/source), secondary : primary."""
+        if self.source_impedance_ohm and self.load_impedance_ohm:
+            return math.sqrt(self.load_impedance_ohm / self.source_impedance_ohm)
+        return None
+
+    def to_dict(self) -> dict:
+        return {
+            "source_impedance_ohm": self.source_impedance_ohm,
+            "load_impedance_ohm": self.load_impedance_ohm,
+            "lowest_frequency_Hz": self.lowest_frequency_Hz,
+            "highest_frequency_Hz": self.highest_frequency_Hz,
+            "reactance_factor": self.reactance_factor,
+            "ratio_tolerance_percent": self.ratio_tolerance_percent,
+            "return_loss_dB": self.return_loss_dB,
+            "target_turns_ratio": self.target_turns_ratio,
+        }
+
+
+@dataclass(frozen=True)
+class MeasurementSet:
+    """All sweeps of one transformer, with what is known about it."""
+
+    name: str
+    sweeps: tuple[Sweep, ...]
+    primary_turns: int | None = None
+    secondary_turns: int | None = None
+    core: dict | None = None
+    design: DesignTarget | None = None
+    manifest_path: str | None = None
+    manifest_text: str | None = field(default=None, repr=False, compare=False)
+    notes: str = ""
+
+    @property
+    def points(self) -> int:
+        return int(sum(s.f_Hz.size for s in self.sweeps))
+
+    def sources(self) -> list[tuple[str, bytes]]:
+        """(relative path, raw bytes) of the manifest and every sweep file, for a history store."""
+        out: list[tuple[str, bytes]] = []
+        if self.manifest_text is not None:
+            out.append(("manifest.toml", self.manifest_text.encode("utf-8")))
+        for sweep in self.sweeps:
+            if sweep.raw_bytes is not None:
+                out.append((sweep.label, sweep.raw_bytes))
+        return out
+
+    def to_dict(self) -> dict:
+        return {
+            "name": self.name,
+            "primary_turns": self.primary_turns,
+            "secondary_turns": self.secondary_turns,
+            "core": self.core,
+            "design": None if self.design is None else self.design.to_dict(),
+            "manifest": self.manifest_path,
+            "sweeps": [s.to_dict() for s in self.sweeps],
+        }

@@ -1,0 +1,80 @@
+"""Terminal presentation of an analysis: rich tables in engineering notation."""
+
+from __future__ import annotations
+
+from .results import LABELS, PARAMETER_KEYS
+from .units import format_engineering, format_with_error
+
+_UNITS = {key: unit for key, _name, unit in PARAMETER_KEYS}
+
+
+def parameter_table(analysis):
+    from rich.table import Table
+
+    table = Table(title="Equivalent circuit", title_justify="left", show_edge=False, pad_edge=False)
+    table.add_column("quantity")
+    table.add_column("value ± standard error", justify="right")
+    table.add_column("rel.", justify="right")
+    table.add_column("note", overflow="fold")
+    for key, est in analysis.fit.estimates.items():
+        unit = _UNITS[key]
+        if not est.determined:
+            held = "" if est.held_at is None else f" (held at {format_engineering(est.held_at, unit)})"
+            table.add_row(LABELS[key], "[yellow]not determined[/]", "", est.note + held)
+            continue
+        rel = est.relative_stderr
+        rel_text = "" if rel is None else (f"{rel * 100:.2g} %" if rel < 10 else "≫100 %")
+        if unit:
+            value_text = format_with_error(est.value, est.stderr, unit)
+        else:
+            value_text = (f"{est.value:.5g} ± {est.stderr:.2g}" if est.stderr else f"{est.value:.5g}")
+        table.add_row(LABELS[key], value_text, rel_text, "")
+    return table
+
+
+def sweep_table(analysis):
+    from rich.table import Table
+
+    table = Table(title="Sweeps and fit quality", title_justify="left", show_edge=False, pad_edge=False)
+    for col, justify in (("sweep", "left"), ("connection", "left"), ("points", "right"),
+                         ("range", "left"), ("rms misfit", "right"), ("noise", "right")):
+        table.add_column(col, justify=justify)
+    for q, sweep in zip(analysis.fit.sweeps, analysis.measurement.sweeps):
+        f = sweep.f_Hz
+        table.add_row(q.label, q.description, str(q.points),
+                      f"{format_engineering(f[0], 'Hz', 3)} – {format_engineering(f[-1], 'Hz', 3)}",
+                      f"{q.rms_residual:.2g}", f"{q.noise_estimate:.2g}")
+    return table
+
+
+def render_analysis(analysis, console) -> None:
+    """Print the whole analysis: header, parameters, figures, design check, fit quality, warnings."""
+    fit = analysis.fit
+    console.print(f"[bold]{analysis.name}[/]  ({len(analysis.measurement.sweeps)} sweeps, "
+                  f"{fit.points} fitted values)")
+    console.print()
+    console.print(parameter_table(analysis))
+    console.print("[dim]T-model view uses the proportional leakage split (Ll1 = L1(1−k), "
+                  "Ll2 = L2(1−k)); the terminals cannot tell how leakage divides.[/]")
+    console.print()
+    for extra in _extra_renderers():
+        extra(analysis, console)
+    console.print(sweep_table(analysis))
+    state = "[green]converged[/]" if fit.converged else "[red]did not converge[/]"
+    console.print(f"fit {state} in {fit.elapsed_s * 1000:.0f} ms; rms misfit {fit.rms_residual:.2g}, "
+                  f"weighted residual variance {fit.residual_variance:.3g} (≈ 1: down to the noise)")
+    warnings = list(fit.warnings) + list(analysis.warnings)
+    if warnings:
+        console.print()
+        console.print("[bold yellow]warnings[/]")
+        for w in warnings:
+            console.print(f"  • {w}")
+
+
+def _extra_renderers():
+    """Renderers of figures and design verdicts, provided by rfmeas.figures when present."""
+    try:
+        from .figures import terminal_renderers
+    except ImportError:
+        return []
+    return terminal_renderers()
