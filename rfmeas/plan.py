@@ -194,7 +194,8 @@ def plan_turns(source_impedance_ohm: float, load_impedance_ohm: float, lowest_fr
     n1, n2 = np.meshgrid(np.arange(n1_min, max_turns + 1), np.arange(n2_min, max_turns + 1), indexing="ij")
     n1, n2 = n1.ravel(), n2.ravel()
     error_percent = 100.0 * (n2 / n1 - ratio) / ratio
-    ranked_error = np.maximum(np.abs(error_percent), ratio_tolerance_percent)
+    # Rounded so that float noise cannot break a tie between equal errors (14:55 vs 14:57 on 1:4).
+    ranked_error = np.round(np.maximum(np.abs(error_percent), ratio_tolerance_percent), 9)
     order = np.lexsort((np.abs(error_percent), n1 + n2, ranked_error))[: alternatives + 1]
 
     def pair(i: int) -> WindingPair:
