@@ -27,7 +27,7 @@ def _render(plan) -> None:
     console.print(
         f"{eng(plan.source_impedance_ohm, 'Ω')} → {eng(plan.load_impedance_ohm, 'Ω')}: "
         f"turns ratio 1 : {plan.turns_ratio:.4g} (secondary : primary = sqrt(load/source)); "
-        f"A_L {eng(plan.al_nH_per_turn2 * 1e-9, 'H')}/turn²")
+        f"A_L {plan.al_nH_per_turn2:.4g} nH/turn²")
     console.print(
         f"Minimum turns: primary {plan.minimum_turns_primary} ({plan.minimum_turns_primary_exact:.3g}, "
         f"L ≥ {eng(plan.minimum_primary_inductance_H, 'H')}), "
@@ -47,7 +47,8 @@ def _render(plan) -> None:
     console.print(
         f"Rule: each winding's reactance at {eng(plan.lowest_frequency_Hz, 'Hz')} is at least "
         f"{plan.reactance_factor:g} × the impedance it works into (primary: source, secondary: load), "
-        "L = A_L·N²; pairs ranked by ratio error, then fewer turns (common practice).")
+        f"L = A_L·N²; pairs ranked by ratio error (below {plan.ratio_tolerance_percent:g} % counts as equal), "
+        "then fewer turns (common practice).")
     if plan.budget is not None:
         b = plan.budget
         console.print(
