@@ -17,7 +17,7 @@ from __future__ import annotations
 
 import logging
 import math
-from dataclasses import dataclass
+from dataclasses import asdict, dataclass
 
 import numpy as np
 
@@ -51,16 +51,7 @@ class WindingPair:
     low_frequency_corner_Hz: float
 
     def to_dict(self) -> dict:
-        return {
-            "primary_turns": self.primary_turns,
-            "secondary_turns": self.secondary_turns,
-            "turns_ratio": self.turns_ratio,
-            "ratio_error_percent": self.ratio_error_percent,
-            "primary_inductance_H": self.primary_inductance_H,
-            "secondary_inductance_H": self.secondary_inductance_H,
-            "low_frequency_limit_Hz": self.low_frequency_limit_Hz,
-            "low_frequency_corner_Hz": self.low_frequency_corner_Hz,
-        }
+        return asdict(self)
 
 
 @dataclass(frozen=True)
@@ -83,12 +74,7 @@ class HighFrequencyBudget:
     max_shunt_capacitance_F: float
 
     def to_dict(self) -> dict:
-        return {
-            "highest_frequency_Hz": self.highest_frequency_Hz,
-            "reflected_load_ohm": self.reflected_load_ohm,
-            "max_leakage_inductance_H": self.max_leakage_inductance_H,
-            "max_shunt_capacitance_F": self.max_shunt_capacitance_F,
-        }
+        return asdict(self)
 
 
 @dataclass(frozen=True)

@@ -10,7 +10,7 @@ from __future__ import annotations
 
 import logging
 import math
-from dataclasses import dataclass
+from dataclasses import asdict, dataclass
 from pathlib import Path
 
 from ..errors import InputError
@@ -44,14 +44,7 @@ class CoreGeometry:
     description: str
 
     def to_dict(self) -> dict:
-        return {
-            "shape": self.shape,
-            "effective_area_m2": self.effective_area_m2,
-            "effective_length_m": self.effective_length_m,
-            "core_constant_per_m": self.core_constant_per_m,
-            "effective_volume_m3": self.effective_volume_m3,
-            "description": self.description,
-        }
+        return asdict(self)
 
 
 def _require_positive(name: str, value, path=None) -> float:
