@@ -9,4 +9,5 @@ Modules import only typer and the standard library at the top; heavy imports
 COMMAND_MODULES = [
     "analyze",
     "demo",
+    "plan",
 ]

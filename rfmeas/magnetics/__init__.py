@@ -1,0 +1,22 @@
+"""Pure magnetics: core geometry (IEC 60205 constants), A_L and complex permeability."""
+
+from .geometry import CoreGeometry, effective_geometry, geometry_from_table, toroid_geometry
+from .permeability import (
+    AL_UNITS,
+    MU0_H_per_m,
+    al_to_nH_per_turn2,
+    complex_permeability,
+    debye_permeability,
+    effective_permeability,
+    gapped_effective_permeability,
+    inductance_factor_H_per_turn2,
+    inductance_from_permeability,
+    nH_per_turn2_to,
+)
+
+__all__ = [
+    "AL_UNITS", "CoreGeometry", "MU0_H_per_m", "al_to_nH_per_turn2", "complex_permeability",
+    "debye_permeability", "effective_geometry", "effective_permeability",
+    "gapped_effective_permeability", "geometry_from_table", "inductance_factor_H_per_turn2",
+    "inductance_from_permeability", "nH_per_turn2_to", "toroid_geometry",
+]
