@@ -306,14 +306,14 @@ class _Parser:
                 if self.z0_from_option is not None:
                     self.fail("the option line gives the reference impedance (R) twice", lineno)
                 values = []
-                while i + 1 < len(tokens) and not _is_option_word(tokens[i + 1]):
+                while i + 1 < len(tokens) and _looks_like_value(tokens[i + 1]):
                     i += 1
                     values.append(self.impedance(tokens[i], lineno))
                 if not values:
                     self.fail("'R' in the option line must be followed by the reference impedance in ohms",
                               lineno)
                 self.z0_from_option = tuple(values)
-            elif _COMPLEX.fullmatch(tokens[i]) or _NUMBER.fullmatch(tokens[i]):
+            elif _looks_like_value(tokens[i]):
                 self.fail(f"the option line holds a stray value {tokens[i]!r} (only R takes a value)", lineno)
             else:
                 self.fail(f"unknown option {tokens[i]!r} in the option line (expected a unit such as MHz, "
@@ -465,9 +465,9 @@ def _keyword_name(content: str) -> str | None:
     return " ".join(match.group(1).lower().split()) if match else None
 
 
-def _is_option_word(token: str) -> bool:
-    upper = token.upper()
-    return upper in UNIT_SCALE or upper in PARAMETERS or upper in FORMATS or upper == "R"
+def _looks_like_value(token: str) -> bool:
+    """A token meant as a number (perhaps a complex or non-finite one), not an option word."""
+    return bool(_NUMBER.fullmatch(token) or _COMPLEX.fullmatch(token) or _NOT_FINITE.fullmatch(token))
 
 
 def _parse(text: str, name: str) -> _Parsed:
