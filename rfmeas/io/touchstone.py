@@ -13,6 +13,7 @@ from __future__ import annotations
 import hashlib
 import io
 import logging
+import math
 import os
 import re
 import warnings
@@ -37,7 +38,9 @@ FORMATS = ("RI", "MA", "DB")
 PARAMETERS = ("S", "Y", "Z", "H", "G")
 DEFAULT_OPTIONS = ("GHZ", "S", "MA", 50.0)  # Touchstone's defaults for a missing option line
 
-_NUMBER = re.compile(r"[+-]?(?:\d+\.?\d*|\.\d+)(?:[eE][+-]?\d+)?")
+_NUMBER = re.compile(r"[+-]?(?:\d+\.?\d*|\.\d+)(?:[eE][+-]?\d+)?", re.ASCII)
+_NUMBER_ROW = re.compile(rf"{_NUMBER.pattern}(?: {_NUMBER.pattern})*", re.ASCII)
+_CONTROL = re.compile(r"[\x00-\x08\x0e-\x1f]")
 _NOT_FINITE = re.compile(r"[+-]?(?:nan|inf|infinity)", re.IGNORECASE)
 _COMPLEX = re.compile(r"[()+\-.\deEjJ,]*[jJ(][()+\-.\deEjJ,]*")
 _KEYWORD = re.compile(r"\[([^\]]*)\](.*)")
@@ -150,8 +153,7 @@ def _decode(data: bytes, name: str) -> str:
         text = data.decode("utf-8-sig")
     except UnicodeDecodeError:
         text = data.decode("latin-1")
-    control = sum(1 for ch in text if ord(ch) < 32 and ch not in "\t\n\r\f\v")
-    if control:
+    if _CONTROL.search(text):
         raise InputError("is not a Touchstone file (it holds binary data, not text)", path=name)
     return text
 
@@ -397,7 +399,7 @@ class _Parser:
             self.fail(f"unknown keyword [{match.group(1)}]", lineno)
 
     def integer(self, value: str, key: str, lineno: int) -> int:
-        if not re.fullmatch(r"\d{1,9}", value):
+        if not re.fullmatch(r"\d{1,9}", value, re.ASCII):
             self.fail(f"[{key}] needs a whole number, not {value!r}", lineno)
         return int(value)
 
@@ -420,7 +422,13 @@ class _Parser:
             self.fail(f"data before [Network Data]: {' '.join(tokens)[:40]!r}", lineno)
         if out.ports == 0:
             self.fail("data before [Number of Ports]", lineno)
-        values = [self.number(tok, lineno) for tok in tokens]
+        values = None
+        if _NUMBER_ROW.fullmatch(" ".join(tokens)):
+            values = [float(tok) for tok in tokens]
+            if not all(map(math.isfinite, values)):
+                values = None
+        if values is None:  # the slow path names the offending token
+            values = [self.number(tok, lineno) for tok in tokens]
         if self.section == "noise":
             self.noise_line(values, lineno)
             return
