@@ -1,0 +1,5 @@
+"""File input and output: Touchstone reading and writing (`rfmeas.io.touchstone`)
+and crash-safe file writes (`rfmeas.io.atomic`).
+
+Import the submodules directly; this package imports nothing heavy on its own.
+"""
