@@ -8,10 +8,14 @@ reach about 1e-12 in practice.
 
 from __future__ import annotations
 
+import json
 import math
+import warnings
+from pathlib import Path
 
 import numpy as np
 import pytest
+import skrf as rf
 
 from rfmeas.model.params import TransformerParams
 from tests.reference import OnePort, SimulatorError, TwoPort, four_sweeps, model_response
@@ -164,3 +168,28 @@ def test_four_sweep_set_matches_the_model():
     for name, sweep in four_sweeps().items():
         np.testing.assert_allclose(results[name], model_response(params, F_HZ, sweep),
                                    rtol=RTOL, atol=ATOL, err_msg=name)
+
+
+SAMPLE_DATA = Path(__file__).resolve().parents[1] / "sample_data"
+
+
+@pytest.mark.parametrize("folder", ["coupler-before", "coupler-after"])
+def test_sample_data_matches_its_true_circuit(folder):
+    # the sample sets are ngspice output plus 1e-3 rms additive and 0.1 % proportional noise
+    # (scripts/make_sample_data.py), so the model at the true values leaves about 1.4e-3 rms
+    truth = json.loads((SAMPLE_DATA / "truth.json").read_text(encoding="utf-8"))
+    params = TransformerParams(**truth[folder])
+    for name, sweep in four_sweeps().items():
+        path = SAMPLE_DATA / folder / f"{name}.s{2 if isinstance(sweep, TwoPort) else 1}p"
+        with warnings.catch_warnings():
+            warnings.simplefilter("ignore")  # the joined thru segments repeat 10 MHz
+            network = rf.Network(str(path))
+        model = model_response(params, network.f, sweep)
+        if isinstance(sweep, TwoPort):
+            measured = network.s[:, :, 0]
+            model = model[:, :, 0]
+            assert not np.any(network.s[:, :, 1]), "forward-only file: S12 and S22 are zeros"
+        else:
+            measured = network.s[:, 0, 0]
+        rms = np.sqrt(np.mean(np.abs(measured - model) ** 2))
+        assert 1.0e-3 < rms < 2.0e-3, f"{path.name}: residual {rms:.2e} rms"

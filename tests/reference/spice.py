@@ -44,7 +44,6 @@ from rfmeas.model.params import TransformerParams
 
 from . import OnePort, SimulatorError, Sweep, TwoPort
 
-
 FORMS = ("coupled", "tee", "tee-controlled")
 TIMEOUT_S = 60.0
 # relative tolerance between the frequencies asked for and those ngspice reports
