@@ -94,23 +94,21 @@ def test_spice_forms_agree_for_a_lossless_core(name, sweep):
                                    rtol=RTOL, atol=ATOL, err_msg=form)
 
 
-@pytest.mark.spice
-@no_spice
-@pytest.mark.parametrize("name", LOSSY)
-def test_spice_tee_forms_agree_for_a_lossy_core(name):
-    # ngspice: ideal transformer as a K=1 pair against one made of E/F controlled sources
-    sweep = SWEEPS["two-port secondary 50/75"]
-    np.testing.assert_allclose(simulate_spice(PARAMS[name], F_HZ, sweep, form="tee-controlled"),
-                               simulate_spice(PARAMS[name], F_HZ, sweep, form="tee"),
-                               rtol=RTOL, atol=ATOL)
+# pairs of forms of one simulator that must agree: ngspice's ideal transformer as a K=1 pair
+# against one of E/F controlled sources (lossy core); scikit-rf's coupled inductors from their
+# Z matrix against its T-form with an ideal transformer (lossless core)
+FORM_PAIRS = [
+    *(pytest.param(simulate_spice, name, "tee", "tee-controlled", marks=[pytest.mark.spice, no_spice],
+                   id=f"ngspice, {name}") for name in LOSSY),
+    *(pytest.param(simulate_skrf, name, "coupled", "tee", id=f"skrf, {name}") for name in LOSSLESS),
+]
 
 
-@pytest.mark.parametrize("name", LOSSLESS)
-def test_skrf_forms_agree_for_a_lossless_core(name):
-    # scikit-rf: coupled inductors from their Z matrix against the T-form with an ideal transformer
+@pytest.mark.parametrize(("simulate", "name", "form_a", "form_b"), FORM_PAIRS)
+def test_forms_of_one_simulator_agree(simulate, name, form_a, form_b):
     sweep = SWEEPS["two-port secondary 50/75"]
-    np.testing.assert_allclose(simulate_skrf(PARAMS[name], F_HZ, sweep, form="tee"),
-                               simulate_skrf(PARAMS[name], F_HZ, sweep, form="coupled"),
+    np.testing.assert_allclose(simulate(PARAMS[name], F_HZ, sweep, form=form_b),
+                               simulate(PARAMS[name], F_HZ, sweep, form=form_a),
                                rtol=RTOL, atol=ATOL)
 
 
