@@ -1,0 +1,210 @@
+"""Make the invented demo measurement sets in sample_data/ (run once; the output is committed).
+
+Scenario (invented): a 50 ohm -> 450 ohm coupler for a balanced ladder-line
+feed, 5 primary and 15 secondary turns (1:3 turns, 1:9 impedance) on a NiZn
+ferrite toroid (µi ≈ 800), 12.7 / 7.1 / 4.9 mm. The unit was first wound with
+14 secondary turns ("coupler-before"), then rewound with 15 ("coupler-after").
+
+The sweeps are ngspice AC analyses of the equivalent circuit
+(tests/reference/spice.py) with small-VNA noise added: S' = S (1 + e_p) + e_a,
+e_p and e_a complex Gaussian, 1e-3 rms each, fixed seed. The files carry the
+quirks small VNAs produce: mixed formats and frequency units, a forward-only
+two-port file (S12, S22 written as zeros) joined from two sweep segments that
+share the 10 MHz point.
+
+Usage: python scripts/make_sample_data.py [OUTPUT_FOLDER]  (default: sample_data/)
+"""
+
+from __future__ import annotations
+
+import json
+import math
+import sys
+from pathlib import Path
+
+import numpy as np
+
+ROOT = Path(__file__).resolve().parents[1]
+sys.path.insert(0, str(ROOT))
+
+from rfmeas.model.params import TransformerParams  # noqa: E402
+from tests.reference import OnePort, TwoPort  # noqa: E402
+from tests.reference.spice import simulate_spice  # noqa: E402
+
+MU0 = 4e-7 * math.pi  # H/m (the pre-2019 exact value; differs from CODATA by 1e-10)
+SEED = 20240611
+Z0_OHM = 50.0
+ADDITIVE_RMS = 1e-3
+PROPORTIONAL_RMS = 1e-3
+
+# core: NiZn ferrite toroid, µi ≈ 800 (invented unit, generic material)
+OD_MM, ID_MM, HEIGHT_MM = 12.7, 7.1, 4.9
+MU_R = 800.0
+PRIMARY_TURNS = 5
+K = 0.985
+RELAXATION_HZ = 8e6     # Debye relaxation frequency Rc / (2π Lm)
+R1_OHM = 0.05
+R2_OHM_PER_TURN = 0.25 / 15
+C1_F = 3e-12
+C12_F = 3e-12
+
+SETS = {
+    "coupler-before": dict(name="ladder-line coupler, unit 3 (as wound)", secondary_turns=14,
+                           C2_F=5.6e-12, wording="as first wound, with 14 secondary turns instead of 15"),
+    "coupler-after": dict(name="ladder-line coupler, unit 3 (rewound)", secondary_turns=15,
+                          C2_F=6.0e-12, wording="rewound with the designed 15 secondary turns"),
+}
+
+ONE_PORT_F_HZ = np.geomspace(100e3, 100e6, 801)
+THRU_SEGMENTS_HZ = (np.geomspace(100e3, 10e6, 401), np.geomspace(10e6, 100e6, 401))
+
+
+def toroid_c1_per_m(od_mm: float, id_mm: float, height_mm: float) -> float:
+    """Core constant C1 = Σ l/A = 2π / (h ln(r2/r1)) of a rectangular-section ring, in 1/m (IEC 60205)."""
+    return 2.0 * math.pi / (height_mm * 1e-3 * math.log(od_mm / id_mm))
+
+
+def inductance_factor_H() -> float:
+    """A_L = µ0 µ / C1, in henries per turn²."""
+    return MU0 * MU_R / toroid_c1_per_m(OD_MM, ID_MM, HEIGHT_MM)
+
+
+def true_params(secondary_turns: int, C2_F: float) -> TransformerParams:
+    a_l = inductance_factor_H()
+    L1_H = a_l * PRIMARY_TURNS ** 2
+    Lm_H = K * L1_H
+    return TransformerParams(
+        L1_H=L1_H, L2_H=a_l * secondary_turns ** 2, k=K,
+        R1_ohm=R1_OHM, R2_ohm=R2_OHM_PER_TURN * secondary_turns,
+        Rc_ohm=2.0 * math.pi * RELAXATION_HZ * Lm_H,
+        C1_F=C1_F, C2_F=C2_F, C12_F=C12_F,
+    )
+
+
+def add_noise(s: np.ndarray, rng: np.random.Generator) -> np.ndarray:
+    def complex_normal(shape):
+        return (rng.standard_normal(shape) + 1j * rng.standard_normal(shape)) / math.sqrt(2.0)
+    return s * (1.0 + PROPORTIONAL_RMS * complex_normal(s.shape)) + ADDITIVE_RMS * complex_normal(s.shape)
+
+
+UNIT_SCALE = {"Hz": 1.0, "kHz": 1e3, "MHz": 1e6}
+
+
+def _pair(value: complex, fmt: str) -> str:
+    if fmt == "RI":
+        return f"{value.real: .8e} {value.imag: .8e}"
+    angle = math.degrees(np.angle(value))
+    if fmt == "MA":
+        return f"{abs(value): .8e} {angle: .6f}"
+    return f"{20.0 * math.log10(abs(value)): .6f} {angle: .6f}"   # DB
+
+
+def touchstone(f_Hz, columns, unit: str, fmt: str, comments: list[str]) -> str:
+    """Touchstone v1 text: `columns` is a list of complex arrays in file order (S11 or S11 S21 S12 S22)."""
+    lines = [f"! {c}" for c in comments]
+    lines.append(f"# {unit.upper()} S {fmt} R {Z0_OHM:g}")
+    for i, f in enumerate(f_Hz):
+        values = " ".join(_pair(complex(col[i]), fmt) for col in columns)
+        lines.append(f"{f / UNIT_SCALE[unit]:.9g} {values}")
+    return "\n".join(lines) + "\n"
+
+
+def manifest(spec: dict) -> str:
+    return f'''# Invented demo data made by scripts/make_sample_data.py (ngspice + simulated VNA noise).
+# Core: NiZn ferrite toroid, µi ≈ 800.
+
+[transformer]
+name = "{spec["name"]}"
+primary_turns = {PRIMARY_TURNS}
+secondary_turns = {spec["secondary_turns"]}
+
+[core]
+shape = "toroid"
+outer_diameter_mm = {OD_MM}
+inner_diameter_mm = {ID_MM}
+height_mm = {HEIGHT_MM}
+
+[design]
+source_impedance_ohm = 50
+load_impedance_ohm = 450
+lowest_frequency_Hz = 3.5e6
+highest_frequency_Hz = 30e6
+reactance_factor = 4
+
+[[sweep]]
+file = "pri_open.s1p"
+port1 = "primary"
+termination = "open"
+
+[[sweep]]
+file = "pri_short.s1p"
+port1 = "primary"
+termination = "short"
+
+[[sweep]]
+file = "sec_open.s1p"
+port1 = "secondary"
+termination = "open"
+
+[[sweep]]
+file = "thru.s2p"
+port1 = "primary"
+port2 = "secondary"
+'''
+
+
+def make_set(folder: Path, spec: dict, params: TransformerParams, rng: np.random.Generator) -> None:
+    folder.mkdir(parents=True, exist_ok=True)
+    header = [
+        "Invented demo data, not a measurement: ngspice simulation plus simulated VNA noise",
+        "(scripts/make_sample_data.py).",
+        f"Scenario: {spec['name']}; a 50 ohm to 450 ohm coupler for a ladder-line feed,",
+        f"{PRIMARY_TURNS} primary turns, {spec['wording']};",
+        f"NiZn ferrite toroid (µi ≈ 800) {OD_MM} / {ID_MM} / {HEIGHT_MM} mm.",
+    ]
+    one_ports = (
+        ("pri_open.s1p", OnePort("primary", "open", Z0_OHM), "MHz", "MA",
+         "Primary on port 1, secondary open."),
+        ("pri_short.s1p", OnePort("primary", "short", Z0_OHM), "Hz", "RI",
+         "Primary on port 1, secondary shorted."),
+        ("sec_open.s1p", OnePort("secondary", "open", Z0_OHM), "kHz", "DB",
+         "Secondary on port 1, primary open."),
+    )
+    for file, sweep, unit, fmt, what in one_ports:
+        s11 = add_noise(simulate_spice(params, ONE_PORT_F_HZ, sweep), rng)
+        (folder / file).write_text(touchstone(ONE_PORT_F_HZ, [s11], unit, fmt, header + [what]),
+                                   encoding="utf-8")
+    f_parts, s21_parts, s11_parts = [], [], []
+    for f in THRU_SEGMENTS_HZ:
+        s = simulate_spice(params, f, TwoPort("primary", Z0_OHM, Z0_OHM))
+        f_parts.append(f)
+        s11_parts.append(add_noise(s[:, 0, 0], rng))
+        s21_parts.append(add_noise(s[:, 1, 0], rng))
+    f_thru = np.concatenate(f_parts)
+    zeros = np.zeros(f_thru.size, dtype=complex)
+    thru_text = touchstone(
+        f_thru, [np.concatenate(s11_parts), np.concatenate(s21_parts), zeros, zeros], "MHz", "RI",
+        header + ["Primary on port 1, secondary on port 2; forward sweep only (S12, S22 not measured).",
+                  "Two segments, 0.1-10 MHz and 10-100 MHz, joined as written by the instrument."])
+    (folder / "thru.s2p").write_text(thru_text, encoding="utf-8")
+    (folder / "manifest.toml").write_text(manifest(spec), encoding="utf-8")
+
+
+def main(argv: list[str]) -> int:
+    out = Path(argv[1]) if len(argv) > 1 else ROOT / "sample_data"
+    rng = np.random.default_rng(SEED)
+    truth = {}
+    for folder, spec in SETS.items():
+        params = true_params(spec["secondary_turns"], spec["C2_F"])
+        make_set(out / folder, spec, params, rng)
+        truth[folder] = params.to_dict()
+    (out / "truth.json").write_text(json.dumps(truth, indent=2) + "\n", encoding="utf-8")
+    a_l = inductance_factor_H()
+    print(f"A_L = {a_l * 1e9:.2f} nH/turn², C1 = {toroid_c1_per_m(OD_MM, ID_MM, HEIGHT_MM):.1f} 1/m")
+    for folder, values in truth.items():
+        print(folder, values)
+    return 0
+
+
+if __name__ == "__main__":
+    sys.exit(main(sys.argv))
