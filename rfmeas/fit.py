@@ -57,6 +57,8 @@ NEUTRAL = {
     "C1_F": 1e-17, "C2_F": 1e-17, "C12_F": 1e-17,
 }
 _STEP = 1e-6  # forward-difference step in internal (log) coordinates
+_BAD_RESIDUAL = 1e6
+_MARGIN = 5.0  # how far (in log units) the unbounded solver may wander past a range edge
 
 
 def to_internal(name: str, value: float) -> float:
@@ -80,6 +82,7 @@ class FitOutcome:
     params: TransformerParams
     free: tuple[str, ...]                 # fitted parameters
     held: dict                            # name -> (value held at, reason)
+    referred: dict                        # name -> note: fitted, but only as referred to the other side
     x: np.ndarray                         # internal coordinates of the free parameters
     covariance: np.ndarray | None         # internal coordinates, free parameters
     residual_variance: float              # s², weighted residual variance per degree of freedom
@@ -131,13 +134,15 @@ class SweepProblem:
         return out
 
     def residual_rows(self, values: np.ndarray) -> np.ndarray:
-        """Weighted real residuals, shape (m, N)."""
+        """Weighted real residuals, shape (m, N); a network that cannot be evaluated scores badly."""
         parts = []
-        for model, meas, w in zip(self.predict(values), self.measured, self.weights):
-            d = (model - meas[None]) * w
-            parts.append(d.real.reshape(d.shape[0], -1))
-            parts.append(d.imag.reshape(d.shape[0], -1))
-        return np.concatenate(parts, axis=1)
+        with np.errstate(all="ignore"):
+            for model, meas, w in zip(self.predict(values), self.measured, self.weights):
+                d = (model - meas[None]) * w
+                parts.append(d.real.reshape(d.shape[0], -1))
+                parts.append(d.imag.reshape(d.shape[0], -1))
+        rows = np.concatenate(parts, axis=1)
+        return np.nan_to_num(rows, nan=_BAD_RESIDUAL, posinf=_BAD_RESIDUAL, neginf=-_BAD_RESIDUAL)
 
     def complex_residuals(self, values: np.ndarray) -> list[np.ndarray]:
         return [model[0] - meas for model, meas in zip(self.predict(values[None]), self.measured)]
@@ -158,7 +163,8 @@ class _Objective:
     def values(self, X: np.ndarray) -> np.ndarray:
         rows = np.repeat(self.base[None, :], X.shape[0], axis=0)
         for j, (name, i) in enumerate(zip(self.free, self.index)):
-            rows[:, i] = to_physical(name, X[:, j])
+            lo, hi = internal_bounds(name)
+            rows[:, i] = to_physical(name, np.clip(X[:, j], lo - _MARGIN, hi + _MARGIN))
         return rows
 
     def residuals(self, x: np.ndarray) -> np.ndarray:
@@ -223,17 +229,20 @@ def fit_sweeps(sweeps: list[Sweep], start: TransformerParams | None = None) -> F
     points = sum(m.size for m in problem.measured) * 2
 
     held: dict[str, tuple[float, str]] = {}
-    for winding, own in (("secondary", ("L2_H", "R2_ohm", "C2_F")), ("primary", ("L1_H", "R1_ohm", "C1_F"))):
+    referred: dict[str, str] = {}
+    for winding, own, ref, side in (("secondary", "L2_H", ("R2_ohm", "C2_F"), "primary"),
+                                    ("primary", "L1_H", ("R1_ohm", "C1_F"), "secondary")):
         if sweeps_that_see(sweeps, winding):
             continue
-        # without the other winding's inductance its capacitances cannot be referred:
-        # the seen winding's C then stands for the total capacitance at its terminals
-        reason = f"no sweep sees the {winding} winding's inductance"
-        for name in own + ("C12_F",):
-            held[name] = (NEUTRAL.get(name, start_values[name]), reason)
-    if not sweeps_see_coupling(sweeps):
-        held["k"] = (start_values["k"], "coupling needs a shorted, loaded or two-port sweep")
-
+        # The unseen winding is modelled 1:1 (its inductance held equal to the seen one), so
+        # its resistance and capacitance come out referred to the seen side; C12 cannot be
+        # told from the referred capacitance and is held at zero.
+        seen = "L1_H" if own == "L2_H" else "L2_H"
+        start_values[own] = start_values[seen]
+        held[own] = (start_values[own], f"no sweep sees the {winding} winding's inductance")
+        held["C12_F"] = (NEUTRAL["C12_F"], f"needs the {winding} winding's inductance to be referred")
+        for name in ref:
+            referred[name] = f"referred to the {side} (the turns ratio is not measured)"
     current = dict(start_values)
     total_evals = 0
     k_starts = [current["k"]]
@@ -292,7 +301,7 @@ def fit_sweeps(sweeps: list[Sweep], start: TransformerParams | None = None) -> F
     params = _to_params(final_values, polarity)
     residuals = problem.complex_residuals(final_values)
     return FitOutcome(
-        params=params, free=tuple(free), held=dict(held), x=res.x.copy(),
+        params=params, free=tuple(free), held=dict(held), referred=dict(referred), x=res.x.copy(),
         covariance=cov, residual_variance=residual_variance,
         sweep_sigma=tuple(float(s) for s in sigma), residuals=tuple(residuals),
         converged=bool(res.success), message=str(res.message), evaluations=total_evals,
