@@ -164,7 +164,8 @@ class _Objective:
         rows = np.repeat(self.base[None, :], X.shape[0], axis=0)
         for j, (name, i) in enumerate(zip(self.free, self.index)):
             lo, hi = internal_bounds(name)
-            rows[:, i] = to_physical(name, np.clip(X[:, j], lo - _MARGIN, hi + _MARGIN))
+            upper = hi if name == "k" else hi + _MARGIN  # k itself must stay positive
+            rows[:, i] = to_physical(name, np.clip(X[:, j], lo - _MARGIN, upper))
         return rows
 
     def residuals(self, x: np.ndarray) -> np.ndarray:
