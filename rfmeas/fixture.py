@@ -182,9 +182,14 @@ class PortExtension:
         return self.loss_dB * np.sqrt(np.asarray(f_Hz, dtype=float) / self.loss_frequency_Hz)
 
     def compensate_reflection(self, f_Hz, s11, path=None) -> np.ndarray:
+        """S11 at the end of the line; the line is matched to whatever Z0 s11 is referenced to."""
         f = np.asarray(f_Hz, dtype=float)
         gain = 10.0 ** (2.0 * self.one_way_loss_dB(f) / 20.0)
         return np.asarray(s11, dtype=complex) * gain * np.exp(4j * np.pi * f * self.delay_s)
+
+    def to_dict(self) -> dict:
+        return {"delay_s": float(self.delay_s), "loss_dB": float(self.loss_dB),
+                "loss_frequency_Hz": float(self.loss_frequency_Hz)}
 
 
 @dataclass(frozen=True, eq=False)
@@ -226,9 +231,7 @@ class Fixture:
     def to_dict(self) -> dict:
         out = {"name": self.name, "path": self.path, "kind": self.kind, "description": self.description}
         if self.extension is not None:
-            out["extension"] = {"delay_s": float(self.extension.delay_s),
-                                "loss_dB": float(self.extension.loss_dB),
-                                "loss_frequency_Hz": float(self.extension.loss_frequency_Hz)}
+            out["extension"] = self.extension.to_dict()
         if self.standards is not None:
             st = self.standards
             out["standards"] = {"files": dict(self.standard_files), "with_load": st.with_load,

@@ -32,14 +32,11 @@ sigma_S = sqrt(floor^2 + (relative |S|)^2).
 
 from __future__ import annotations
 
-import logging
 from dataclasses import dataclass
 
 import numpy as np
 
 from .errors import InputError
-
-log = logging.getLogger(__name__)
 
 REFLECTION = "reflection"
 SERIES_THROUGH = "series-through"
