@@ -49,13 +49,15 @@ def format_engineering(value: float | None, unit: str = "", digits: int = 4) -> 
         return f"0 {unit}".strip()
     if not math.isfinite(value):
         return ("∞" if value > 0 else "−∞") + (f" {unit}" if unit else "")
-    exponent = int(math.floor(math.log10(abs(value)) / 3.0) * 3)
+    rounded = float(f"{value:.{digits}g}")  # round to `digits` significant figures first
+    exponent = int(math.floor(math.log10(abs(rounded)) / 3.0) * 3)
     exponent = max(-15, min(12, exponent))
     prefix = dict(_FORMAT_PREFIXES)[exponent]
-    scaled = value / 10.0 ** exponent
-    text = f"{scaled:.{digits}g}"
-    if "e" in text:  # rounding pushed it to the next decade (999.96 -> 1e+03)
-        return format_engineering(float(text) * 10.0 ** exponent, unit, digits)
+    scaled = rounded / 10.0 ** exponent
+    decimals = max(0, digits - 1 - int(math.floor(math.log10(abs(scaled)))))
+    text = f"{scaled:.{decimals}f}"
+    if "." in text:
+        text = text.rstrip("0").rstrip(".")
     return f"{text} {prefix}{unit}".strip()
 
 
