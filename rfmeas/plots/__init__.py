@@ -1,0 +1,1 @@
+"""Plots (matplotlib). Import matplotlib only inside these modules, never at CLI start-up."""
