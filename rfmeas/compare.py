@@ -10,7 +10,7 @@ from __future__ import annotations
 import math
 from dataclasses import dataclass
 
-from .units import format_engineering
+from .units import format_engineering, format_with_error
 
 SIGMA_FACTOR = 3.0
 RULE = ("significant when |after - before| > 3*sqrt(stderr_before^2 + stderr_after^2); "
@@ -108,16 +108,21 @@ def _ratio_error(result: dict, design_ratio: float | None) -> tuple[float | None
             None if stderr is None else stderr / abs(design_ratio) * 100.0)
 
 
-def format_quantity(key: str, value: float | None) -> str:
-    """A value for people, with the unit its key names."""
+def unit_of(key: str) -> str:
+    """The SI unit a contract key names by its suffix ('' when it names none)."""
+    return next((unit for suffix, unit in _UNIT_SUFFIXES if key.endswith(suffix)), "")
+
+
+def format_quantity(key: str, value: float | None, stderr: float | None = None) -> str:
+    """A value (and its standard error, when given) for people, with the unit its key names."""
     if value is None:
         return "—"
+    unit = unit_of(key)
+    if unit:
+        return format_engineering(value, unit) if stderr is None else format_with_error(value, stderr, unit)
     if key.endswith("_percent"):
-        return f"{value:.3g} %"
-    for suffix, unit in _UNIT_SUFFIXES:
-        if key.endswith(suffix):
-            return format_engineering(value, unit)
-    return f"{value:.4g}"
+        return f"{value:.3g} %" if stderr is None else f"{value:.3g} ± {stderr:.2g} %"
+    return f"{value:.4g}" if stderr is None else f"{value:.4g} ± {stderr:.2g}"
 
 
 def _design_targets(design: dict | None, after: dict) -> dict:

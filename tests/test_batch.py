@@ -120,3 +120,28 @@ def test_find_manifests(units, tmp_path):
     assert find_manifests([str(units[3]), str(units[3])]) == [units[3]]
     with pytest.raises(InputError):
         find_manifests([str(tmp_path / "nothing-*.toml")])
+
+
+# --- the batch command --------------------------------------------------------------------
+
+def test_batch_command(units, tmp_path, monkeypatch):
+    from typer.testing import CliRunner
+
+    import rfmeas.batch
+    from tests.helpers.cli_app import cli_app
+
+    monkeypatch.setattr(rfmeas.batch, "analyse_manifest", fake_analyse)
+    runner = CliRunner()
+    app = cli_app()
+    folder = str(units[0].parent)
+    res = runner.invoke(app, ["batch", folder, "--workers", "2", "--json", "--csv", str(tmp_path / "lot.csv")])
+    assert res.exit_code == 2  # one unit could not be analysed
+    data = json.loads(res.stdout)
+    assert data["counts"]["error"] == 1 and "thru.s2p' is missing" in res.stderr
+    assert len(list(csv.DictReader(io.StringIO((tmp_path / "lot.csv").read_text())))) == N_UNITS
+    good = [str(p) for i, p in enumerate(units) if i != BAD]
+    res = runner.invoke(app, ["batch", *good, "--workers", "1"])
+    assert res.exit_code == 1  # a design check failed
+    assert "yield 16/19 = 84.2 %" in res.stdout and "primary_inductance_H" in res.stdout
+    res = runner.invoke(app, ["batch", str(tmp_path / "none-*.toml")])
+    assert res.exit_code == 2 and "no manifest found" in res.stderr

@@ -112,3 +112,38 @@ def test_format_quantity():
     assert format_quantity("coupling_coefficient", 0.99871) == "0.9987"
     assert format_quantity("x_H", None) == "—"
     assert not math.isnan(judge(1.0, 2.0, None, 0.1).change_percent)
+
+
+# --- the compare command: two stored records need no fit ----------------------------------
+
+def test_compare_command_on_stored_records(tmp_path):
+    import json
+
+    from typer.testing import CliRunner
+
+    from rfmeas.store import HistoryStore
+    from tests.helpers.cli_app import cli_app
+
+    db = tmp_path / "h.sqlite3"
+    with HistoryStore(db) as s:
+        first = s.record("unit 7", None, [("a.s1p", b"x")], BEFORE)
+        second = s.record("unit 7", None, [("a.s1p", b"y")], AFTER)
+    runner = CliRunner()
+    app = cli_app()
+    res = runner.invoke(app, ["compare", f"@{first}", f"@{second}", "--db", str(db), "--json"])
+    assert res.exit_code == 0, res.output
+    data = json.loads(res.stdout)
+    assert data["changes"]["secondary_inductance_H"]["significant"] is True
+    assert data["changes"]["primary_inductance_H"]["significant"] is False
+    assert data["before"].startswith(f"@{first} ")
+    assert data == json.loads(runner.invoke(app, ["compare", "@prev", "@latest:unit 7", "--db", str(db),
+                                                  "--json"]).stdout)
+    res = runner.invoke(app, ["compare", f"@{first}", f"@{second}", "--db", str(db)])
+    assert res.exit_code == 0
+    assert "Low-frequency limit improved" in res.stdout and "secondary_inductance_H" in res.stdout
+    for args, message in ((["@99", f"@{second}"], "no record 99"),
+                          ([f"@{first}", "@prev"], "@prev needs"),
+                          ([f"@{first}", str(tmp_path / "missing.toml")], "no such file"),
+                          ([f"@{first}", str(db)], "not a manifest")):
+        res = runner.invoke(app, ["compare", *args, "--db", str(db)])
+        assert res.exit_code == 2 and message in res.stderr, (args, res.output)

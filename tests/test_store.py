@@ -252,3 +252,35 @@ def test_record_analysis_takes_manifest_from_sources(store):
 
     rec = store.get(record_analysis(store, FakeAnalysis()))
     assert rec.unit == "bench unit 7" and rec.manifest_text == MANIFEST
+
+
+# --- the history command ------------------------------------------------------------------
+
+def test_history_command_lists_and_exports(tmp_path, monkeypatch):
+    import json
+
+    from typer.testing import CliRunner
+
+    from tests.helpers.cli_app import cli_app
+
+    db = tmp_path / "h.sqlite3"
+    with HistoryStore(db) as s:
+        a = add(s)
+        add(s, name="other unit", passed=False)
+    runner = CliRunner()
+    app = cli_app()
+    res = runner.invoke(app, ["history", "--db", str(db), "--json"])
+    assert res.exit_code == 0, res.output
+    data = json.loads(res.stdout)
+    assert [r["unit"] for r in data["records"]] == ["other unit", "bench unit 7"]
+    assert data["records"][0]["design_status"] == "fail"
+    monkeypatch.setenv("RFMEAS_DB", str(db))  # the env var stands in for --db
+    res = runner.invoke(app, ["history", "bench unit 7"])
+    assert res.exit_code == 0 and "bench unit 7" in res.stdout and "other unit" not in res.stdout
+    res = runner.invoke(app, ["history", "--export", str(a), str(tmp_path / "out")])
+    assert res.exit_code == 0, res.output
+    assert (tmp_path / "out" / "pri_open.s1p").read_bytes() == SWEEP
+    res = runner.invoke(app, ["history", "--export", str(a), str(tmp_path / "out")])
+    assert res.exit_code == 2 and "exists already" in res.stderr
+    res = runner.invoke(app, ["history", "--export", "99", str(tmp_path / "out2")])
+    assert res.exit_code == 2 and "no record 99" in res.stderr

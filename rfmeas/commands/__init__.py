@@ -9,4 +9,7 @@ Modules import only typer and the standard library at the top; heavy imports
 COMMAND_MODULES = [
     "analyze",
     "demo",
+    "compare",
+    "history",
+    "batch",
 ]
