@@ -67,8 +67,8 @@ def _print_comparison(comparison, before_label: str, after_label: str) -> None:
 
     console = stdout_console()
     table = Table(title=f"before: {before_label}\nafter:  {after_label}")
-    for column, justify in (("quantity", "left"), ("before", "right"), ("after", "right"),
-                            ("change", "right"), ("significant", "left")):
+    table.add_column("quantity", overflow="fold")
+    for column, justify in (("before", "right"), ("after", "right"), ("change", "right"), ("significant", "left")):
         table.add_column(column, justify=justify)
     words = {True: "yes", False: "no", None: "not judged"}
     for key, c in comparison.changes.items():
