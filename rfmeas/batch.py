@@ -218,7 +218,8 @@ def run_batch(manifest_paths: Iterable[str | Path], workers: int | None = None,
         for i, path in enumerate(paths):
             finished(i, _run_one(analyse, path))
     else:
-        with ProcessPoolExecutor(max_workers=workers) as pool:
+        pool = ProcessPoolExecutor(max_workers=workers)
+        try:
             futures = {pool.submit(_run_one, analyse, path): i for i, path in enumerate(paths)}
             for future in as_completed(futures):
                 i = futures[future]
@@ -227,6 +228,8 @@ def run_batch(manifest_paths: Iterable[str | Path], workers: int | None = None,
                 except BrokenProcessPool:
                     outcome = _failed(paths[i], f"{paths[i]}: the worker process died (out of memory?)")
                 finished(i, outcome)
+        finally:  # on Ctrl-C, drop the units not started instead of waiting for them all
+            pool.shutdown(wait=True, cancel_futures=True)
     units = tuple(outcomes[i] for i in range(total))
     return BatchResult(units=units, spread=spread_of(units))
 

@@ -268,11 +268,15 @@ class HistoryStore:
     # writing
     def record(self, name: str, manifest_text: str | None, sources: list[tuple[str, bytes]],
                result: dict) -> int:
-        """Store one analysis; returns its record id. `sources`: (path relative to manifest, bytes)."""
+        """Store one analysis; returns its record id. `sources`: (path relative to manifest, bytes).
+
+        The result is kept as strict JSON: NaN and infinities become null.
+        """
         from . import __version__
+        from .commands._common import dumps_json
 
         rows = _checked_sources(sources)
-        result_json = json.dumps(result, allow_nan=False, sort_keys=True)
+        result_json = dumps_json(result)
         conn = self._connect()
         with self._transaction(conn):
             return self._insert(conn, name, manifest_text, rows, result_json, __version__)

@@ -125,9 +125,12 @@ def test_bad_sources_are_refused_and_nothing_is_written(store):
         store.record("u", None, [("a.s1p", b"1"), ("a.s1p", b"2")], result_for("u"))
     with pytest.raises(InputError, match="bytes"):
         store.record("u", None, [("a.s1p", "text")], result_for("u"))
-    with pytest.raises(ValueError):  # NaN is not JSON; the result must be cleaned first
-        store.record("u", None, [], {"x": float("nan")})
     assert store.list() == []
+
+
+def test_non_finite_numbers_are_kept_as_null(store):
+    rid = store.record("u", None, [], {"name": "u", "parameters": {"k": {"value": 0.99, "stderr": float("nan")}}})
+    assert store.get(rid).result["parameters"]["k"] == {"value": 0.99, "stderr": None}
 
 
 def test_interrupted_write_rolls_back(store):
