@@ -13,6 +13,7 @@ import glob
 import io
 import json
 import logging
+import multiprocessing
 import os
 import statistics
 import tempfile
@@ -218,7 +219,9 @@ def run_batch(manifest_paths: Iterable[str | Path], workers: int | None = None,
         for i, path in enumerate(paths):
             finished(i, _run_one(analyse, path))
     else:
-        pool = ProcessPoolExecutor(max_workers=workers)
+        # Not a plain fork: the progress bar's thread is running in this process.
+        method = "forkserver" if "forkserver" in multiprocessing.get_all_start_methods() else None
+        pool = ProcessPoolExecutor(max_workers=workers, mp_context=multiprocessing.get_context(method))
         try:
             futures = {pool.submit(_run_one, analyse, path): i for i, path in enumerate(paths)}
             for future in as_completed(futures):
