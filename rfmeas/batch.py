@@ -74,7 +74,7 @@ class BatchResult:
     """All units in input order, their spread, and the yield.
 
     yield_fraction = passed / (passed + failed + errors); units without a design
-    check are left out; None when no unit was judged.
+    check are left out; None when no unit has a design check.
     """
 
     units: tuple[UnitOutcome, ...]
@@ -87,8 +87,9 @@ class BatchResult:
     @property
     def yield_fraction(self) -> float | None:
         c = self.counts
-        judged = c["pass"] + c["fail"] + c["error"]
-        return c["pass"] / judged if judged else None
+        if not c["pass"] + c["fail"]:
+            return None
+        return c["pass"] / (c["pass"] + c["fail"] + c["error"])
 
     @property
     def exit_code(self) -> int:

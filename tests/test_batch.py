@@ -83,6 +83,13 @@ def test_exit_codes(units):
         run_batch(units, workers=0, analyse=fake_analyse)
 
 
+def test_no_yield_without_design_checks(units):
+    result = BatchResult(units=(summarise("a", {"name": "a"}), run_batch(units[BAD:BAD + 1], workers=1,
+                                                                         analyse=fake_analyse).units[0]), spread={})
+    assert result.counts["no design"] == 1 and result.counts["error"] == 1
+    assert result.yield_fraction is None
+
+
 def test_csv_and_json_export(units, tmp_path):
     result = run_batch(units, workers=2, analyse=fake_analyse)
     out = tmp_path / "lot.csv"

@@ -65,8 +65,8 @@ def _print_summary(result) -> None:
     if result.spread:
         console.print(spread)
     c = result.counts
-    judged = c["pass"] + c["fail"] + c["error"]
     y = result.yield_fraction
     console.print(f"passed {c['pass']}, failed {c['fail']}, could not be analysed {c['error']}, "
                   f"no design check {c['no design']}; yield "
-                  + ("— (no unit has a design check)" if y is None else f"{c['pass']}/{judged} = {100 * y:.1f} %"))
+                  + ("— (no unit has a design check)" if y is None
+                     else f"{c['pass']}/{c['pass'] + c['fail'] + c['error']} = {100 * y:.1f} %"))
