@@ -8,6 +8,9 @@ Modules import only typer and the standard library at the top; heavy imports
 # Order here is the order `rfmeas --help` lists them in.
 COMMAND_MODULES = [
     "analyze",
-    "demo",
     "plan",
+    "compare",
+    "history",
+    "batch",
+    "demo",
 ]

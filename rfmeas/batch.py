@@ -1,0 +1,235 @@
+"""Analyse many units in parallel and sum them up: pass/fail per unit, yield, spread of every value.
+
+Each worker process returns only a small summary of its unit (names, values,
+standard errors, status), never arrays, so memory stays flat however many
+units there are. A unit that cannot be analysed is reported with its error
+message and never stops the others.
+"""
+
+from __future__ import annotations
+
+import csv
+import glob
+import io
+import json
+import logging
+import multiprocessing
+import os
+import statistics
+from collections.abc import Callable, Iterable
+from concurrent.futures import ProcessPoolExecutor, as_completed
+from concurrent.futures.process import BrokenProcessPool
+from dataclasses import dataclass
+from pathlib import Path
+
+from .io.atomic import atomic_write_text
+from .errors import EXIT_BAD_INPUT, EXIT_DESIGN_FAILED, EXIT_OK, InputError, RfmeasError
+from .store import design_status
+
+log = logging.getLogger(__name__)
+
+STATUSES = ("pass", "fail", "no design", "error")
+
+
+def analyse_manifest(path: str) -> dict:
+    """The default analysis: rfmeas.analysis on one manifest, as the JSON-contract dict."""
+    from .analysis import analyze_manifest
+
+    return analyze_manifest(path).to_dict()
+
+
+@dataclass(frozen=True)
+class UnitOutcome:
+    """One unit of the batch: its status and the values it produced (or why it produced none)."""
+
+    path: str
+    name: str | None
+    status: str  # one of STATUSES
+    error: str | None
+    values: dict[str, float | None]
+    stderrs: dict[str, float | None]
+    warnings: tuple[str, ...] = ()
+
+    def to_dict(self) -> dict:
+        return {"path": self.path, "name": self.name, "status": self.status, "error": self.error,
+                "values": self.values, "stderrs": self.stderrs, "warnings": list(self.warnings)}
+
+
+@dataclass(frozen=True)
+class Spread:
+    """How one value varies over the units that have it (std: sample standard deviation)."""
+
+    count: int
+    mean: float
+    std: float | None
+    min: float
+    max: float
+
+    def to_dict(self) -> dict:
+        return {"count": self.count, "mean": self.mean, "std": self.std, "min": self.min, "max": self.max}
+
+
+@dataclass(frozen=True)
+class BatchResult:
+    """All units in input order, their spread, and the yield.
+
+    yield_fraction = passed / (passed + failed + errors); units without a design
+    check are left out; None when no unit has a design check.
+    """
+
+    units: tuple[UnitOutcome, ...]
+    spread: dict[str, Spread]
+
+    @property
+    def counts(self) -> dict[str, int]:
+        return {s: sum(1 for u in self.units if u.status == s) for s in STATUSES}
+
+    @property
+    def yield_fraction(self) -> float | None:
+        c = self.counts
+        if not c["pass"] + c["fail"]:
+            return None
+        return c["pass"] / (c["pass"] + c["fail"] + c["error"])
+
+    @property
+    def exit_code(self) -> int:
+        """2 if any unit could not be analysed, else 1 if any failed its design check, else 0."""
+        c = self.counts
+        return EXIT_BAD_INPUT if c["error"] else EXIT_DESIGN_FAILED if c["fail"] else EXIT_OK
+
+    def to_dict(self) -> dict:
+        return {"units": [u.to_dict() for u in self.units], "counts": self.counts,
+                "yield_fraction": self.yield_fraction,
+                "spread": {k: s.to_dict() for k, s in self.spread.items()}}
+
+    def to_csv(self) -> str:
+        """One row per unit: path, name, status, error, then each value and its standard error."""
+        keys = sorted({k for u in self.units for k in u.values})
+        buf = io.StringIO()
+        writer = csv.writer(buf, lineterminator="\n")
+        writer.writerow(["path", "name", "status", "error"] + [c for k in keys for c in (k, f"{k}_stderr")])
+        for u in self.units:
+            writer.writerow([u.path, u.name or "", u.status, u.error or ""] +
+                            [_csv_number(d.get(k)) for k in keys for d in (u.values, u.stderrs)])
+        return buf.getvalue()
+
+    def write_csv(self, path: str | Path) -> None:
+        atomic_write_text(path, self.to_csv())
+
+    def write_json(self, path: str | Path) -> None:
+        atomic_write_text(path, json.dumps(self.to_dict(), indent=2, allow_nan=False) + "\n")
+
+
+def _csv_number(value) -> str:
+    return "" if value is None else repr(value)
+
+
+def _entry_value(entry) -> tuple[float | None, float | None] | None:
+    """(value, stderr) of a number or {"value", "stderr"}; None for anything else (text, flags)."""
+    if isinstance(entry, dict):
+        entry, stderr = entry.get("value"), entry.get("stderr")
+    else:
+        stderr = None
+    if entry is not None and (isinstance(entry, bool) or not isinstance(entry, (int, float))):
+        return None
+    stderr = float(stderr) if isinstance(stderr, (int, float)) and not isinstance(stderr, bool) else None
+    return (None if entry is None else float(entry)), stderr
+
+
+def summarise(path: str, result: dict) -> UnitOutcome:
+    """The small per-unit summary a worker sends back."""
+    values, stderrs = {}, {}
+    for section in ("parameters", "figures"):
+        for key, entry in (result.get(section) or {}).items():
+            q = _entry_value(entry)
+            if q is None:
+                continue
+            name = key if key not in values else f"{section}.{key}"
+            values[name], stderrs[name] = q
+    return UnitOutcome(path=path, name=result.get("name"), status=design_status(result), error=None,
+                       values=values, stderrs=stderrs, warnings=tuple(str(w) for w in result.get("warnings") or ()))
+
+
+def _failed(path: str, message: str) -> UnitOutcome:
+    return UnitOutcome(path=path, name=None, status="error", error=message, values={}, stderrs={})
+
+
+def _run_one(analyse: Callable[[str], dict], path: str) -> UnitOutcome:
+    """Analyse one unit; any failure becomes an 'error' outcome carrying its message."""
+    try:
+        return summarise(path, analyse(path))
+    except RfmeasError as exc:
+        return _failed(path, str(exc))
+    except Exception as exc:  # a bug must not stop the lot; it is reported with its type
+        log.exception("unit %s: unexpected failure", path)
+        return _failed(path, f"{path}: internal error ({type(exc).__name__}: {exc})")
+
+
+def spread_of(units: Iterable[UnitOutcome]) -> dict[str, Spread]:
+    """Mean, sample standard deviation, min and max of every value over the units that have it."""
+    columns: dict[str, list[float]] = {}
+    for u in units:
+        for key, value in u.values.items():
+            if value is not None:
+                columns.setdefault(key, []).append(value)
+    return {key: Spread(len(v), statistics.fmean(v), statistics.stdev(v) if len(v) > 1 else None, min(v), max(v))
+            for key, v in sorted(columns.items())}
+
+
+def run_batch(manifest_paths: Iterable[str | Path], workers: int | None = None,
+              progress: Callable[[int, int, UnitOutcome], None] | None = None,
+              analyse: Callable[[str], dict] = analyse_manifest) -> BatchResult:
+    """Analyse every manifest over `workers` processes (default: all cores).
+
+    `analyse` must be picklable (a module-level function); workers=1 runs in
+    this process. `progress(done, total, outcome)` is called as each unit ends.
+    """
+    paths = [str(p) for p in manifest_paths]
+    if workers is not None and workers < 1:
+        raise InputError(f"--workers must be at least 1, not {workers}")
+    total = len(paths)
+    outcomes: dict[int, UnitOutcome] = {}
+
+    def finished(index: int, outcome: UnitOutcome) -> None:
+        outcomes[index] = outcome
+        if progress is not None:
+            progress(len(outcomes), total, outcome)
+
+    workers = min(workers or os.cpu_count() or 1, max(total, 1))
+    if workers == 1:
+        for i, path in enumerate(paths):
+            finished(i, _run_one(analyse, path))
+    else:
+        # Not a plain fork: the progress bar's thread is running in this process.
+        method = "forkserver" if "forkserver" in multiprocessing.get_all_start_methods() else None
+        pool = ProcessPoolExecutor(max_workers=workers, mp_context=multiprocessing.get_context(method))
+        try:
+            futures = {pool.submit(_run_one, analyse, path): i for i, path in enumerate(paths)}
+            for future in as_completed(futures):
+                i = futures[future]
+                try:
+                    outcome = future.result()
+                except BrokenProcessPool:
+                    outcome = _failed(paths[i], f"{paths[i]}: the worker process died (out of memory?)")
+                finished(i, outcome)
+        finally:  # on Ctrl-C, drop the units not started instead of waiting for them all
+            pool.shutdown(wait=True, cancel_futures=True)
+    units = tuple(outcomes[i] for i in range(total))
+    return BatchResult(units=units, spread=spread_of(units))
+
+
+def find_manifests(targets: Iterable[str]) -> list[Path]:
+    """Manifests named by folders (every *.toml below them), glob patterns or file paths."""
+    found: list[Path] = []
+    for target in targets:
+        p = Path(target)
+        if p.is_dir():
+            matches = sorted(p.rglob("*.toml"))
+        elif p.is_file():
+            matches = [p]
+        else:
+            matches = sorted(Path(m) for m in glob.glob(target, recursive=True) if Path(m).is_file())
+        if not matches:
+            raise InputError("no manifest found (give a folder, a glob such as 'units/*.toml', or files)", path=target)
+        found.extend(m for m in matches if m not in found)
+    return found

@@ -1,0 +1,72 @@
+"""`rfmeas batch`: analyse many units in parallel; pass/fail, yield and spread of the lot."""
+
+from __future__ import annotations
+
+from pathlib import Path
+from typing import List, Optional
+
+import typer
+
+from ._common import handles_errors, print_json, report_error, stderr_console, stdout_console
+
+
+def register(app: typer.Typer) -> None:
+    @app.command("batch")
+    @handles_errors
+    def batch(
+        targets: List[str] = typer.Argument(..., metavar="FOLDER_OR_GLOB...",
+                                            help="Folders (every *.toml below), glob patterns or manifests."),
+        workers: Optional[int] = typer.Option(None, "--workers", min=1, help="Worker processes (default: all cores)."),
+        csv_path: Optional[Path] = typer.Option(None, "--csv", metavar="FILE", help="Also write one CSV row per unit."),
+        json_out: bool = typer.Option(False, "--json", help="Print JSON on stdout."),
+    ):
+        """Analyse every unit; exit 1 if any failed its design check, 2 if any could not be analysed."""
+        from rich.progress import BarColumn, MofNCompleteColumn, Progress, TextColumn, TimeElapsedColumn
+
+        from .. import batch as batch_module
+
+        paths = batch_module.find_manifests(targets)
+        columns = (TextColumn("analysing"), BarColumn(), MofNCompleteColumn(), TimeElapsedColumn())
+        with Progress(*columns, console=stderr_console()) as bar:
+            task = bar.add_task("analysing", total=len(paths))
+            result = batch_module.run_batch(paths, workers=workers,
+                                            progress=lambda done, total, outcome: bar.update(task, completed=done),
+                                            analyse=batch_module.analyse_manifest)
+        for unit in result.units:
+            if unit.error:
+                report_error(unit.error)
+        if csv_path is not None:
+            result.write_csv(csv_path)
+        if json_out:
+            print_json(result.to_dict())
+        else:
+            _print_summary(result)
+        raise typer.Exit(result.exit_code)
+
+
+def _print_summary(result) -> None:
+    from rich.table import Table
+
+    from ..compare import format_quantity
+
+    console = stdout_console()
+    units = Table(title="units")
+    for column in ("manifest", "unit", "design check"):
+        units.add_column(column)
+    for u in result.units:
+        units.add_row(u.path, u.name or "—", u.status if not u.error else "error (see above)")
+    console.print(units)
+    spread = Table(title="spread over the lot")
+    for column, justify in (("quantity", "left"), ("units", "right"), ("mean", "right"), ("std", "right"),
+                            ("min", "right"), ("max", "right")):
+        spread.add_column(column, justify=justify)
+    for key, s in result.spread.items():
+        spread.add_row(key, str(s.count), *(format_quantity(key, v) for v in (s.mean, s.std, s.min, s.max)))
+    if result.spread:
+        console.print(spread)
+    c = result.counts
+    y = result.yield_fraction
+    console.print(f"passed {c['pass']}, failed {c['fail']}, could not be analysed {c['error']}, "
+                  f"no design check {c['no design']}; yield "
+                  + ("— (no unit has a design check)" if y is None
+                     else f"{c['pass']}/{c['pass'] + c['fail'] + c['error']} = {100 * y:.1f} %"))

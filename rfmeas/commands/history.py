@@ -1,0 +1,63 @@
+"""`rfmeas history`: list stored analyses, or export one's inputs back to files."""
+
+from __future__ import annotations
+
+from pathlib import Path
+from typing import Optional, Tuple
+
+import typer
+
+from ._common import handles_errors, print_json, stdout_console
+
+DB_HELP = "History store file (default: $RFMEAS_DB, else rfmeas/history.sqlite3 in the user's data folder)."
+
+
+def db_option():
+    return typer.Option(None, "--db", help=DB_HELP, metavar="PATH")
+
+
+def register(app: typer.Typer) -> None:
+    @app.command("history")
+    @handles_errors
+    def history(
+        unit: Optional[str] = typer.Argument(None, help="Only this unit's records."),
+        db: Optional[Path] = db_option(),
+        json_out: bool = typer.Option(False, "--json", help="Print JSON on stdout."),
+        limit: int = typer.Option(50, "--limit", min=1, help="Show at most N records, newest first."),
+        export: Optional[Tuple[int, Path]] = typer.Option(
+            None, "--export", metavar="ID DIR", help="Write record ID's manifest and sweep files into DIR."),
+        force: bool = typer.Option(False, "--force", help="With --export: overwrite existing files."),
+    ):
+        """List the stored analyses (newest first), or export one's raw inputs byte for byte."""
+        from ..store import HistoryStore
+
+        with HistoryStore(db) as store:
+            if export is not None:
+                record_id, folder = export
+                written = store.export(record_id, folder, overwrite=force)
+                if json_out:
+                    print_json({"record": record_id, "files": [str(p) for p in written]})
+                else:
+                    stdout_console().print(f"record {record_id}: wrote {len(written)} file(s) to {folder}")
+                return
+            rows = store.list(unit, limit=limit)
+            if json_out:
+                print_json({"db": str(store.path), "records": [r.to_dict() for r in rows]})
+                return
+            _print_table(rows, store.path, unit)
+
+
+def _print_table(rows, path, unit) -> None:
+    from rich.table import Table
+
+    console = stdout_console()
+    if not rows:
+        console.print(f"no records{f' of unit {unit!r}' if unit else ''} in {path}")
+        return
+    table = Table(title=f"history ({path})")
+    for column, justify in (("id", "right"), ("unit", "left"), ("recorded (UTC)", "left"),
+                            ("design", "left"), ("files", "right"), ("rfmeas", "left")):
+        table.add_column(column, justify=justify)
+    for r in rows:
+        table.add_row(str(r.id), r.unit, r.recorded_utc, r.design_status, str(r.file_count), r.software_version)
+    console.print(table)
