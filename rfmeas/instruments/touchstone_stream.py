@@ -90,5 +90,5 @@ class TouchstoneStream:
         if self._file is not None and not self._file.closed:
             self._write(f"! stopped after {self.rows} rows: {reason}\n")
             self._file.close()
-        log.warning("partial sweep kept in %s (%d rows): %s", self.partial, self.rows, reason)
+        log.info("partial sweep kept in %s (%d rows): %s", self.partial, self.rows, reason)
         return self.partial
