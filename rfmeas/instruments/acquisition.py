@@ -88,16 +88,17 @@ class Instrument:
 
     def _retrying(self, action: Callable, what: str):
         """Run `action`; repeat it after a timeout, at most `retries` more times."""
-        for attempt in range(self.retries + 1):
+        attempt = 0
+        while True:
             try:
                 return action()
             except InstrumentTimeout as exc:
-                if attempt == self.retries:
-                    tries = "try" if self.retries == 0 else "tries"
-                    raise InstrumentTimeout(f"{exc.message} ({what}; gave up after {self.retries + 1} {tries})") \
+                if attempt >= self.retries:
+                    tries = "try" if attempt == 0 else "tries"
+                    raise InstrumentTimeout(f"{exc.message} ({what}; gave up after {attempt + 1} {tries})") \
                         from exc
-                log.warning("%s (%s); retrying (%d of %d)", exc.message, what, attempt + 1, self.retries)
-        raise AssertionError("unreachable")  # pragma: no cover
+                attempt += 1
+                log.warning("%s (%s); retrying (%d of %d)", exc.message, what, attempt, self.retries)
 
     def measure_impedance(self, f_Hz: float) -> complex:
         """One LCR reading at `f_Hz`, as a complex impedance in ohms."""

@@ -11,7 +11,7 @@ from __future__ import annotations
 import os
 import string
 import tomllib
-from dataclasses import dataclass
+from dataclasses import asdict, dataclass
 from importlib import resources
 from pathlib import Path
 
@@ -87,8 +87,6 @@ class Profile:
         return getattr(self, key).format(**values)
 
     def to_dict(self) -> dict:
-        from dataclasses import asdict
-
         data = asdict(self)
         data["setup"] = list(self.setup)
         return data

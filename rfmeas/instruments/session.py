@@ -121,8 +121,8 @@ def open_session(resource_name: str, backend: str = DEFAULT_BACKEND, timeout_ms:
         resource = rm.open_resource(resource_name, timeout=timeout_ms,
                                     read_termination=read_termination,
                                     write_termination=write_termination)
-    except _transport_errors() as exc:
+    except (*_transport_errors(), ValueError) as exc:  # ValueError: the backend lacks a transport package
         rm.close()
-        detail = getattr(exc, "description", None) or str(exc)
+        detail = " ".join((getattr(exc, "description", None) or str(exc)).split())
         raise InstrumentError(f"{resource_name}: cannot open the instrument: {detail}") from exc
     return Session(resource, resource_name)
