@@ -43,7 +43,6 @@ class Instrument:
         self.session = session
         self.profile = profile
         self.retries = profile.retries if retries is None else retries
-        self.identity = ""
 
     @property
     def source(self) -> str:
@@ -60,7 +59,6 @@ class Instrument:
         if not reply:
             raise InstrumentError(f"{self.source}: empty reply to '{command}'; no instrument seems "
                                   f"to be answering at this resource")
-        self.identity = reply
         log.info("%s identifies as %s", self.source, reply)
         return reply
 
