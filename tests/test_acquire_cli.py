@@ -211,6 +211,14 @@ def test_guided_session_retry_and_stop_after_fault(app, tmp_path, monkeypatch):
     assert (tmp_path / "sec_open.partial.s1p").exists()
 
 
+def test_guided_session_keeps_what_was_taken_when_input_ends(app, tmp_path):
+    manifest = tmp_path / "set.toml"
+    keys = ["u\n", "\n", "\n", "\n"]  # name, turns, first sweep; then the input ends (as Ctrl-C at a prompt)
+    result = guided(app, manifest, keys, "-p", "lcr-scpi-generic", "--sweep", "1M:2M:3")
+    assert result.exit_code == 130
+    assert [s["file"] for s in tomllib.loads(manifest.read_text())["sweep"]] == ["pri_open.s1p"]
+
+
 def test_guided_session_refuses_existing_manifest(app, tmp_path):
     manifest = tmp_path / "set.toml"
     manifest.write_text("[transformer]\nname = 'keep me'\n")

@@ -12,7 +12,16 @@ from ._common import handles_errors, print_json, stderr_console
 
 EXIT_INTERRUPTED = 130  # common practice for a program stopped by Ctrl-C (128 + SIGINT)
 
-_PROFILES_DIR_HELP = "Folder of extra instrument profiles (*.toml); also RFMEAS_PROFILES."
+# Options both commands take (typer reads these definitions; it does not change them)
+_SWEEP = typer.Option("100k:30M:201", "--sweep", help="START:STOP:POINTS, e.g. 100k:30M:201.")
+_LOG = typer.Option(True, "--log/--linear", help="Logarithmic (default) or linear spacing.")
+_BACKEND = typer.Option("@py", "--backend", help="pyvisa backend ('@py' pure Python, '@ivi' vendor, '@sim').")
+_TIMEOUT = typer.Option(None, "--timeout", min=1, help="Reply timeout in ms (default: the profile's).")
+_RETRIES = typer.Option(None, "--retries", min=0, help="Retries of a timed-out reading (default: the profile's).")
+_PROFILES_DIR = typer.Option(None, "--profiles-dir", envvar="RFMEAS_PROFILES",
+                             help="Folder of extra instrument profiles (*.toml); also RFMEAS_PROFILES.")
+_RESOURCE_HELP = "VISA resource name, or 'sim' for the simulated instrument."
+_PROFILE_HELP = "Instrument profile name or .toml file."
 
 
 def _parse_fault(text: Optional[str]):
@@ -85,18 +94,15 @@ def register(app: typer.Typer) -> None:
     @handles_errors
     def acquire_command(
         output: Optional[Path] = typer.Option(None, "--output", "-o", help="Touchstone file to write (.s1p or .s2p)."),
-        resource: Optional[str] = typer.Option(None, "--resource", "-r",
-                                               help="VISA resource name, or 'sim' for the simulated instrument."),
-        profile_name: Optional[str] = typer.Option(None, "--profile", "-p",
-                                                   help="Instrument profile name or .toml file."),
-        sweep: str = typer.Option("100k:30M:201", "--sweep", help="START:STOP:POINTS, e.g. 100k:30M:201."),
-        log_spacing: bool = typer.Option(True, "--log/--linear", help="Logarithmic (default) or linear spacing."),
+        resource: Optional[str] = typer.Option(None, "--resource", "-r", help=_RESOURCE_HELP),
+        profile_name: Optional[str] = typer.Option(None, "--profile", "-p", help=_PROFILE_HELP),
+        sweep: str = _SWEEP,
+        log_spacing: bool = _LOG,
         list_only: bool = typer.Option(False, "--list", help="List VISA resources and instrument profiles."),
-        backend: str = typer.Option("@py", "--backend", help="pyvisa backend ('@py' pure Python, '@ivi' vendor)."),
-        timeout_ms: Optional[int] = typer.Option(None, "--timeout", min=1, help="Reply timeout in ms (default: profile's)."),
-        retries: Optional[int] = typer.Option(None, "--retries", min=0, help="Retries of a timed-out reading."),
-        profiles_dir: Optional[Path] = typer.Option(None, "--profiles-dir", envvar="RFMEAS_PROFILES",
-                                                    help=_PROFILES_DIR_HELP),
+        backend: str = _BACKEND,
+        timeout_ms: Optional[int] = _TIMEOUT,
+        retries: Optional[int] = _RETRIES,
+        profiles_dir: Optional[Path] = _PROFILES_DIR,
         sim_port1: str = typer.Option("primary", "--sim-port1", help="Simulation: winding on port 1."),
         sim_termination: str = typer.Option("open", "--sim-termination",
                                             help="Simulation: the other winding open, short or a resistance in ohms."),
@@ -136,17 +142,15 @@ def register(app: typer.Typer) -> None:
     @handles_errors
     def acquire_set_command(
         manifest: Path = typer.Argument(..., help="Manifest (TOML) to write; the sweeps go beside it."),
-        resource: str = typer.Option(..., "--resource", "-r",
-                                     help="VISA resource name, or 'sim' for the simulated instrument."),
-        profile_name: str = typer.Option(..., "--profile", "-p", help="Instrument profile name or .toml file."),
-        sweep: str = typer.Option("100k:30M:201", "--sweep", help="START:STOP:POINTS for every sweep."),
-        log_spacing: bool = typer.Option(True, "--log/--linear", help="Logarithmic (default) or linear spacing."),
+        resource: str = typer.Option(..., "--resource", "-r", help=_RESOURCE_HELP),
+        profile_name: str = typer.Option(..., "--profile", "-p", help=_PROFILE_HELP),
+        sweep: str = _SWEEP,
+        log_spacing: bool = _LOG,
         name: Optional[str] = typer.Option(None, "--name", help="Transformer name (asked when not given)."),
-        backend: str = typer.Option("@py", "--backend", help="pyvisa backend ('@py' pure Python)."),
-        timeout_ms: Optional[int] = typer.Option(None, "--timeout", min=1, help="Reply timeout in ms."),
-        retries: Optional[int] = typer.Option(None, "--retries", min=0, help="Retries of a timed-out reading."),
-        profiles_dir: Optional[Path] = typer.Option(None, "--profiles-dir", envvar="RFMEAS_PROFILES",
-                                                    help=_PROFILES_DIR_HELP),
+        backend: str = _BACKEND,
+        timeout_ms: Optional[int] = _TIMEOUT,
+        retries: Optional[int] = _RETRIES,
+        profiles_dir: Optional[Path] = _PROFILES_DIR,
         overwrite: bool = typer.Option(False, "--overwrite", help="Replace an existing manifest and its files."),
         analyze: Optional[bool] = typer.Option(None, "--analyze/--no-analyze",
                                                help="Analyse at the end without asking (default: ask)."),
@@ -171,33 +175,22 @@ def register(app: typer.Typer) -> None:
             name = typer.prompt("Transformer name", default=manifest.stem, err=True)
         turns = [_ask_turns(winding) for winding in ("primary", "secondary")]
         steps = default_plan(profile.kind)
-        taken, last_error = [], None
         err.print(f"{len(steps)} sweeps, {plan.describe()}. Keep the leads short and the same for every sweep.")
-        for number, step in enumerate(steps, 1):
-            err.print(f"\n[bold]Sweep {number} of {len(steps)}: {step.file}[/]")
-            err.print(step.instruction(profile.kind))
-            answer = typer.prompt("Press Enter to measure, s to skip, q to stop", default="",
-                                  show_default=False, err=True).strip().lower()
-            while answer not in ("s", "q"):
-                try:
-                    _measure(connect, profile, plan, step.wiring, folder / step.file, retries, step.file)
-                    taken.append(step)
-                    last_error = None
-                    break
-                except InstrumentError as exc:
-                    last_error = exc
-                    err.print(f"[red]measurement failed:[/] {exc}")
-                    answer = typer.prompt("r to retry, s to skip, q to stop", default="r", err=True).strip().lower()
-            if answer == "q":
-                break
+        taken, last_error, interrupted = _walk(steps, lambda step: _measure(
+            connect, profile, plan, step.wiring, folder / step.file, retries, step.file), profile.kind, err)
 
         if not taken:
+            if interrupted:
+                raise typer.Exit(EXIT_INTERRUPTED)
             if last_error is not None:
                 raise last_error
             raise InputError("no sweep was taken; nothing written", path=manifest)
         manifest.write_text(manifest_text(name, taken, *turns, comment=f"written by rfmeas acquire-set "
                                           f"({profile.name})"), encoding="utf-8")
         err.print(f"\nwrote {manifest} with {len(taken)} of {len(steps)} sweeps")
+        if interrupted:
+            err.print("interrupted; the manifest lists the sweeps finished so far")
+            raise typer.Exit(EXIT_INTERRUPTED)
         summary = {"manifest": str(manifest), "sweeps": [s.to_dict() for s in taken], "analysis": None}
         if analyze is None:
             analyze = typer.confirm("Analyse the measurement set now?", default=True, err=True)
@@ -207,6 +200,36 @@ def register(app: typer.Typer) -> None:
             print_json(summary)
         if last_error is not None:
             raise typer.Exit(EXIT_INSTRUMENT)
+
+
+def _walk(steps, measure, kind: str, err):
+    """Prompt through `steps`, measuring each on Enter; returns (taken, last error, interrupted).
+
+    Ctrl-C or the end of input stops the walk but keeps what was taken, so the
+    manifest can still list it.
+    """
+    taken, last_error = [], None
+    try:
+        for number, step in enumerate(steps, 1):
+            err.print(f"\n[bold]Sweep {number} of {len(steps)}: {step.file}[/]")
+            err.print(step.instruction(kind))
+            answer = typer.prompt("Press Enter to measure, s to skip, q to stop", default="",
+                                  show_default=False, err=True).strip().lower()
+            while answer not in ("s", "q"):
+                try:
+                    measure(step)
+                    taken.append(step)
+                    last_error = None
+                    break
+                except InstrumentError as exc:
+                    last_error = exc
+                    err.print(f"[red]measurement failed:[/] {exc}")
+                    answer = typer.prompt("r to retry, s to skip, q to stop", default="r", err=True).strip().lower()
+            if answer == "q":
+                break
+    except (KeyboardInterrupt, typer.Abort):
+        return taken, last_error, True
+    return taken, last_error, False
 
 
 def _ask_turns(winding: str) -> Optional[int]:
