@@ -132,7 +132,7 @@ def register(app: typer.Typer) -> None:
             from ..instruments import partial_path
 
             stderr_console().print(f"interrupted; the rows taken so far are in {partial_path(output)}")
-            raise typer.Exit(EXIT_INTERRUPTED)
+            raise typer.Exit(EXIT_INTERRUPTED) from None
         if as_json:
             print_json(result)
         else:
