@@ -12,5 +12,6 @@ COMMAND_MODULES = [
     "compare",
     "history",
     "batch",
+    "acquire",
     "demo",
 ]

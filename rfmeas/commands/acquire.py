@@ -1,0 +1,264 @@
+"""`rfmeas acquire` (one sweep from an instrument) and `rfmeas acquire-set` (a guided set)."""
+
+from __future__ import annotations
+
+from pathlib import Path
+from typing import Optional
+
+import typer
+
+from ..errors import EXIT_INSTRUMENT, InputError, InstrumentError
+from ._common import handles_errors, print_json, stderr_console
+
+EXIT_INTERRUPTED = 130  # common practice for a program stopped by Ctrl-C (128 + SIGINT)
+
+# Options both commands take (typer reads these definitions; it does not change them)
+_SWEEP = typer.Option("100k:30M:201", "--sweep", help="START:STOP:POINTS, e.g. 100k:30M:201.")
+_LOG = typer.Option(True, "--log/--linear", help="Logarithmic (default) or linear spacing.")
+_BACKEND = typer.Option("@py", "--backend", help="pyvisa backend ('@py' pure Python, '@ivi' vendor, '@sim').")
+_TIMEOUT = typer.Option(None, "--timeout", min=1, help="Reply timeout in ms (default: the profile's).")
+_RETRIES = typer.Option(None, "--retries", min=0, help="Retries of a timed-out reading (default: the profile's).")
+_PROFILES_DIR = typer.Option(None, "--profiles-dir", envvar="RFMEAS_PROFILES",
+                             help="Folder of extra instrument profiles (*.toml); also RFMEAS_PROFILES.")
+_RESOURCE_HELP = "VISA resource name, or 'sim' for the simulated instrument."
+_PROFILE_HELP = "Instrument profile name or .toml file."
+
+
+def _parse_fault(text: Optional[str]):
+    from ..instruments.simulation import SimFaults
+
+    if not text:
+        return SimFaults()
+    kind, _, index = text.partition("@")
+    if kind not in ("silent", "garbage") or not index.isdigit():
+        raise InputError(f"--sim-fault '{text}' must be silent@N or garbage@N (N = reading number from 0)")
+    return SimFaults(silent_from=int(index)) if kind == "silent" else SimFaults(garbage_at=int(index))
+
+
+def _connector(resource: str, backend: str, profile, timeout_ms: Optional[int], sim_fault: Optional[str]):
+    """A function (plan, wiring) -> Session: the simulation is rebuilt per sweep and wiring."""
+    from ..instruments import open_session
+    from ..instruments.simulation import SIM_RESOURCE, SIM_TIMEOUT_MS, open_simulated_session
+
+    if resource == SIM_RESOURCE:
+        faults = _parse_fault(sim_fault)
+        return lambda plan, wiring: open_simulated_session(profile, plan, wiring, faults=faults,
+                                                           timeout_ms=timeout_ms or SIM_TIMEOUT_MS)
+    if sim_fault:
+        raise InputError("--sim-fault only applies to --resource sim")
+    return lambda plan, wiring: open_session(resource, backend, timeout_ms or profile.timeout_ms,
+                                             profile.read_termination, profile.write_termination)
+
+
+def _measure(connect, profile, plan, wiring, output: Path, retries: Optional[int], label: str):
+    """One sweep with a progress bar on stderr; returns the AcquisitionResult."""
+    from rich.progress import BarColumn, MofNCompleteColumn, Progress, TextColumn, TimeRemainingColumn
+
+    from ..instruments import Instrument, acquire
+
+    session = connect(plan, wiring)
+    try:
+        columns = (TextColumn("{task.description}"), BarColumn(), MofNCompleteColumn(), TimeRemainingColumn())
+        with Progress(*columns, console=stderr_console()) as progress:
+            task = progress.add_task(label, total=None)
+            return acquire(Instrument(session, profile, retries), plan, output,
+                           on_progress=lambda done, total: progress.update(task, completed=done, total=total),
+                           comments=[f"resource: {session.resource_name}"])
+    finally:
+        session.close()
+
+
+def _list(backend: str, profiles_dir, as_json: bool) -> None:
+    from ..instruments import available_profiles, list_resources
+
+    profiles = available_profiles(profiles_dir)
+    resources = list_resources(backend)
+    if as_json:
+        print_json({"backend": backend, "resources": list(resources),
+                    "profiles": [{"name": p.name, "kind": p.kind, "description": p.description, "path": p.path}
+                                 for p in profiles.values()]})
+        return
+    typer.echo(f"Resources ({backend}):")
+    for name in resources:
+        typer.echo(f"  {name}")
+    if not resources:
+        typer.echo("  none found (check cables, power, drivers and udev rules)")
+    typer.echo("  sim  (built-in simulated instrument)")
+    typer.echo("Profiles:")
+    for p in profiles.values():
+        typer.echo(f"  {p.name}  [{p.kind}]  {p.description}")
+
+
+def register(app: typer.Typer) -> None:
+    @app.command("acquire")
+    @handles_errors
+    def acquire_command(
+        output: Optional[Path] = typer.Option(None, "--output", "-o", help="Touchstone file to write (.s1p or .s2p)."),
+        resource: Optional[str] = typer.Option(None, "--resource", "-r", help=_RESOURCE_HELP),
+        profile_name: Optional[str] = typer.Option(None, "--profile", "-p", help=_PROFILE_HELP),
+        sweep: str = _SWEEP,
+        log_spacing: bool = _LOG,
+        list_only: bool = typer.Option(False, "--list", help="List VISA resources and instrument profiles."),
+        backend: str = _BACKEND,
+        timeout_ms: Optional[int] = _TIMEOUT,
+        retries: Optional[int] = _RETRIES,
+        profiles_dir: Optional[Path] = _PROFILES_DIR,
+        sim_port1: str = typer.Option("primary", "--sim-port1", help="Simulation: winding on port 1."),
+        sim_termination: str = typer.Option("open", "--sim-termination",
+                                            help="Simulation: the other winding open, short or a resistance in ohms."),
+        sim_fault: Optional[str] = typer.Option(None, "--sim-fault",
+                                                help="Simulation: stage a fault, silent@N or garbage@N."),
+        as_json: bool = typer.Option(False, "--json", help="Print the result as JSON on stdout."),
+    ):
+        """Take one sweep from an LCR meter or VNA and write it to Touchstone as it goes."""
+        if list_only:
+            _list(backend, profiles_dir, as_json)
+            return
+        missing = [flag for flag, value in (("--resource", resource), ("--profile", profile_name),
+                                            ("--output", output)) if not value]
+        if missing:
+            raise InputError(f"acquire needs {', '.join(missing)} (or --list)")
+        from ..instruments import load_profile, parse_sweep
+        from ..instruments.simulation import Wiring
+        from ..instruments.touchstone_stream import ports_for
+
+        profile = load_profile(profile_name, profiles_dir)
+        plan = parse_sweep(sweep, log_spacing)
+        wiring = Wiring(sim_port1, sim_termination, ports_for(output))
+        connect = _connector(resource, backend, profile, timeout_ms, sim_fault)
+        try:
+            result = _measure(connect, profile, plan, wiring, output, retries, output.name)
+        except KeyboardInterrupt:
+            from ..instruments import partial_path
+
+            stderr_console().print(f"interrupted; the rows taken so far are in {partial_path(output)}")
+            raise typer.Exit(EXIT_INTERRUPTED) from None
+        if as_json:
+            print_json(result)
+        else:
+            stderr_console().print(f"wrote {result.path} ({result.points} points from {result.identity})")
+
+    @app.command("acquire-set")
+    @handles_errors
+    def acquire_set_command(
+        manifest: Path = typer.Argument(..., help="Manifest (TOML) to write; the sweeps go beside it."),
+        resource: str = typer.Option(..., "--resource", "-r", help=_RESOURCE_HELP),
+        profile_name: str = typer.Option(..., "--profile", "-p", help=_PROFILE_HELP),
+        sweep: str = _SWEEP,
+        log_spacing: bool = _LOG,
+        name: Optional[str] = typer.Option(None, "--name", help="Transformer name (asked when not given)."),
+        backend: str = _BACKEND,
+        timeout_ms: Optional[int] = _TIMEOUT,
+        retries: Optional[int] = _RETRIES,
+        profiles_dir: Optional[Path] = _PROFILES_DIR,
+        overwrite: bool = typer.Option(False, "--overwrite", help="Replace an existing manifest and its files."),
+        analyze: Optional[bool] = typer.Option(None, "--analyze/--no-analyze",
+                                               help="Analyse at the end without asking (default: ask)."),
+        as_json: bool = typer.Option(False, "--json", help="Print the session summary as JSON on stdout."),
+    ):
+        """Guided session: walks through each sweep of a measurement set and writes the manifest."""
+        from ..instruments import load_profile, parse_sweep
+        from ..instruments.guided import default_plan, manifest_text
+
+        if manifest.suffix.lower() != ".toml":
+            raise InputError("the manifest must be a .toml file", path=manifest)
+        if manifest.exists() and not overwrite:
+            raise InputError("already exists; pass --overwrite to replace it", path=manifest)
+        profile = load_profile(profile_name, profiles_dir)
+        plan = parse_sweep(sweep, log_spacing)
+        connect = _connector(resource, backend, profile, timeout_ms, None)
+        folder = manifest.parent
+        folder.mkdir(parents=True, exist_ok=True)
+        err = stderr_console()
+
+        if name is None:
+            name = typer.prompt("Transformer name", default=manifest.stem, err=True)
+        turns = [_ask_turns(winding) for winding in ("primary", "secondary")]
+        steps = default_plan(profile.kind)
+        err.print(f"{len(steps)} sweeps, {plan.describe()}. Keep the leads short and the same for every sweep.")
+        taken, last_error, interrupted = _walk(steps, lambda step: _measure(
+            connect, profile, plan, step.wiring, folder / step.file, retries, step.file), profile.kind, err)
+
+        if not taken:
+            if interrupted:
+                raise typer.Exit(EXIT_INTERRUPTED)
+            if last_error is not None:
+                raise last_error
+            raise InputError("no sweep was taken; nothing written", path=manifest)
+        manifest.write_text(manifest_text(name, taken, *turns, comment=f"written by rfmeas acquire-set "
+                                          f"({profile.name})"), encoding="utf-8")
+        err.print(f"\nwrote {manifest} with {len(taken)} of {len(steps)} sweeps")
+        if interrupted:
+            err.print("interrupted; the manifest lists the sweeps finished so far")
+            raise typer.Exit(EXIT_INTERRUPTED)
+        summary = {"manifest": str(manifest), "sweeps": [s.to_dict() for s in taken], "analysis": None}
+        if analyze is None:
+            analyze = typer.confirm("Analyse the measurement set now?", default=True, err=True)
+        if analyze:
+            summary["analysis"] = _analyze(manifest, err)
+        if as_json:
+            print_json(summary)
+        if last_error is not None:
+            raise typer.Exit(EXIT_INSTRUMENT)
+
+
+def _walk(steps, measure, kind: str, err):
+    """Prompt through `steps`, measuring each on Enter; returns (taken, last error, interrupted).
+
+    Ctrl-C or the end of input stops the walk but keeps what was taken, so the
+    manifest can still list it.
+    """
+    taken, last_error = [], None
+    try:
+        for number, step in enumerate(steps, 1):
+            err.print(f"\n[bold]Sweep {number} of {len(steps)}: {step.file}[/]")
+            err.print(step.instruction(kind))
+            answer = typer.prompt("Press Enter to measure, s to skip, q to stop", default="",
+                                  show_default=False, err=True).strip().lower()
+            while answer not in ("s", "q"):
+                try:
+                    measure(step)
+                    taken.append(step)
+                    last_error = None
+                    break
+                except InstrumentError as exc:
+                    last_error = exc
+                    err.print(f"[red]measurement failed:[/] {exc}")
+                    answer = typer.prompt("r to retry, s to skip, q to stop", default="r", err=True).strip().lower()
+            if answer == "q":
+                break
+    except (KeyboardInterrupt, typer.Abort):
+        return taken, last_error, True
+    return taken, last_error, False
+
+
+def _ask_turns(winding: str) -> Optional[int]:
+    while True:
+        text = typer.prompt(f"{winding.capitalize()} turns (Enter if unknown)", default="", show_default=False,
+                            err=True).strip()
+        if not text:
+            return None
+        if text.isdigit() and int(text) > 0:
+            return int(text)
+        stderr_console().print("turns must be a whole number above 0")
+
+
+def _analyze(manifest: Path, err) -> Optional[dict]:
+    """Run the analysis if this installation has it; print the headline figures."""
+    try:
+        from ..analysis import analyze_manifest
+    except ImportError:
+        err.print("analysis is unavailable in this installation; run `rfmeas analyze` on the manifest later")
+        return None
+    from ..units import format_with_error
+
+    result = analyze_manifest(manifest).to_dict()
+    parameters = result.get("parameters", {})
+    for key, label, unit in (("primary_inductance_H", "primary inductance", "H"),
+                             ("secondary_inductance_H", "secondary inductance", "H"),
+                             ("coupling_coefficient", "coupling coefficient", ""),
+                             ("leakage_inductance_H", "leakage inductance", "H")):
+        if key in parameters:
+            value = parameters[key]
+            err.print(f"{label}: {format_with_error(value.get('value'), value.get('stderr'), unit)}")
+    return result
