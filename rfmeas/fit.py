@@ -28,6 +28,7 @@ import numpy as np
 from scipy.optimize import least_squares
 
 from .errors import FitError
+from .methods import s_from_impedance
 from .fit_start import estimate_start, sweeps_see_coupling, sweeps_that_see
 from .model.circuit import driving_point_admittance, reflection_from_admittance, s_from_y, \
     termination_admittance, y_elements
@@ -130,7 +131,10 @@ class SweepProblem:
                 out.append(np.stack([parts[e] for e in sweep.elements], axis=-1))
             else:
                 yin = driving_point_admittance(y11, y12, y22, termination_admittance(sweep.termination))
-                out.append(reflection_from_admittance(yin, sweep.z0_ohm[0])[..., None])
+                if sweep.is_through_method:
+                    out.append(s_from_impedance(sweep.method, 1.0 / yin, sweep.z0_ohm[0])[..., None])
+                else:
+                    out.append(reflection_from_admittance(yin, sweep.z0_ohm[0])[..., None])
         return out
 
     def residual_rows(self, values: np.ndarray) -> np.ndarray:

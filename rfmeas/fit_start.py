@@ -12,14 +12,8 @@ import math
 
 import numpy as np
 
+from .methods import impedance_from_reflection, impedance_from_s
 from .sweep import Sweep, other_winding
-
-
-def impedance_from_reflection(s11, z0_ohm):
-    """Z = z0 (1 + Γ) / (1 − Γ); Γ = 1 exactly maps to a very large impedance."""
-    den = 1.0 - s11
-    den = np.where(np.abs(den) < 1e-12, 1e-12, den)
-    return z0_ohm * (1.0 + s11) / den
 
 
 def _low_band(f_Hz, fraction=0.08, minimum=3):
@@ -75,7 +69,10 @@ def estimate_start(sweeps: list[Sweep]) -> tuple[dict, int]:
         f = sweep.f_Hz
         z0 = sweep.z0_ohm[0]
         s = sweep.measured()
-        z = impedance_from_reflection(s[:, 0], z0)
+        if sweep.is_through_method:
+            z = impedance_from_s(sweep.method, s[:, 0], z0)
+        else:
+            z = impedance_from_reflection(s[:, 0], z0)
         side = "1" if sweep.port1 == "primary" else "2"
         if sweep.is_two_port:
             s21 = s[:, 1]

@@ -263,26 +263,18 @@ def _number(table: dict, key: str, where: str, path: Path, positive=True, defaul
 
 
 def _read_standard(path: Path):
-    """A one-port sweep of a standard: (f_Hz, s11, z0_ohm)."""
-    import skrf as rf
+    """A one-port sweep of a standard: (f_Hz, s11, z0_ohm), read by the project's reader."""
+    from .io.touchstone import read_touchstone
 
-    if not path.is_file():
-        raise InputError("standard file not found", path=path)
-    try:
-        net = rf.Network(str(path))
-    except Exception as exc:  # scikit-rf raises ValueError, IndexError, AttributeError, ...
-        raise InputError(f"cannot read this Touchstone file ({type(exc).__name__}: {exc})", path=path) from exc
-    if net.nports != 1:
-        raise InputError(f"a standard must be a one-port (.s1p) sweep, this has {net.nports} ports", path=path)
-    f, s11 = net.f, net.s[:, 0, 0]
-    if f.size < 2 or not np.all(np.diff(f) > 0):
-        raise InputError("frequencies must be at least two and strictly increasing", path=path)
-    if not np.all(np.isfinite(s11)):
-        raise InputError("the sweep holds NaN or infinite values", path=path)
+    data = read_touchstone(path)
+    net = data.network
+    if data.port_count != 1:
+        raise InputError(f"a standard must be a one-port (.s1p) sweep, this has {data.port_count} ports",
+                         path=path)
     z0 = np.unique(net.z0)
-    if z0.size != 1 or z0[0].imag != 0 or not z0[0].real > 0:
-        raise InputError("a standard needs one real reference impedance", path=path)
-    return f, s11, float(z0[0].real)
+    if z0.size != 1:
+        raise InputError("a standard needs one reference impedance", path=path)
+    return net.f, net.s[:, 0, 0], float(z0[0].real)
 
 
 def _load_standards(table: dict, base: Path, path: Path):

@@ -24,6 +24,10 @@ class Sweep:
                  "short" or a resistance in ohms (float); None for a two-port sweep
     port2        for a two-port sweep, the winding on port 2; else None
     forward_only a two-port file whose S12/S22 were not measured (all zeros)
+    method       how the `port1` winding's impedance was measured: "reflection"
+                 (S11 at port 1), or "series-through" / "shunt-through" (the
+                 winding as the series or shunt element between two ports, S21)
+    fixture      the test jig the sweep was compensated for, if any
     """
 
     network: Any
@@ -36,6 +40,8 @@ class Sweep:
     warnings: tuple[str, ...] = ()
     raw_bytes: bytes | None = field(default=None, repr=False, compare=False)
     sha256: str | None = None
+    method: str = "reflection"
+    fixture: str | None = None
 
     @property
     def f_Hz(self) -> np.ndarray:
@@ -53,8 +59,14 @@ class Sweep:
         return tuple(float(np.real(z0[0, i])) for i in range(ports))
 
     @property
+    def is_through_method(self) -> bool:
+        return self.method != "reflection"
+
+    @property
     def elements(self) -> tuple[str, ...]:
         """The S elements this sweep contributes to a fit."""
+        if self.is_through_method:
+            return ("S21",)
         if not self.is_two_port:
             return ("S11",)
         return ("S11", "S21") if self.forward_only else ("S11", "S21", "S12", "S22")
@@ -71,10 +83,11 @@ class Sweep:
             text = f"{self.port1} on port 1, {self.port2} on port 2"
             return text + (" (forward only)" if self.forward_only else "")
         other = other_winding(self.port1)
+        where = f"{self.port1} {self.method}" if self.is_through_method else f"{self.port1} on port 1"
         if self.termination in ("open", "short"):
             state = "open" if self.termination == "open" else "shorted"
-            return f"{self.port1} on port 1, {other} {state}"
-        return f"{self.port1} on port 1, {other} loaded by {float(self.termination):g} Ω"
+            return f"{where}, {other} {state}"
+        return f"{where}, {other} loaded by {float(self.termination):g} Ω"
 
     def to_dict(self) -> dict:
         f = self.f_Hz
@@ -86,6 +99,8 @@ class Sweep:
             "port2": self.port2,
             "termination": self.termination,
             "forward_only": self.forward_only,
+            "method": self.method,
+            "fixture": self.fixture,
             "points": int(f.size),
             "start_Hz": float(f[0]),
             "stop_Hz": float(f[-1]),

@@ -193,16 +193,16 @@ def test_standard_file_errors(tmp_path):
         load_fixture(_write(tmp_path, '[standards]\nopen = "gone.s1p"\nshort = "short.s1p"\n'))
     assert info.value.path == str(tmp_path / "gone.s1p")
     (tmp_path / "bad.s1p").write_text("# Hz S RI R 50\n1e6 0.5 zero\n")
-    with pytest.raises(InputError, match="cannot read") as info:
+    with pytest.raises(InputError, match="where a number was expected") as info:
         load_fixture(_write(tmp_path, '[standards]\nopen = "bad.s1p"\nshort = "short.s1p"\n'))
     assert info.value.path == str(tmp_path / "bad.s1p")
-    (tmp_path / "two.s2p").write_text("# Hz S RI R 50\n1e6 0 0 1 0 1 0 0 0\n2e6 0 0 1 0 1 0 0 0\n")
+    (tmp_path / "two.s2p").write_text("# Hz S RI R 50\n1e6 0 0 1 0 1 0 0 0\n2e6 0 0 1 0 1 0 0 0\n3e6 0 0 1 0 1 0 0 0\n")
     with pytest.raises(InputError, match="one-port"):
         load_fixture(_write(tmp_path, '[standards]\nopen = "two.s2p"\nshort = "short.s1p"\n'))
     (tmp_path / "nan.s1p").write_text("# Hz S RI R 50\n1e6 nan 0\n2e6 1 0\n")
-    with pytest.raises(InputError, match="NaN"):
+    with pytest.raises(InputError, match="(?i)nan value"):
         load_fixture(_write(tmp_path, '[standards]\nopen = "nan.s1p"\nshort = "short.s1p"\n'))
-    (tmp_path / "grid.s1p").write_text("# Hz S RI R 50\n1e6 -1 0\n2e6 -1 0\n")
+    (tmp_path / "grid.s1p").write_text("# Hz S RI R 50\n1e6 -1 0\n2e6 -1 0\n3e6 -1 0\n")
     with pytest.raises(InputError, match="same frequency grid"):
         load_fixture(_write(tmp_path, '[standards]\nopen = "open.s1p"\nshort = "grid.s1p"\n'))
     with pytest.raises(InputError, match="told apart"):

@@ -6,6 +6,8 @@ import math
 import tomllib
 from pathlib import Path
 
+import numpy as np
+
 from ..errors import InputError
 from ..sweep import WINDINGS, DesignTarget, MeasurementSet, Sweep, other_winding
 
@@ -59,13 +61,29 @@ def parse_termination(value, where: str, path) -> str | float:
 
 
 def load_sweep(file_path: Path, port1: str, termination=None, port2: str | None = None,
-               label: str | None = None, where: str = "sweep", manifest_path=None) -> Sweep:
+               label: str | None = None, where: str = "sweep", manifest_path=None,
+               method: str = "reflection", fixture_path: Path | None = None) -> Sweep:
     """Read one Touchstone file and check it against how it is said to be connected."""
     from .touchstone import read_touchstone
 
     data = read_touchstone(file_path)
     label = label or file_path.name
     warnings = list(data.warnings)
+    where_path = manifest_path or file_path
+    if method != "reflection":
+        if data.port_count != 2 or port2 is not None or termination is None:
+            raise InputError(f"{where}: a {method} sweep is a two-port file of one winding between the "
+                             "ports: give port1 (the winding) and termination (what the other winding "
+                             "sees), not port2", where_path)
+        z0 = np.real(np.asarray(data.network.z0)[0])
+        if not np.isclose(z0[0], z0[1]):
+            raise InputError(f"{where}: a {method} sweep needs equal reference impedances on both ports",
+                             where_path)
+        if fixture_path is not None:
+            raise InputError(f"{where}: jig compensation applies to reflection sweeps only", where_path)
+        return Sweep(network=data.network, port1=port1, termination=termination, label=label,
+                     path=str(file_path), warnings=tuple(warnings), raw_bytes=data.raw_bytes,
+                     sha256=data.sha256, method=method)
     if port2 is not None:
         if data.port_count != 2:
             raise InputError(f"{where} says port2 = '{port2}' but {file_path.name} is a one-port file",
@@ -85,9 +103,29 @@ def load_sweep(file_path: Path, port1: str, termination=None, port2: str | None 
         if data.port_count == 2:
             warnings.append("two-port file used as a one-port sweep: only S11 is fitted")
             network = network.s11
+    fixture_name = None
+    if fixture_path is not None:
+        if port2 is not None:
+            raise InputError(f"{where}: jig compensation applies to one-port reflection sweeps only",
+                             where_path)
+        network, fixture_name = _compensate(network, fixture_path)
+        warnings.append(f"compensated for the test jig '{fixture_name}'")
     return Sweep(network=network, port1=port1, termination=termination, port2=port2,
                  forward_only=forward_only, label=label, path=str(file_path),
-                 warnings=tuple(warnings), raw_bytes=data.raw_bytes, sha256=data.sha256)
+                 warnings=tuple(warnings), raw_bytes=data.raw_bytes, sha256=data.sha256,
+                 fixture=fixture_name)
+
+
+def _compensate(network, fixture_path: Path):
+    """The one-port `network` as the DUT would read without the jig (rfmeas.fixture)."""
+    from ..fixture import load_fixture
+
+    fixture = load_fixture(fixture_path)
+    s11 = fixture.compensate_reflection(network.f, network.s[:, 0, 0],
+                                        float(np.real(network.z0[0, 0])))
+    compensated = network.copy()
+    compensated.s = np.asarray(s11).reshape(-1, 1, 1)
+    return compensated, fixture.name
 
 
 def _winding(value, key, where, path) -> str:
@@ -166,9 +204,18 @@ def load_manifest(path: str | Path) -> MeasurementSet:
         _check_keys(entry, _SWEEP_KEYS, where, path)
         if "file" not in entry or not isinstance(entry["file"], str):
             raise InputError(f"{where} needs file = \"...\" (a Touchstone file relative to the manifest)", path)
-        for key in ("method", "fixture"):
-            if key in entry and entry[key] not in (None, "reflection"):
-                raise InputError(f"{where}.{key} = {entry[key]!r} is not supported yet", path)
+        from ..methods import METHODS
+
+        method = entry.get("method", "reflection")
+        if method not in METHODS:
+            raise InputError(f"{where}.method must be one of {', '.join(METHODS)}, not {method!r}", path)
+        fixture_path = None
+        if "fixture" in entry:
+            if not isinstance(entry["fixture"], str):
+                raise InputError(f"{where}.fixture must be the path of a jig definition (TOML)", path)
+            fixture_path = path.parent / entry["fixture"]
+            if fixture_path.is_dir():
+                fixture_path = fixture_path / "fixture.toml"
         port1 = _winding(entry.get("port1", "primary"), "port1", where, path)
         port2 = entry.get("port2")
         if port2 is not None:
@@ -182,7 +229,8 @@ def load_manifest(path: str | Path) -> MeasurementSet:
         if label is not None and not isinstance(label, str):
             raise InputError(f"{where}.label must be a string", path)
         file_path = (path.parent / entry["file"])
-        sweep = load_sweep(file_path, port1, termination, port2, label or entry["file"], where, path)
+        sweep = load_sweep(file_path, port1, termination, port2, label or entry["file"], where, path,
+                           method, fixture_path)
         sweeps.append(sweep)
 
     return MeasurementSet(
