@@ -86,9 +86,9 @@ def spice_subcircuit(params: TransformerParams, name: str = "XFMR", comments=(),
     if form == "coupled":
         out += _series_chain("P1", "GND", [("R1", "np1", p.R1_ohm), ("L1", "", p.L1_H)])
         out += _series_chain("S1", "GND", [("R2", "ns1", p.R2_ohm), ("L2", "", p.L2_H)])
-        out.append(f"K12 L1 L2 {_v(p.k)}")
+        out.append(f"K12 L1 L2 {_v(p.polarity * p.k)}")
     else:
-        a = math.sqrt(p.L2_H / p.L1_H)
+        a = p.polarity * math.sqrt(p.L2_H / p.L1_H)  # a negative ratio reverses the secondary
         out += _series_chain("P1", "m", [("R1", "np1", p.R1_ohm), ("LL1", "", p.L1_H * (1 - p.k))])
         out.append(f"LM m GND {_v(p.k * p.L1_H)}")
         if not lossless:

@@ -162,12 +162,23 @@ class MeasurementSet:
 
     def sources(self) -> list[tuple[str, bytes]]:
         """(relative path, raw bytes) of the manifest and every sweep file, for a history store."""
+        from pathlib import Path
+
         out: list[tuple[str, bytes]] = []
+        base = None
         if self.manifest_text is not None:
             out.append(("manifest.toml", self.manifest_text.encode("utf-8")))
+            base = Path(self.manifest_path).resolve().parent if self.manifest_path else None
         for sweep in self.sweeps:
-            if sweep.raw_bytes is not None:
-                out.append((sweep.label, sweep.raw_bytes))
+            if sweep.raw_bytes is None:
+                continue
+            name = Path(sweep.path).name if sweep.path else sweep.label
+            if base is not None and sweep.path:
+                try:  # keep the path the manifest names the file by
+                    name = Path(sweep.path).resolve().relative_to(base).as_posix()
+                except ValueError:
+                    pass
+            out.append((name, sweep.raw_bytes))
         return out
 
     def to_dict(self) -> dict:

@@ -90,8 +90,10 @@ needs_spice = pytest.mark.skipif(shutil.which("ngspice") is None, reason="ngspic
 @pytest.mark.spice
 @needs_spice
 @pytest.mark.parametrize("params,form", [(LOSSLESS, "auto"), (LOSSLESS, "tee"), (LOSSY, "auto"),
-                                         (BARE, "auto")],
-                         ids=["lossless-coupled", "lossless-tee", "lossy-tee", "bare-tee"])
+                                         (BARE, "auto"), (LOSSLESS.replace(polarity=-1), "auto"),
+                                         (LOSSY.replace(polarity=-1), "tee")],
+                         ids=["lossless-coupled", "lossless-tee", "lossy-tee", "bare-tee",
+                              "inverting-coupled", "inverting-tee"])
 def test_subcircuit_matches_model_in_ngspice(params, form, tmp_path):
     # Independent simulator: ngspice AC analysis of the exported netlist (REFERENCES.md).
     f, s_spice = simulate(params, tmp_path, form)

@@ -13,5 +13,6 @@ COMMAND_MODULES = [
     "history",
     "batch",
     "acquire",
+    "export",
     "demo",
 ]
