@@ -188,27 +188,19 @@ class _Objective:
         return ((R[1:] - R[0]) / _STEP).T
 
 
-def _solve(problem, free, fixed, x0, method=None):
+def _solve(problem, free, fixed, x0, max_nfev=200):
+    """Levenberg–Marquardt in internal coordinates.
+
+    The coordinates are unbounded; the model clips each parameter a little past
+    its range (see _Objective.values), so a parameter the data push out of range
+    stalls just outside it and is then reported as at the edge.
+    """
     obj = _Objective(problem, free, fixed)
     lb, ub = zip(*(internal_bounds(n) for n in free))
-    lb, ub = np.array(lb), np.array(ub)
-    x0 = np.clip(x0, lb + 1e-9, ub - 1e-9)
-    method = method or SOLVER
-    if method == "lm":
-        res = least_squares(obj.residuals, x0, jac=obj.jacobian, method="lm",
-                            x_scale=1.0, xtol=1e-12, ftol=1e-12, gtol=1e-12, max_nfev=400)
-        if np.any(res.x < lb) or np.any(res.x > ub):
-            # left the physical range: redo bounded from here so the edge is honoured
-            res = least_squares(obj.residuals, np.clip(res.x, lb + 1e-9, ub - 1e-9), jac=obj.jacobian,
-                                bounds=(lb, ub), method="trf", x_scale=1.0,
-                                xtol=1e-12, ftol=1e-12, gtol=1e-12, max_nfev=300)
-    else:
-        res = least_squares(obj.residuals, x0, jac=obj.jacobian, bounds=(lb, ub), method="trf",
-                            x_scale=1.0, xtol=1e-12, ftol=1e-12, gtol=1e-12, max_nfev=300)
+    x0 = np.clip(x0, np.array(lb) + 1e-9, np.array(ub) - 1e-9)
+    res = least_squares(obj.residuals, x0, jac=obj.jacobian, method="lm", x_scale=1.0,
+                        xtol=1e-12, ftol=1e-12, gtol=1e-12, max_nfev=max_nfev)
     return res, obj
-
-
-SOLVER = "lm"
 
 
 def _covariance(jac: np.ndarray, residual_variance: float) -> np.ndarray:
@@ -261,14 +253,17 @@ def fit_sweeps(sweeps: list[Sweep], start: TransformerParams | None = None) -> F
         fixed = {n: v for n, (v, _) in held.items()}
         problem.weights = np.ones(len(sweeps))
         best = None
-        for k0 in k_starts:
+        for k0 in k_starts:  # several starts get a short budget; the best is then polished
             trial = dict(current, k=k0) if "k" in free else dict(current)
             x0 = np.array([to_internal(n, trial[n]) for n in free])
-            res, obj = _solve(problem, free, fixed, x0)
+            res, obj = _solve(problem, free, fixed, x0, max_nfev=40 if len(k_starts) > 1 else 200)
             total_evals += obj.evaluations
             if best is None or res.cost < best[0].cost:
                 best = (res, obj)
         res, obj = best
+        if len(k_starts) > 1:
+            res, obj = _solve(problem, free, fixed, res.x)
+            total_evals += obj.evaluations
         k_starts = [float(to_physical("k", res.x[free.index("k")]))] if "k" in free else k_starts
         # second pass: weight each sweep by its own noise level
         values = obj.values(res.x[None, :])[0]
