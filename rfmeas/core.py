@@ -56,6 +56,9 @@ TRUST_RELATIVE_UNCERTAINTY = 0.05   # a point is trustworthy when |δµ|/|µ| is
 PLATEAU_FRACTION = 0.99             # plateau: where the model's µ' is within 1 % of µi
 F_TEST_P_VALUE = 0.01               # keep the broadened form only below this p-value
 _MAX_ALPHA = 0.9
+# The per-point uncertainty never assumes the S noise is below 0.3 × nominal, however clean the
+# residuals look (smoothed or simulated files): a real VNA does not resolve |Z| ≪ Z0 that well.
+MIN_NOISE_SCALE = 0.3
 
 
 # ---------------------------------------------------------------- results
@@ -140,7 +143,8 @@ class CoreAnalysis:
                              whether the point is trustworthy (|δµ|/|µ| < 5 %
                              and below the winding's self-resonance)
     noise_scale              fitted S noise / nominal S noise (sqrt of the
-                             reduced χ² of the fit)
+                             reduced χ² of the fit); the spectrum's uncertainty
+                             uses at least MIN_NOISE_SCALE of the nominal noise
     """
 
     turns: int
@@ -232,6 +236,7 @@ class CoreAnalysis:
             },
             "trustworthy_band": band,
             "fit": {"points": int(self.points), "noise_scale": float(self.noise_scale),
+                    "noise_scale_used": float(max(self.noise_scale, MIN_NOISE_SCALE)),
                     "nominal_s_noise": self.nominal_noise.to_dict(),
                     "trust_relative_uncertainty": TRUST_RELATIVE_UNCERTAINTY},
             "method_advice": self.method_advice,
@@ -545,8 +550,9 @@ def analyze_core(f_Hz, impedance_ohm, turns: int, geometry: CoreGeometry, z0_ohm
 
     # spectrum from the measurement with the fitted winding removed
     mu = permeability_from_impedance(f, z, turns, geometry, rw, cw)
-    cov_rc = cov[2:4, 2:4] * np.array([[1, _PF], [_PF, _PF**2]])
-    mu_real_se, mu_imag_se = _spectrum_uncertainty(f, z, mu, method, z0_ohm, noise_scale * sigma_nominal,
+    used_scale = max(noise_scale, MIN_NOISE_SCALE)
+    cov_rc = fit.cov[2:4, 2:4] * used_scale**2 * np.array([[1, _PF], [_PF, _PF**2]])
+    mu_real_se, mu_imag_se = _spectrum_uncertainty(f, z, mu, method, z0_ohm, used_scale * sigma_nominal,
                                                     turns, geometry, rw, cw, cov_rc)
     model_grid = np.geomspace(f[0], f[-1] * 100, 4000)
     srf = self_resonance_Hz(model_grid, winding_impedance(model_grid, model.permeability(model_grid),
@@ -636,6 +642,8 @@ def analyze_core_file(path, turns: int | None = None, geometry: CoreGeometry | N
     from .materials import load_materials
 
     path = Path(path)
+    if method is not None and method not in METHODS:
+        raise InputError(f"unknown impedance method {method!r} (use one of: {', '.join(METHODS)})", path)
     warnings: list[str] = []
     if path.suffix.lower() == ".toml" or path.is_dir():
         from .io.manifest import load_manifest
