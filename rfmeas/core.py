@@ -33,6 +33,7 @@ from pathlib import Path
 import numpy as np
 
 from .errors import FitError, InputError
+from .units import format_engineering as eng
 from .magnetics import MU0_H_per_m, CoreGeometry
 from .methods import (
     DEFAULT_NOISE,
@@ -586,8 +587,9 @@ def analyze_core(f_Hz, impedance_ohm, turns: int, geometry: CoreGeometry, z0_ohm
         warnings.append("no frequency where µ is resolved to 5 %: the impedance is too far from "
                         f"{z0_ohm:g} Ω or too noisy for this method")
     elif not (band[0] <= fr <= band[1]):
-        warnings.append(f"µ'' peaks at {fr:.3g} Hz, outside the trustworthy band "
-                        f"({band[0]:.3g}–{band[1]:.3g} Hz): the relaxation frequency is an extrapolation")
+        warnings.append(f"µ'' peaks at {eng(fr, 'Hz', 3)}, outside the trustworthy band "
+                        f"({eng(band[0], 'Hz', 3)} – {eng(band[1], 'Hz', 3)}): the relaxation frequency "
+                        "is an extrapolation")
     if fr_se > 0.3 * fr:
         warnings.append(f"the relaxation frequency is poorly determined (±{100 * fr_se / fr:.0f} %)")
     if np.isfinite(srf) and srf < fr:
