@@ -9,10 +9,11 @@ Modules import only typer and the standard library at the top; heavy imports
 COMMAND_MODULES = [
     "analyze",
     "plan",
+    "core",
     "compare",
     "history",
     "batch",
-    "acquire",
     "export",
+    "acquire",
     "demo",
 ]
