@@ -198,8 +198,11 @@ def _solve(problem, free, fixed, x0, max_nfev=200):
     obj = _Objective(problem, free, fixed)
     lb, ub = zip(*(internal_bounds(n) for n in free))
     x0 = np.clip(x0, np.array(lb) + 1e-9, np.array(ub) - 1e-9)
-    res = least_squares(obj.residuals, x0, jac=obj.jacobian, method="lm", x_scale=1.0,
+    res = least_squares(obj.residuals, x0, jac=obj.jacobian, method="lm", x_scale="jac",
                         xtol=1e-12, ftol=1e-12, gtol=1e-12, max_nfev=max_nfev)
+    # past the clip the model no longer changes: bring x back to where it still acts
+    res.x = np.array([np.clip(x, lo - _MARGIN, hi if n == "k" else hi + _MARGIN)
+                      for x, n, lo, hi in zip(res.x, free, lb, ub)])
     return res, obj
 
 
