@@ -89,6 +89,14 @@ def _percent_off(value: float, limit: float) -> float:
     return 100.0 * (value / limit - 1.0)
 
 
+def _percent(value: float) -> str:
+    """Two significant figures without exponents: 6.7 %, 20 %, 100 %, 0.0012 %."""
+    v = abs(value)
+    if v < 0.001:
+        return "less than 0.001 %"
+    return f"{v:.0f} %" if v >= 99.5 else f"{float(f'{v:.2g}'):g} %"
+
+
 def _side(percent: float) -> str:
     return "above" if percent >= 0 else "below"
 
@@ -114,7 +122,7 @@ def _ratio_vs_design(facts: DesignFacts, design: DesignTarget) -> Verdict:
     tol = design.ratio_tolerance_percent
     off = _percent_off(value, target)
     passed = abs(off) <= tol
-    margin = f"{abs(off):.2g} % {_side(off)} the target 1:{target:.4g} (tolerance ±{tol:g} %)"
+    margin = f"{_percent(off)} {_side(off)} the target 1:{target:.4g} (tolerance ±{tol:g} %)"
     if passed:
         advice = NOTHING_TO_CHANGE
     elif facts.primary_turns:
@@ -128,7 +136,7 @@ def _ratio_vs_design(facts: DesignFacts, design: DesignTarget) -> Verdict:
     else:
         direction = "raise" if off < 0 else "lower"
         more, fewer = ("secondary", "primary") if off < 0 else ("primary", "secondary")
-        advice = (f"{direction} the ratio by {abs(off):.2g} %: add turns to the {more} "
+        advice = (f"{direction} the ratio by {_percent(off)}: add turns to the {more} "
                   f"or take turns off the {fewer}")
     return Verdict("turns_ratio_vs_design", "turns ratio against sqrt(load/source)", passed,
                    value, target, "", margin, advice)
@@ -141,7 +149,7 @@ def _ratio_vs_stated(facts: DesignFacts, design: DesignTarget) -> Verdict:
     tol = design.ratio_tolerance_percent
     off = _percent_off(value, stated)
     passed = abs(off) <= tol
-    margin = f"{abs(off):.2g} % {_side(off)} the stated {n1}:{n2} (tolerance ±{tol:g} %)"
+    margin = f"{_percent(off)} {_side(off)} the stated {n1}:{n2} (tolerance ±{tol:g} %)"
     if passed:
         advice = NOTHING_TO_CHANGE
     else:
@@ -175,7 +183,7 @@ def _low_limit(facts: DesignFacts, design: DesignTarget) -> Verdict:
     value, limit = facts.low_frequency_limit_Hz, design.lowest_frequency_Hz
     off = _percent_off(value, limit)
     passed = value <= limit
-    margin = f"{abs(off):.2g} % {_side(off)} the limit"
+    margin = f"{_percent(off)} {_side(off)} the limit"
     if passed:
         advice = NOTHING_TO_CHANGE
     else:
@@ -215,7 +223,7 @@ def _high_corner(facts: DesignFacts, design: DesignTarget) -> Verdict:
     passed = value >= limit
     advice = NOTHING_TO_CHANGE if passed else _high_frequency_advice(facts, design)
     return Verdict("high_frequency_corner", "upper −3 dB corner at or above the highest frequency",
-                   passed, value, limit, "Hz", f"{abs(off):.2g} % {_side(off)} the limit", advice)
+                   passed, value, limit, "Hz", f"{_percent(off)} {_side(off)} the limit", advice)
 
 
 def _return_loss(facts: DesignFacts, design: DesignTarget) -> Verdict:
