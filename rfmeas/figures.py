@@ -235,9 +235,13 @@ def _mark_extrapolated(fig: dict, span: tuple[float, float]) -> dict:
     return fig
 
 
-def _mean(a, b):
-    present = [x for x in (a, b) if x is not None]
-    return sum(present) / len(present) if present else None
+def _combined_key(prefix: str, primary_known: bool, secondary_known: bool, held: dict) -> str:
+    """'<prefix>_mean' when both windings give the figure, else the one that does."""
+    primary_known = primary_known and "L1_H" not in held
+    secondary_known = secondary_known and "L2_H" not in held
+    if primary_known and secondary_known:
+        return f"{prefix}_mean"
+    return f"{prefix}_secondary" if secondary_known else f"{prefix}_primary"
 
 
 def compute_figures(measurement, result) -> tuple[dict, dict | None, list[str]]:
@@ -268,7 +272,7 @@ def compute_figures(measurement, result) -> tuple[dict, dict | None, list[str]]:
     if n1 or n2:
         pri = b.obj("al_primary", turns=n1, inductance_H=outcome.params.L1_H) if n1 else None
         sec = b.obj("al_secondary", turns=n2, inductance_H=outcome.params.L2_H) if n2 else None
-        key = "al_mean" if (n1 and n2) else ("al_primary" if n1 else "al_secondary")
+        key = _combined_key("al", bool(n1), bool(n2), outcome.held)
         al = b.obj(key, primary=pri, secondary=sec)
         agreement = None
         if pri and sec and pri["value"] and sec["value"]:
@@ -293,7 +297,7 @@ def compute_figures(measurement, result) -> tuple[dict, dict | None, list[str]]:
 
     # effective permeability
     if geometry is not None and (n1 or n2):
-        key = "mu_mean" if (n1 and n2) else ("mu_primary" if n1 else "mu_secondary")
+        key = _combined_key("mu", bool(n1), bool(n2), outcome.held)
         figures["effective_permeability"] = b.obj(
             key, primary=b.obj("mu_primary") if n1 else None, secondary=b.obj("mu_secondary") if n2 else None,
             core={"shape": geometry.shape, "description": geometry.description,
@@ -308,10 +312,19 @@ def compute_figures(measurement, result) -> tuple[dict, dict | None, list[str]]:
     # reactance rule
     lf_pri = b.obj("lf_primary", impedance_ohm=terms.source_ohm)
     lf_sec = b.obj("lf_secondary", impedance_ohm=terms.load_ohm)
-    set_by = "primary" if values["lf_primary"] >= values["lf_secondary"] else "secondary"
-    figures["low_frequency_limit_Hz"] = b.obj(
-        "lf_max", set_by=set_by, primary=lf_pri, secondary=lf_sec,
-        reactance_factor=terms.reactance_factor, **terms_note)
+    key = _combined_key("lf", True, True, outcome.held)
+    if key == "lf_mean":
+        key = "lf_max"
+        set_by = "primary" if values["lf_primary"] >= values["lf_secondary"] else "secondary"
+    else:
+        set_by = key.removeprefix("lf_")
+    lf = b.obj(key, set_by=set_by, primary=lf_pri, secondary=lf_sec,
+               reactance_factor=terms.reactance_factor)
+    if key != "lf_max":
+        lf["note"] = f"from the {set_by} alone: the other winding's inductance is not determined"
+    if terms.note:
+        lf["note"] = (lf["note"] + "; " if lf.get("note") else "") + terms.note
+    figures["low_frequency_limit_Hz"] = lf
 
     # band from the fitted model
     for key, name in (("low_1dB", "low_frequency_corner_1dB_Hz"), ("low_3dB", "low_frequency_corner_3dB_Hz"),
@@ -329,7 +342,9 @@ def compute_figures(measurement, result) -> tuple[dict, dict | None, list[str]]:
                "start_stderr_Hz": start["stderr"], "stop_stderr_Hz": stop["stderr"],
                "threshold_dB": terms.return_loss_dB, "best_return_loss_dB": values["best_rl"],
                "source_ohm": terms.source_ohm, "load_ohm": terms.load_ohm}
-    if start["value"] is None and stop["value"] is None and values["best_rl"] < terms.return_loss_dB:
+    if "note" in start or "note" in stop:
+        rl_band["note"] = start.get("note") or stop.get("note")
+    elif start["value"] is None and stop["value"] is None and values["best_rl"] < terms.return_loss_dB:
         rl_band["note"] = (f"the return loss never reaches {terms.return_loss_dB:g} dB "
                            f"(best {values['best_rl']:.3g} dB)")
     figures["return_loss_band"] = rl_band
@@ -382,17 +397,27 @@ def _value_text(fig: dict | None, unit: str = "", digits: int = 4) -> str:
     return f"{fig['value']:.{digits}g}" + (f" ± {err:.2g}" if err else "")
 
 
+def _table_note(note: str, shared: str) -> str:
+    """A figure's note without the terminations note (printed once under the table), markup-safe."""
+    from rich.markup import escape
+
+    if shared:
+        note = note.replace("; " + shared, "").replace(shared, "")
+    return escape(note.strip("; "))
+
+
 def figures_table(analysis):
     from rich.table import Table
 
     f = analysis.figures
+    shared = f.get("terminations", {}).get("note", "")
     table = Table(title="Figures", title_justify="left", show_edge=False, pad_edge=False)
     table.add_column("figure")
     table.add_column("value ± standard error", justify="right")
     table.add_column("note", overflow="fold")
 
     def row(label, fig, unit="", note=""):
-        table.add_row(label, _value_text(fig, unit), note or (fig or {}).get("note", ""))
+        table.add_row(label, _value_text(fig, unit), _table_note(note or (fig or {}).get("note", ""), shared))
 
     al = f.get("inductance_factor_nH_per_turn2", {})
     if al.get("value") is not None:
@@ -411,18 +436,19 @@ def figures_table(analysis):
     lf = f.get("low_frequency_limit_Hz", {})
     row(f"reactance-rule limit (X ≥ {lf.get('reactance_factor', 4):g}·R)", lf, "Hz",
         f"set by the {lf.get('set_by')}; primary {_value_text(lf.get('primary'), 'Hz')}, "
-        f"secondary {_value_text(lf.get('secondary'), 'Hz')}")
+        f"secondary {_value_text(lf.get('secondary'), 'Hz')}; {lf.get('note', '')}")
     for key, label in (("low_frequency_corner_3dB_Hz", "lower corner −3 dB"),
                        ("low_frequency_corner_1dB_Hz", "lower corner −1 dB"),
                        ("high_frequency_corner_1dB_Hz", "upper corner −1 dB"),
                        ("high_frequency_corner_3dB_Hz", "upper corner −3 dB")):
         row(label, f.get(key), "Hz")
     mid = f.get("midband_insertion_loss_dB", {})
-    row("mid-band insertion loss (dB)", mid, "", f"at {eng(mid.get('frequency_Hz'), 'Hz')}")
+    row("mid-band insertion loss (dB)", mid, "",
+        f"at {eng(mid.get('frequency_Hz'), 'Hz')}" if mid.get("value") is not None else "")
     rl = f.get("return_loss_band", {})
     band = "—" if rl.get("start_Hz") is None and rl.get("stop_Hz") is None else \
         f"{eng(rl.get('start_Hz'), 'Hz')} – {eng(rl.get('stop_Hz'), 'Hz')}"
-    table.add_row(f"return loss ≥ {rl.get('threshold_dB', 15):g} dB", band, rl.get("note", ""))
+    table.add_row(f"return loss ≥ {rl.get('threshold_dB', 15):g} dB", band, _table_note(rl.get("note", ""), shared))
     row("self-resonance, primary (secondary open)", f.get("self_resonance_primary_Hz"), "Hz")
     row("self-resonance, secondary (primary open)", f.get("self_resonance_secondary_Hz"), "Hz")
     tr = f.get("turns_ratio", {})
@@ -437,6 +463,7 @@ def figures_table(analysis):
 
 
 def verdict_table(analysis):
+    from rich.markup import escape
     from rich.table import Table
 
     check = analysis.design_check
@@ -448,7 +475,8 @@ def verdict_table(analysis):
         verdict = "[green]pass[/]" if c["passed"] else "[bold red]FAIL[/]"
         unit = c["unit"]
         fmt = (lambda v: eng(v, unit)) if unit == "Hz" else (lambda v: f"{v:.4g}{' ' + unit if unit else ''}")
-        table.add_row(c["label"], verdict, fmt(c["value"]), fmt(c["limit"]), c["margin"], c["advice"])
+        table.add_row(escape(c["label"]), verdict, fmt(c["value"]), fmt(c["limit"]), escape(c["margin"]),
+                      escape(c["advice"]))
     return table
 
 
@@ -457,7 +485,9 @@ def _render_figures(analysis, console) -> None:
         console.print(figures_table(analysis))
         note = analysis.figures.get("terminations", {}).get("note")
         if note:
-            console.print(f"[dim]{note}[/]")
+            from rich.markup import escape
+
+            console.print(f"[dim]{escape(note)}[/]")
         console.print()
 
 
