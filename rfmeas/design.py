@@ -77,6 +77,9 @@ class DesignFacts:
     min_return_loss_dB: float | None
     min_return_loss_at_Hz: float | None
 
+    def to_dict(self) -> dict:
+        return dict(self.__dict__)
+
 
 def is_design(design: DesignTarget | None) -> bool:
     """A target with something to check (a threshold alone is not a design)."""
@@ -116,13 +119,17 @@ def _smallest_pair(ratio: float, tolerance_percent: float, at_least: int, max_tu
     return None
 
 
+def _ratio_margin(value: float, limit: float, tol: float, against: str) -> tuple[bool, float, str]:
+    """(within tolerance, percent off, margin in words) of a measured ratio against `limit`."""
+    off = _percent_off(value, limit)
+    return abs(off) <= tol, off, f"{_percent(off)} {_side(off)} {against} (tolerance ±{tol:g} %)"
+
+
 def _ratio_vs_design(facts: DesignFacts, design: DesignTarget) -> Verdict:
     target = design.target_turns_ratio
     value = facts.effective_ratio
     tol = design.ratio_tolerance_percent
-    off = _percent_off(value, target)
-    passed = abs(off) <= tol
-    margin = f"{_percent(off)} {_side(off)} the target 1:{target:.4g} (tolerance ±{tol:g} %)"
+    passed, off, margin = _ratio_margin(value, target, tol, f"the target 1:{target:.4g}")
     if passed:
         advice = NOTHING_TO_CHANGE
     elif facts.primary_turns:
@@ -145,11 +152,9 @@ def _ratio_vs_design(facts: DesignFacts, design: DesignTarget) -> Verdict:
 def _ratio_vs_stated(facts: DesignFacts, design: DesignTarget) -> Verdict:
     n1, n2 = facts.primary_turns, facts.secondary_turns
     stated = n2 / n1
+    passed, _off, margin = _ratio_margin(facts.effective_ratio, stated, design.ratio_tolerance_percent,
+                                         f"the stated {n1}:{n2}")
     value = facts.effective_ratio
-    tol = design.ratio_tolerance_percent
-    off = _percent_off(value, stated)
-    passed = abs(off) <= tol
-    margin = f"{_percent(off)} {_side(off)} the stated {n1}:{n2} (tolerance ±{tol:g} %)"
     if passed:
         advice = NOTHING_TO_CHANGE
     else:
