@@ -14,6 +14,45 @@ def register(app: typer.Typer) -> None:
     app.command("analyze")(analyze_command)
 
 
+def _design_target(design, plan: str | None, return_loss: str | None):
+    """The manifest's design with --plan's source, load and band, and --return-loss's threshold."""
+    from dataclasses import replace
+
+    from ..errors import InputError
+    from ..sweep import DesignTarget
+    from ..units import parse_engineering
+
+    target = design or DesignTarget()
+    if plan is not None:
+        parts = plan.split(":")
+        if len(parts) not in (3, 4):
+            raise InputError(f"--plan must look like SOURCE:LOAD:LOWEST[:HIGHEST] (e.g. 50:450:3.5M:30M), "
+                             f"not {plan!r}")
+        names = ("source", "load", "lowest", "highest")
+        values = {}
+        for name, text in zip(names, parts):
+            try:
+                values[name] = parse_engineering(text)
+            except InputError as exc:
+                raise InputError(f"--plan {name}: {exc.message}") from None
+            if not values[name] > 0:
+                raise InputError(f"--plan {name} must be positive, not {text!r}")
+        if "highest" in values and values["highest"] <= values["lowest"]:
+            raise InputError("--plan: the highest frequency must be above the lowest")
+        target = replace(target, source_impedance_ohm=values["source"], load_impedance_ohm=values["load"],
+                         lowest_frequency_Hz=values["lowest"], highest_frequency_Hz=values.get("highest"))
+    if return_loss is not None:
+        try:
+            threshold_dB = parse_engineering(return_loss)
+        except InputError as exc:
+            raise InputError(f"--return-loss: {exc.message}") from None
+        if not threshold_dB > 0:
+            raise InputError(f"--return-loss must be a positive number of dB, not {return_loss!r}")
+        target = replace(target, return_loss_dB=threshold_dB)
+    return target
+
+
+
 @handles_errors
 def analyze_command(
     inputs: List[Path] = typer.Argument(..., help="A manifest (.toml or its folder), or Touchstone files for a quick look."),
@@ -21,13 +60,15 @@ def analyze_command(
     turns: Optional[str] = typer.Option(None, "--turns", help="Turns PRIMARY:SECONDARY for files without a manifest, e.g. 3:9."),
     termination: str = typer.Option("open", "--termination", help="One-port files without a manifest: what the other winding sees (open, short, or ohms)."),
     port1: str = typer.Option("primary", "--port1", help="One-port files without a manifest: the winding on port 1."),
+    plan: Optional[str] = typer.Option(None, "--plan", help="Check against a target SOURCE:LOAD:LOWEST[:HIGHEST] (ohms, ohms, Hz, Hz; e.g. 50:450:3.5M:30M) instead of the manifest's [design]."),
+    return_loss: Optional[str] = typer.Option(None, "--return-loss", help="Return-loss threshold in dB for the band and its check (default 15, or the manifest's return_loss_dB)."),
     record: bool = typer.Option(True, "--record/--no-record", help="Keep this analysis in the history store (with its raw files)."),
     db: Optional[Path] = typer.Option(None, "--db", help="History store file (default: RFMEAS_DB or the user's data folder)."),
 ):
     """Fit the equivalent circuit to all sweeps of one transformer at once."""
     from ..errors import EXIT_DESIGN_FAILED
 
-    analysis = run_analysis(inputs, turns, termination, port1)
+    analysis = run_analysis(inputs, turns, termination, port1, plan, return_loss)
     record_id = None
     if record:
         from ..store import HistoryStore, record_analysis
@@ -47,17 +88,24 @@ def analyze_command(
         raise typer.Exit(EXIT_DESIGN_FAILED)
 
 
-def run_analysis(inputs, turns=None, termination="open", port1="primary"):
-    """Analyse a manifest (path or folder) or a list of Touchstone files."""
-    from ..analysis import analyze_files, analyze_manifest
+def run_analysis(inputs, turns=None, termination="open", port1="primary", plan=None, return_loss=None):
+    """Analyse a manifest (path or folder) or a list of Touchstone files, with an optional target."""
+    from dataclasses import replace
+
+    from ..analysis import analyze
     from ..errors import InputError
-    from ..io.manifest import parse_turns
+    from ..io.manifest import load_manifest, measurement_set_from_files, parse_turns
 
     first = Path(inputs[0])
     if first.suffix.lower() == ".toml" or first.is_dir():
         if len(inputs) > 1:
             raise InputError("give one manifest, or Touchstone files without a manifest", first)
-        return analyze_manifest(first)
-    if port1 not in ("primary", "secondary"):
-        raise InputError(f"--port1 must be primary or secondary, not {port1!r}")
-    return analyze_files(inputs, parse_turns(turns) if turns else None, termination, port1)
+        measurement = load_manifest(first)
+    else:
+        if port1 not in ("primary", "secondary"):
+            raise InputError(f"--port1 must be primary or secondary, not {port1!r}")
+        measurement = measurement_set_from_files(list(inputs), parse_turns(turns) if turns else None,
+                                                 termination, port1)
+    if plan is not None or return_loss is not None:
+        measurement = replace(measurement, design=_design_target(measurement.design, plan, return_loss))
+    return analyze(measurement)

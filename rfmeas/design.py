@@ -1,0 +1,268 @@
+"""The design check: does the measured transformer meet its target? Verdicts in plain words.
+
+Checks (each only when the design gives what it needs):
+- turns_ratio_vs_design        effective ratio sqrt(L2/L1) within ±tolerance of sqrt(load/source)
+- turns_ratio_vs_stated_turns  effective ratio within ±tolerance of N2/N1 as stated
+- low_frequency_limit          reactance-rule limit at or below lowest_frequency_Hz
+- high_frequency_corner        upper −3 dB corner at or above highest_frequency_Hz
+- return_loss                  return loss at the primary at or above the threshold over
+                               lowest..highest
+
+The advice follows the usual levers of a hand-wound transformer (common
+practice): inductance grows as N², so more turns on both windings lower the
+low-frequency limit; fewer turns, tighter winding (less leakage) or spread
+turns (less capacitance) raise the upper corner.
+"""
+
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass
+
+from .sweep import DesignTarget
+from .units import format_engineering as eng
+
+NOTHING_TO_CHANGE = "nothing to change"
+
+
+@dataclass(frozen=True)
+class Verdict:
+    """One check: pass or fail, the value against its limit, how far off, what to change."""
+
+    name: str
+    label: str
+    passed: bool
+    value: float
+    limit: float
+    unit: str
+    margin: str
+    advice: str
+
+    def to_dict(self) -> dict:
+        return dict(self.__dict__)
+
+
+@dataclass(frozen=True)
+class DesignCheck:
+    verdicts: tuple[Verdict, ...]
+    target: DesignTarget
+
+    @property
+    def passed(self) -> bool:
+        return all(v.passed for v in self.verdicts)
+
+    def to_dict(self) -> dict:
+        return {"passed": self.passed, "checks": [v.to_dict() for v in self.verdicts],
+                "target": self.target.to_dict()}
+
+
+@dataclass(frozen=True)
+class DesignFacts:
+    """The measured numbers the check needs (from rfmeas.figures); None where not known.
+
+    high_corner_3dB_Hz is None when the corner lies beyond the evaluated range, whose
+    top is evaluated_top_Hz; high_limited_by names the element ('leakage' or
+    'capacitance') that alone gives the lower upper corner.
+    """
+
+    effective_ratio: float | None
+    primary_turns: int | None
+    secondary_turns: int | None
+    low_frequency_limit_Hz: float | None
+    high_corner_3dB_Hz: float | None
+    evaluated_top_Hz: float | None
+    high_limited_by: str
+    midband_Hz: float | None
+    midband_return_loss_dB: float | None
+    min_return_loss_dB: float | None
+    min_return_loss_at_Hz: float | None
+
+    def to_dict(self) -> dict:
+        return dict(self.__dict__)
+
+
+def is_design(design: DesignTarget | None) -> bool:
+    """A target with something to check (a threshold alone is not a design)."""
+    return design is not None and any(
+        v is not None for v in (design.source_impedance_ohm, design.load_impedance_ohm,
+                                design.lowest_frequency_Hz, design.highest_frequency_Hz))
+
+
+def _percent_off(value: float, limit: float) -> float:
+    return 100.0 * (value / limit - 1.0)
+
+
+def _percent(value: float) -> str:
+    """Two significant figures without exponents: 6.7 %, 20 %, 100 %, 0.0012 %."""
+    v = abs(value)
+    if v < 0.001:
+        return "less than 0.001 %"
+    return f"{v:.0f} %" if v >= 99.5 else f"{float(f'{v:.2g}'):g} %"
+
+
+def _side(percent: float) -> str:
+    return "above" if percent >= 0 else "below"
+
+
+def _ratio_pairs(primary_turns: int, ratio: float, tolerance_percent: float) -> tuple[int, int, bool]:
+    """Whole-turn secondary for `primary_turns` nearest `ratio`, and whether it meets the tolerance."""
+    secondary = max(1, round(primary_turns * ratio))
+    ok = abs(_percent_off(secondary / primary_turns, ratio)) <= tolerance_percent
+    return primary_turns, secondary, ok
+
+
+def _smallest_pair(ratio: float, tolerance_percent: float, at_least: int, max_turns: int = 100):
+    for n1 in range(max(1, at_least), max_turns + 1):
+        _, n2, ok = _ratio_pairs(n1, ratio, tolerance_percent)
+        if ok:
+            return n1, n2
+    return None
+
+
+def _ratio_margin(value: float, limit: float, tol: float, against: str) -> tuple[bool, float, str]:
+    """(within tolerance, percent off, margin in words) of a measured ratio against `limit`."""
+    off = _percent_off(value, limit)
+    return abs(off) <= tol, off, f"{_percent(off)} {_side(off)} {against} (tolerance ±{tol:g} %)"
+
+
+def _ratio_vs_design(facts: DesignFacts, design: DesignTarget) -> Verdict:
+    target = design.target_turns_ratio
+    value = facts.effective_ratio
+    tol = design.ratio_tolerance_percent
+    passed, off, margin = _ratio_margin(value, target, tol, f"the target 1:{target:.4g}")
+    if passed:
+        advice = NOTHING_TO_CHANGE
+    elif facts.primary_turns:
+        n1, n2, ok = _ratio_pairs(facts.primary_turns, target, tol)
+        now = f" (it acts like {facts.primary_turns}:{round(facts.primary_turns * value)})"
+        advice = f"wind {n2} turns on the secondary with {n1} on the primary{now}"
+        if not ok:
+            pair = _smallest_pair(target, tol, facts.primary_turns)
+            if pair:
+                advice += f"; {n1}:{n2} is still off by more than {tol:g} %, {pair[0]}:{pair[1]} meets it"
+    else:
+        direction = "raise" if off < 0 else "lower"
+        more, fewer = ("secondary", "primary") if off < 0 else ("primary", "secondary")
+        advice = (f"{direction} the ratio by {_percent(off)}: add turns to the {more} "
+                  f"or take turns off the {fewer}")
+    return Verdict("turns_ratio_vs_design", "turns ratio against sqrt(load/source)", passed,
+                   value, target, "", margin, advice)
+
+
+def _ratio_vs_stated(facts: DesignFacts, design: DesignTarget) -> Verdict:
+    n1, n2 = facts.primary_turns, facts.secondary_turns
+    stated = n2 / n1
+    passed, _off, margin = _ratio_margin(facts.effective_ratio, stated, design.ratio_tolerance_percent,
+                                         f"the stated {n1}:{n2}")
+    value = facts.effective_ratio
+    if passed:
+        advice = NOTHING_TO_CHANGE
+    else:
+        advice = (f"the windings act like {n1}:{max(1, round(n1 * value))} "
+                  f"(or {max(1, round(n2 / value))}:{n2}), not the stated {n1}:{n2}: recount the turns "
+                  "and correct the manifest, or check that both windings sit fully on the core")
+    return Verdict("turns_ratio_vs_stated_turns", "turns ratio against the stated turns", passed,
+                   value, stated, "", margin, advice)
+
+
+def _fewest_primary_turns(facts: DesignFacts, scale: float) -> int:
+    """Fewest whole primary turns that keep the reactance rule when the turns are scaled by `scale`.
+
+    The limit goes as 1/N², so N' ≥ N·sqrt(limit/lowest) = N·scale.
+    """
+    return max(1, math.ceil(facts.primary_turns * scale - 1e-9))
+
+
+def _scaled_pair(facts: DesignFacts, scale: float, ratio: float | None) -> str:
+    if not facts.primary_turns:
+        return ""
+    n1 = _fewest_primary_turns(facts, scale)
+    r = ratio or (facts.secondary_turns / facts.primary_turns if facts.secondary_turns else None)
+    if r is None:
+        return f" (primary {facts.primary_turns} → {n1})"
+    now = f"{facts.primary_turns}:{facts.secondary_turns}" if facts.secondary_turns else f"{facts.primary_turns}:?"
+    return f" ({now} → {n1}:{max(1, round(n1 * r))})"
+
+
+def _low_limit(facts: DesignFacts, design: DesignTarget) -> Verdict:
+    value, limit = facts.low_frequency_limit_Hz, design.lowest_frequency_Hz
+    off = _percent_off(value, limit)
+    passed = value <= limit
+    margin = f"{_percent(off)} {_side(off)} the limit"
+    if passed:
+        advice = NOTHING_TO_CHANGE
+    else:
+        scale = math.sqrt(value / limit)
+        advice = (f"more turns on both windings, about {scale:.3g}× as many"
+                  f"{_scaled_pair(facts, scale, design.target_turns_ratio)}, "
+                  "or a core with a higher A_L")
+    return Verdict("low_frequency_limit",
+                   f"reactance ≥ {design.reactance_factor:g} × impedance down to the lowest frequency",
+                   passed, value, limit, "Hz", margin, advice)
+
+
+def _high_frequency_advice(facts: DesignFacts, design: DesignTarget) -> str:
+    if facts.high_limited_by == "leakage":
+        advice = ("wind tighter for less leakage: twist the windings together or interleave them, "
+                  "spread evenly over the whole core")
+    else:
+        advice = "spread turns for less capacitance: space the turns and keep the windings apart"
+    if facts.low_frequency_limit_Hz and design.lowest_frequency_Hz \
+            and facts.low_frequency_limit_Hz < design.lowest_frequency_Hz:
+        scale = math.sqrt(facts.low_frequency_limit_Hz / design.lowest_frequency_Hz)
+        if facts.primary_turns is None or _fewest_primary_turns(facts, scale) < facts.primary_turns:
+            advice += (f"; or fewer turns (less leakage and capacitance): the low-frequency limit allows "
+                       f"about {scale:.3g}× as many{_scaled_pair(facts, scale, design.target_turns_ratio)}")
+    return advice
+
+
+def _high_corner(facts: DesignFacts, design: DesignTarget) -> Verdict:
+    limit = design.highest_frequency_Hz
+    if facts.high_corner_3dB_Hz is None:
+        value = facts.evaluated_top_Hz
+        return Verdict("high_frequency_corner", "upper −3 dB corner at or above the highest frequency",
+                       True, value, limit, "Hz",
+                       f"above {eng(value, 'Hz')}, beyond the evaluated range", NOTHING_TO_CHANGE)
+    value = facts.high_corner_3dB_Hz
+    off = _percent_off(value, limit)
+    passed = value >= limit
+    advice = NOTHING_TO_CHANGE if passed else _high_frequency_advice(facts, design)
+    return Verdict("high_frequency_corner", "upper −3 dB corner at or above the highest frequency",
+                   passed, value, limit, "Hz", f"{_percent(off)} {_side(off)} the limit", advice)
+
+
+def _return_loss(facts: DesignFacts, design: DesignTarget) -> Verdict:
+    value, limit = facts.min_return_loss_dB, design.return_loss_dB
+    diff = value - limit
+    passed = diff >= 0
+    margin = (f"{abs(diff):.2g} dB {_side(diff)} the threshold "
+              f"(worst {value:.3g} dB at {eng(facts.min_return_loss_at_Hz, 'Hz')})")
+    if passed:
+        advice = NOTHING_TO_CHANGE
+    elif facts.midband_return_loss_dB is not None and facts.midband_return_loss_dB < limit:
+        advice = ("the match is off even at mid-band: bring the turns ratio to sqrt(load/source)")
+    elif facts.midband_Hz is not None and facts.min_return_loss_at_Hz < facts.midband_Hz:
+        advice = ("the magnetising inductance shunts the low end: more turns on both windings, "
+                  "or a core with a higher A_L")
+    else:
+        advice = _high_frequency_advice(facts, design)
+    return Verdict("return_loss",
+                   f"return loss ≥ {limit:g} dB from {eng(design.lowest_frequency_Hz, 'Hz')} "
+                   f"to {eng(design.highest_frequency_Hz, 'Hz')}",
+                   passed, value, limit, "dB", margin, advice)
+
+
+def check_design(facts: DesignFacts, design: DesignTarget) -> DesignCheck:
+    """Every check the design and the measured facts allow, in a fixed order."""
+    verdicts = []
+    if design.target_turns_ratio and facts.effective_ratio:
+        verdicts.append(_ratio_vs_design(facts, design))
+    if facts.primary_turns and facts.secondary_turns and facts.effective_ratio:
+        verdicts.append(_ratio_vs_stated(facts, design))
+    if design.lowest_frequency_Hz and facts.low_frequency_limit_Hz:
+        verdicts.append(_low_limit(facts, design))
+    if design.highest_frequency_Hz and (facts.high_corner_3dB_Hz or facts.evaluated_top_Hz):
+        verdicts.append(_high_corner(facts, design))
+    if design.lowest_frequency_Hz and design.highest_frequency_Hz and facts.min_return_loss_dB is not None:
+        verdicts.append(_return_loss(facts, design))
+    return DesignCheck(tuple(verdicts), design)

@@ -1,0 +1,502 @@
+"""Figures of merit of a fitted transformer, with propagated standard errors, and the design check.
+
+Every figure is computed from the fitted circuit values by one function of the
+parameter vector, so its standard error follows by first-order propagation:
+J = ∂figure/∂x by central differences in the fit's internal (log) coordinates,
+var = J·cov·Jᵀ with the fit's covariance (as rfmeas.results does for the
+parameters). A figure that needs a parameter the fit could not determine gets
+no standard error (or no value) and a note saying which.
+
+Formulas:
+- A_L = L/N² (each winding's open-circuit inductance and turn count);
+- µe = L·le/(µ0·N²·Ae) with le, Ae from rfmeas.magnetics (IEC 60205 forms);
+- reactance rule: lowest frequency where 2π·f·L ≥ factor·R, f = factor·R/(2π·L),
+  primary against the source, secondary against the load (common practice);
+- corners and return-loss band: rfmeas.response on the fitted model between
+  the design's source and load resistances.
+"""
+
+from __future__ import annotations
+
+import logging
+import math
+from dataclasses import dataclass
+
+import numpy as np
+
+from .design import DesignFacts, check_design, is_design
+from .fit import to_physical
+from .magnetics import effective_permeability, geometry_from_table, nH_per_turn2_to
+from .model.params import PARAMETER_NAMES, TransformerParams
+from .response import band_response, minimum_return_loss_dB, open_circuit_voltage_ratio, \
+    reactance_limit_Hz, return_loss_dB, self_resonance_Hz
+from .units import format_engineering as eng
+from .units import format_with_error
+
+log = logging.getLogger(__name__)
+
+DEFAULT_SOURCE_OHM = 50.0
+DEFAULT_REACTANCE_FACTOR = 4.0
+DEFAULT_RETURN_LOSS_DB = 15.0
+_FD_STEP = 1e-5  # central-difference step in internal (log) coordinates
+_CAPACITANCES = ("C1_F", "C2_F", "C12_F")
+
+# figure scalar -> (parameters without which it has no value, parameters without which it has no stderr)
+_NEEDS = {
+    "al_primary": (("L1_H",), ()),
+    "al_secondary": (("L2_H",), ()),
+    "mu_primary": (("L1_H",), ()),
+    "mu_secondary": (("L2_H",), ()),
+    "lf_primary": (("L1_H",), ()),
+    "lf_secondary": (("L2_H",), ()),
+    "al_mean": (("L1_H", "L2_H"), ()),
+    "mu_mean": (("L1_H", "L2_H"), ()),
+    "lf_max": (("L1_H", "L2_H"), ()),
+    "ratio": (("L1_H", "L2_H"), ()),
+    "ocv_ratio": (("L1_H", "L2_H"), ("k",)),
+    "low_1dB": (("L1_H", "L2_H"), ("k",)),
+    "low_3dB": (("L1_H", "L2_H"), ("k",)),
+    "high_1dB": (("L1_H", "L2_H", "k"), _CAPACITANCES),
+    "high_3dB": (("L1_H", "L2_H", "k"), _CAPACITANCES),
+    "midband_loss": (("L1_H", "L2_H"), ("k", "R1_ohm", "R2_ohm", "Rc_ohm")),
+    "rl_start": (("L1_H", "L2_H"), ("k",)),
+    "rl_stop": (("L1_H", "L2_H", "k"), _CAPACITANCES),
+    "min_rl": (("L1_H", "L2_H", "k"), _CAPACITANCES),
+    "srf_primary": (("L1_H", "L2_H"), ("k",) + _CAPACITANCES),
+    "srf_secondary": (("L1_H", "L2_H"), ("k",) + _CAPACITANCES),
+}
+
+
+@dataclass(frozen=True)
+class Terminations:
+    """What the figures are computed against: the design's, or the defaults (with a note)."""
+
+    source_ohm: float
+    load_ohm: float
+    reactance_factor: float
+    return_loss_dB: float
+    lowest_Hz: float | None
+    highest_Hz: float | None
+    note: str
+
+    def to_dict(self) -> dict:
+        return dict(self.__dict__)
+
+
+def terminations_for(design, effective_ratio: float) -> Terminations:
+    """The design's source and load, or 50 Ω and 50·n² (a matched load for the measured ratio)."""
+    source = getattr(design, "source_impedance_ohm", None)
+    load = getattr(design, "load_impedance_ohm", None)
+    notes = []
+    if source is None:
+        source = DEFAULT_SOURCE_OHM
+        notes.append(f"no design source impedance: {DEFAULT_SOURCE_OHM:g} Ω assumed")
+    if load is None:
+        load = source * effective_ratio**2
+        notes.append(f"no design load impedance: {eng(load, 'Ω')} assumed "
+                     f"({eng(source, 'Ω')}·n², matched to the measured ratio)")
+    return Terminations(
+        source_ohm=float(source), load_ohm=float(load),
+        reactance_factor=float(getattr(design, "reactance_factor", None) or DEFAULT_REACTANCE_FACTOR),
+        return_loss_dB=float(getattr(design, "return_loss_dB", None) or DEFAULT_RETURN_LOSS_DB),
+        lowest_Hz=getattr(design, "lowest_frequency_Hz", None),
+        highest_Hz=getattr(design, "highest_frequency_Hz", None),
+        note="; ".join(notes))
+
+
+def _nan(value):
+    return math.nan if value is None else float(value)
+
+
+def figure_scalars(params: TransformerParams, terms: Terminations, primary_turns, secondary_turns,
+                   geometry) -> dict[str, float]:
+    """Every scalar figure of `params` (NaN where it does not exist); a pure function of the circuit."""
+    out = {}
+    if primary_turns:
+        out["al_primary"] = params.L1_H / primary_turns**2 * 1e9
+        if geometry is not None:
+            out["mu_primary"] = float(effective_permeability(params.L1_H, primary_turns, geometry))
+    if secondary_turns:
+        out["al_secondary"] = params.L2_H / secondary_turns**2 * 1e9
+        if geometry is not None:
+            out["mu_secondary"] = float(effective_permeability(params.L2_H, secondary_turns, geometry))
+    out["lf_primary"] = float(reactance_limit_Hz(params.L1_H, terms.source_ohm, terms.reactance_factor))
+    out["lf_secondary"] = float(reactance_limit_Hz(params.L2_H, terms.load_ohm, terms.reactance_factor))
+    out["ratio"] = params.effective_turns_ratio
+    band = band_response(params, terms.source_ohm, terms.load_ohm, terms.return_loss_dB)
+    out["midband_Hz"] = band.midband_Hz
+    out["midband_loss"] = -band.midband_gain_dB
+    out["midband_rl"] = float(return_loss_dB(params, band.midband_Hz, terms.source_ohm, terms.load_ohm))
+    out["ocv_ratio"] = float(open_circuit_voltage_ratio(params, band.midband_Hz))
+    for key in ("low_1dB", "low_3dB", "high_1dB", "high_3dB"):
+        out[key] = _nan(getattr(band, f"{key}_Hz"))
+    out["rl_start"] = _nan(band.return_loss_start_Hz)
+    out["rl_stop"] = _nan(band.return_loss_stop_Hz)
+    out["best_rl"] = band.best_return_loss_dB
+    out["evaluated_top_Hz"] = band.estimates.high_Hz * 100 if math.isfinite(band.estimates.high_Hz) \
+        else band.estimates.magnetising_Hz * 1e8
+    out["leakage_corner_Hz"] = band.estimates.leakage_Hz
+    out["capacitance_corner_Hz"] = band.estimates.capacitance_Hz
+    if terms.lowest_Hz and terms.highest_Hz:
+        out["min_rl"], out["min_rl_at_Hz"] = minimum_return_loss_dB(
+            params, terms.source_ohm, terms.load_ohm, terms.lowest_Hz, terms.highest_Hz)
+    out["srf_primary"] = _nan(self_resonance_Hz(params, "primary"))
+    out["srf_secondary"] = _nan(self_resonance_Hz(params, "secondary"))
+    return out
+
+
+def propagate(outcome, func) -> tuple[dict[str, float], dict[str, float | None]]:
+    """Values of `func(params) -> dict` at the fit, and first-order standard errors from its covariance."""
+    values = {n: getattr(outcome.params, n) for n in PARAMETER_NAMES}
+    free = list(outcome.free)
+
+    def at(x):
+        v = dict(values)
+        for j, name in enumerate(free):
+            v[name] = float(to_physical(name, x[j]))
+        return func(TransformerParams(**v, polarity=outcome.params.polarity))
+
+    base = func(outcome.params)
+    cov = outcome.covariance
+    stderr: dict[str, float | None] = {key: None for key in base}
+    if cov is None or not free:
+        return base, stderr
+    keys = list(base)
+    jac = np.full((len(keys), len(free)), np.nan)
+    for j in range(len(free)):
+        rows = []
+        for sign in (1.0, -1.0):
+            x = np.array(outcome.x, dtype=float)
+            x[j] += sign * _FD_STEP
+            try:
+                d = at(x)
+            except (ValueError, ArithmeticError):
+                d = {}
+            rows.append([d.get(k, math.nan) for k in keys])
+        jac[:, j] = (np.array(rows[0]) - np.array(rows[1])) / (2 * _FD_STEP)
+    with np.errstate(invalid="ignore"):
+        for i, key in enumerate(keys):
+            g = jac[i]
+            if not np.all(np.isfinite(g)):
+                continue
+            used = g != 0
+            var = float(g[used] @ cov[np.ix_(used, used)] @ g[used]) if np.any(used) else 0.0
+            if math.isfinite(var) and var >= 0:
+                stderr[key] = math.sqrt(var)
+    return base, stderr
+
+
+class _Builder:
+    """Turns scalars into figure objects, applying the rules about undetermined parameters."""
+
+    def __init__(self, values, stderr, held: dict):
+        self.values, self.stderr, self.held = values, stderr, held
+
+    def missing(self, key) -> tuple[list[str], list[str]]:
+        requires, needs = _NEEDS.get(key, ((), ()))
+        if key.startswith("srf") and all(c in self.held for c in _CAPACITANCES):
+            requires = requires + _CAPACITANCES
+        return [n for n in requires if n in self.held], [n for n in needs if n in self.held]
+
+    def reason(self, names) -> str:
+        reasons = sorted({self.held[n][1] for n in names})
+        return f"needs {', '.join(names)}, not determined ({'; '.join(reasons)})"
+
+    def obj(self, key, scale: float = 1.0, **extra) -> dict:
+        value = self.values.get(key, math.nan)
+        err = self.stderr.get(key)
+        no_value, no_err = self.missing(key)
+        d = {"value": None, "stderr": None}
+        if no_value or not math.isfinite(value):
+            if no_value:
+                d["note"] = self.reason(no_value)
+        else:
+            d["value"] = value * scale
+            d["stderr"] = None if (no_err or err is None) else abs(err * scale)
+            if no_err:
+                d["note"] = f"no standard error: {self.reason(no_err)}"
+        d.update(extra)
+        return d
+
+
+def _measured_range(measurement) -> tuple[float, float]:
+    fs = [s.f_Hz for s in measurement.sweeps if s.f_Hz.size]
+    return (min(float(f[0]) for f in fs), max(float(f[-1]) for f in fs)) if fs else (math.nan, math.nan)
+
+
+def _mark_extrapolated(fig: dict, span: tuple[float, float]) -> dict:
+    v = fig.get("value")
+    if v is not None and math.isfinite(span[0]):
+        inside = span[0] <= v <= span[1]
+        fig["within_sweeps"] = inside
+        if not inside:
+            fig["note"] = (fig.get("note", "") + "; " if fig.get("note") else "") + \
+                f"outside the swept {eng(span[0], 'Hz')}–{eng(span[1], 'Hz')}: extrapolated from the model"
+    return fig
+
+
+def _combined_key(prefix: str, primary_known: bool, secondary_known: bool, held: dict) -> str:
+    """'<prefix>_mean' when both windings give the figure, else the one that does."""
+    primary_known = primary_known and "L1_H" not in held
+    secondary_known = secondary_known and "L2_H" not in held
+    if primary_known and secondary_known:
+        return f"{prefix}_mean"
+    return f"{prefix}_secondary" if secondary_known else f"{prefix}_primary"
+
+
+def compute_figures(measurement, result) -> tuple[dict, dict | None, list[str]]:
+    """(figures, design_check, warnings) for a fitted measurement set; see DESIGN.md 'JSON contract'."""
+    outcome = result.outcome
+    design = measurement.design
+    n1, n2 = measurement.primary_turns, measurement.secondary_turns
+    geometry = geometry_from_table(measurement.core, measurement.manifest_path) if measurement.core else None
+    terms = terminations_for(design, outcome.params.effective_turns_ratio)
+    warnings: list[str] = []
+
+    def scalars(params):
+        d = figure_scalars(params, terms, n1, n2, geometry)
+        if n1 and n2:
+            d["al_mean"] = (d["al_primary"] + d["al_secondary"]) / 2
+            if geometry is not None:
+                d["mu_mean"] = (d["mu_primary"] + d["mu_secondary"]) / 2
+        d["lf_max"] = max(d["lf_primary"], d["lf_secondary"])
+        return d
+
+    values, stderr = propagate(outcome, scalars)
+    b = _Builder(values, stderr, dict(outcome.held))
+    span = _measured_range(measurement)
+    figures: dict = {}
+    terms_note = {"note": terms.note} if terms.note else {}
+
+    # inductance factor, both windings
+    if n1 or n2:
+        pri = b.obj("al_primary", turns=n1, inductance_H=outcome.params.L1_H) if n1 else None
+        sec = b.obj("al_secondary", turns=n2, inductance_H=outcome.params.L2_H) if n2 else None
+        key = _combined_key("al", bool(n1), bool(n2), outcome.held)
+        al = b.obj(key, primary=pri, secondary=sec)
+        agreement = None
+        if pri and sec and pri["value"] and sec["value"]:
+            agreement = 100.0 * (sec["value"] / pri["value"] - 1.0)
+        al["agreement_percent"] = agreement
+        tol = getattr(design, "ratio_tolerance_percent", 2.0) if design else 2.0
+        # A_L goes as the square of the ratio error, hence twice the ratio tolerance
+        al["agrees"] = None if agreement is None else abs(agreement) <= 2 * tol
+        if al["agrees"] is False:
+            warnings.append(
+                f"A_L from the primary ({pri['value']:.4g} nH) and the secondary ({sec['value']:.4g} nH) "
+                f"differ by {agreement:+.2g} %: the stated turns may be wrong or a winding does not sit "
+                "fully on the core")
+        for unit, name in (("uH/100", "uH_per_100_turns"), ("mH/1000", "mH_per_1000_turns")):
+            conv = float(nH_per_turn2_to(1.0, unit))
+            al[name] = {"value": None if al["value"] is None else al["value"] * conv,
+                        "stderr": None if al["stderr"] is None else al["stderr"] * conv}
+        figures["inductance_factor_nH_per_turn2"] = al
+    else:
+        figures["inductance_factor_nH_per_turn2"] = {"value": None, "stderr": None,
+                                                     "note": "needs the turn counts ([transformer] turns)"}
+
+    # effective permeability
+    if geometry is not None and (n1 or n2):
+        key = _combined_key("mu", bool(n1), bool(n2), outcome.held)
+        figures["effective_permeability"] = b.obj(
+            key, primary=b.obj("mu_primary") if n1 else None, secondary=b.obj("mu_secondary") if n2 else None,
+            core={"shape": geometry.shape, "description": geometry.description,
+                  "effective_area_mm2": geometry.effective_area_m2 * 1e6,
+                  "effective_length_mm": geometry.effective_length_m * 1e3},
+            note="low-frequency value, µe = L·le/(µ0·N²·Ae)")
+    else:
+        figures["effective_permeability"] = {
+            "value": None, "stderr": None,
+            "note": "needs the core geometry ([core]) and turn counts" if geometry is None else "needs turn counts"}
+
+    # reactance rule
+    lf_pri = b.obj("lf_primary", impedance_ohm=terms.source_ohm)
+    lf_sec = b.obj("lf_secondary", impedance_ohm=terms.load_ohm)
+    key = _combined_key("lf", True, True, outcome.held)
+    if key == "lf_mean":
+        key = "lf_max"
+        set_by = "primary" if values["lf_primary"] >= values["lf_secondary"] else "secondary"
+    else:
+        set_by = key.removeprefix("lf_")
+    lf = b.obj(key, set_by=set_by, primary=lf_pri, secondary=lf_sec,
+               reactance_factor=terms.reactance_factor)
+    if key != "lf_max":
+        lf["note"] = f"from the {set_by} alone: the other winding's inductance is not determined"
+    if terms.note:
+        lf["note"] = (lf["note"] + "; " if lf.get("note") else "") + terms.note
+    figures["low_frequency_limit_Hz"] = lf
+
+    # band from the fitted model
+    for key, name in (("low_1dB", "low_frequency_corner_1dB_Hz"), ("low_3dB", "low_frequency_corner_3dB_Hz"),
+                      ("high_1dB", "high_frequency_corner_1dB_Hz"), ("high_3dB", "high_frequency_corner_3dB_Hz")):
+        fig = b.obj(key, source_ohm=terms.source_ohm, load_ohm=terms.load_ohm)
+        if fig["value"] is None and "note" not in fig:
+            fig["note"] = "beyond the evaluated range"
+        if terms.note:
+            fig["note"] = (fig.get("note", "") + "; " if fig.get("note") else "") + terms.note
+        figures[name] = _mark_extrapolated(fig, span)
+    figures["midband_insertion_loss_dB"] = b.obj("midband_loss", frequency_Hz=values["midband_Hz"],
+                                                 **terms_note)
+    start, stop = b.obj("rl_start"), b.obj("rl_stop")
+    rl_band = {"start_Hz": start["value"], "stop_Hz": stop["value"],
+               "start_stderr_Hz": start["stderr"], "stop_stderr_Hz": stop["stderr"],
+               "threshold_dB": terms.return_loss_dB, "best_return_loss_dB": values["best_rl"],
+               "source_ohm": terms.source_ohm, "load_ohm": terms.load_ohm}
+    if "note" in start or "note" in stop:
+        rl_band["note"] = start.get("note") or stop.get("note")
+    elif start["value"] is None and stop["value"] is None and values["best_rl"] < terms.return_loss_dB:
+        rl_band["note"] = (f"the return loss never reaches {terms.return_loss_dB:g} dB "
+                           f"(best {values['best_rl']:.3g} dB)")
+    figures["return_loss_band"] = rl_band
+    for winding in ("primary", "secondary"):
+        fig = b.obj(f"srf_{winding}")
+        if fig["value"] is None and "note" not in fig:
+            fig["note"] = "no resonance found"
+        figures[f"self_resonance_{winding}_Hz"] = _mark_extrapolated(fig, span)
+
+    # turns ratio
+    ratio = b.obj("ratio")
+    n = values["ratio"]
+    ratio.update(
+        effective={"value": ratio["value"], "stderr": ratio["stderr"]},
+        open_circuit_voltage_ratio=b.obj("ocv_ratio", frequency_Hz=values["midband_Hz"]),
+        stated_ratio=(n2 / n1) if (n1 and n2) else None,
+        nearest_secondary_turns=max(1, round(n1 * n)) if (n1 and ratio["value"]) else None,
+        nearest_primary_turns=max(1, round(n2 / n)) if (n2 and ratio["value"]) else None,
+        design_ratio=design.target_turns_ratio if design else None)
+    if n1 and n2 and ratio["value"] and (ratio["nearest_secondary_turns"] != n2
+                                         or ratio["nearest_primary_turns"] != n1):
+        warnings.append(f"the windings act like {n1}:{ratio['nearest_secondary_turns']} "
+                        f"(or {ratio['nearest_primary_turns']}:{n2}), not the stated {n1}:{n2}")
+    figures["turns_ratio"] = ratio
+    figures["terminations"] = terms.to_dict()
+
+    design_check = None
+    if is_design(design):
+        facts = DesignFacts(
+            effective_ratio=ratio["value"], primary_turns=n1, secondary_turns=n2,
+            low_frequency_limit_Hz=figures["low_frequency_limit_Hz"]["value"],
+            high_corner_3dB_Hz=figures["high_frequency_corner_3dB_Hz"]["value"],
+            evaluated_top_Hz=values["evaluated_top_Hz"],
+            high_limited_by="leakage" if values["leakage_corner_Hz"] <= values["capacitance_corner_Hz"]
+            else "capacitance",
+            midband_Hz=values["midband_Hz"], midband_return_loss_dB=values["midband_rl"],
+            min_return_loss_dB=values.get("min_rl"), min_return_loss_at_Hz=values.get("min_rl_at_Hz"))
+        design_check = check_design(facts, design).to_dict()
+    return figures, design_check, warnings
+
+
+# ---- terminal presentation -------------------------------------------------------------------
+
+def _value_text(fig: dict | None, unit: str = "", digits: int = 4) -> str:
+    if not fig or fig.get("value") is None:
+        return "—"
+    if unit:
+        return format_with_error(fig["value"], fig.get("stderr"), unit)
+    err = fig.get("stderr")
+    return f"{fig['value']:.{digits}g}" + (f" ± {err:.2g}" if err else "")
+
+
+def _table_note(note: str, shared: str) -> str:
+    """A figure's note without the terminations note (printed once under the table), markup-safe."""
+    from rich.markup import escape
+
+    if shared:
+        note = note.replace("; " + shared, "").replace(shared, "")
+    return escape(note.strip("; "))
+
+
+def figures_table(analysis):
+    from rich.table import Table
+
+    f = analysis.figures
+    shared = f.get("terminations", {}).get("note", "")
+    table = Table(title="Figures", title_justify="left", show_edge=False, pad_edge=False)
+    table.add_column("figure")
+    table.add_column("value ± standard error", justify="right")
+    table.add_column("note", overflow="fold")
+
+    def row(label, fig, unit="", note=""):
+        table.add_row(label, _value_text(fig, unit), _table_note(note or (fig or {}).get("note", ""), shared))
+
+    al = f.get("inductance_factor_nH_per_turn2", {})
+    if al.get("value") is not None:
+        agree = al.get("agreement_percent")
+        row("A_L (nH/turn²)", al, "", "" if agree is None else
+            f"windings agree to {agree:+.2g} %" + ("" if al.get("agrees") else " — check the turns"))
+        for side in ("primary", "secondary"):
+            sub = al.get(side)
+            if sub and sub.get("value") is not None:
+                row(f"  from the {side} ({sub['turns']} turns)", sub)
+        row("  in µH per 100 turns", al["uH_per_100_turns"])
+        row("  in mH per 1000 turns", al["mH_per_1000_turns"])
+    else:
+        row("A_L", al)
+    row("effective permeability µe", f.get("effective_permeability"))
+    lf = f.get("low_frequency_limit_Hz", {})
+    row(f"reactance-rule limit (X ≥ {lf.get('reactance_factor', 4):g}·R)", lf, "Hz",
+        f"set by the {lf.get('set_by')}; primary {_value_text(lf.get('primary'), 'Hz')}, "
+        f"secondary {_value_text(lf.get('secondary'), 'Hz')}; {lf.get('note', '')}")
+    for key, label in (("low_frequency_corner_3dB_Hz", "lower corner −3 dB"),
+                       ("low_frequency_corner_1dB_Hz", "lower corner −1 dB"),
+                       ("high_frequency_corner_1dB_Hz", "upper corner −1 dB"),
+                       ("high_frequency_corner_3dB_Hz", "upper corner −3 dB")):
+        row(label, f.get(key), "Hz")
+    mid = f.get("midband_insertion_loss_dB", {})
+    row("mid-band insertion loss (dB)", mid, "",
+        f"at {eng(mid.get('frequency_Hz'), 'Hz')}" if mid.get("value") is not None else "")
+    rl = f.get("return_loss_band", {})
+    band = "—" if rl.get("start_Hz") is None and rl.get("stop_Hz") is None else \
+        f"{eng(rl.get('start_Hz'), 'Hz')} – {eng(rl.get('stop_Hz'), 'Hz')}"
+    table.add_row(f"return loss ≥ {rl.get('threshold_dB', 15):g} dB", band, _table_note(rl.get("note", ""), shared))
+    row("self-resonance, primary (secondary open)", f.get("self_resonance_primary_Hz"), "Hz")
+    row("self-resonance, secondary (primary open)", f.get("self_resonance_secondary_Hz"), "Hz")
+    tr = f.get("turns_ratio", {})
+    notes = []
+    if tr.get("nearest_secondary_turns") is not None:
+        notes.append(f"acts like {analysis.measurement.primary_turns}:{tr['nearest_secondary_turns']}")
+    if tr.get("design_ratio"):
+        notes.append(f"design 1:{tr['design_ratio']:.4g}")
+    row("turns ratio √(L2/L1)", tr, "", ", ".join(notes))
+    row("open-circuit voltage ratio", tr.get("open_circuit_voltage_ratio"))
+    return table
+
+
+def verdict_table(analysis):
+    from rich.markup import escape
+    from rich.table import Table
+
+    check = analysis.design_check
+    table = Table(title="Design check: " + ("PASS" if check["passed"] else "FAIL"), title_justify="left",
+                  show_edge=False, pad_edge=False)
+    for col in ("check", "verdict", "value", "limit", "margin", "what to change"):
+        table.add_column(col, overflow="fold")
+    for c in check["checks"]:
+        verdict = "[green]pass[/]" if c["passed"] else "[bold red]FAIL[/]"
+        unit = c["unit"]
+        fmt = (lambda v: eng(v, unit)) if unit == "Hz" else (lambda v: f"{v:.4g}{' ' + unit if unit else ''}")
+        table.add_row(escape(c["label"]), verdict, fmt(c["value"]), fmt(c["limit"]), escape(c["margin"]),
+                      escape(c["advice"]))
+    return table
+
+
+def _render_figures(analysis, console) -> None:
+    if analysis.figures:
+        console.print(figures_table(analysis))
+        note = analysis.figures.get("terminations", {}).get("note")
+        if note:
+            from rich.markup import escape
+
+            console.print(f"[dim]{escape(note)}[/]")
+        console.print()
+
+
+def _render_verdicts(analysis, console) -> None:
+    if analysis.design_check:
+        console.print(verdict_table(analysis))
+        console.print()
+
+
+def terminal_renderers() -> list:
+    """Extra sections for rfmeas.terminal.render_analysis: the figures, then the design verdicts."""
+    return [_render_figures, _render_verdicts]
