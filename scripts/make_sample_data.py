@@ -41,18 +41,17 @@ PROPORTIONAL_RMS = 1e-3
 OD_MM, ID_MM, HEIGHT_MM = 12.7, 7.1, 4.9
 MU_R = 800.0
 PRIMARY_TURNS = 5
-K = 0.985
 RELAXATION_HZ = 8e6     # Debye relaxation frequency Rc / (2π Lm)
 R1_OHM = 0.05
 R2_OHM_PER_TURN = 0.25 / 15
-C1_F = 3e-12
-C12_F = 3e-12
+C1_F = 1.5e-12
+C12_F = 1.0e-12
 
 SETS = {
-    "coupler-before": dict(name="ladder-line coupler, unit 3 (as wound)", secondary_turns=14,
-                           C2_F=5.6e-12, wording="as first wound, with 14 secondary turns instead of 15"),
-    "coupler-after": dict(name="ladder-line coupler, unit 3 (rewound)", secondary_turns=15,
-                          C2_F=6.0e-12, wording="rewound with the designed 15 secondary turns"),
+    "coupler-before": dict(name="ladder-line coupler, unit 3 (as wound)", secondary_turns=14, k=0.990,
+                           C2_F=1.9e-12, wording="as first wound, loosely, with 14 secondary turns instead of 15"),
+    "coupler-after": dict(name="ladder-line coupler, unit 3 (rewound)", secondary_turns=15, k=0.997,
+                          C2_F=2.0e-12, wording="rewound tighter with the designed 15 secondary turns"),
 }
 
 ONE_PORT_F_HZ = np.geomspace(100e3, 100e6, 801)
@@ -69,12 +68,12 @@ def inductance_factor_H() -> float:
     return MU0 * MU_R / toroid_c1_per_m(OD_MM, ID_MM, HEIGHT_MM)
 
 
-def true_params(secondary_turns: int, C2_F: float) -> TransformerParams:
+def true_params(secondary_turns: int, C2_F: float, k: float) -> TransformerParams:
     a_l = inductance_factor_H()
     L1_H = a_l * PRIMARY_TURNS ** 2
-    Lm_H = K * L1_H
+    Lm_H = k * L1_H
     return TransformerParams(
-        L1_H=L1_H, L2_H=a_l * secondary_turns ** 2, k=K,
+        L1_H=L1_H, L2_H=a_l * secondary_turns ** 2, k=k,
         R1_ohm=R1_OHM, R2_ohm=R2_OHM_PER_TURN * secondary_turns,
         Rc_ohm=2.0 * math.pi * RELAXATION_HZ * Lm_H,
         C1_F=C1_F, C2_F=C2_F, C12_F=C12_F,
@@ -195,7 +194,7 @@ def main(argv: list[str]) -> int:
     rng = np.random.default_rng(SEED)
     truth = {}
     for folder, spec in SETS.items():
-        params = true_params(spec["secondary_turns"], spec["C2_F"])
+        params = true_params(spec["secondary_turns"], spec["C2_F"], spec["k"])
         make_set(out / folder, spec, params, rng)
         truth[folder] = params.to_dict()
     (out / "truth.json").write_text(json.dumps(truth, indent=2) + "\n", encoding="utf-8")
