@@ -29,7 +29,7 @@ from scipy.optimize import least_squares
 
 from .errors import FitError
 from .methods import s_from_impedance
-from .fit_start import estimate_start, sweeps_see_coupling, sweeps_that_see
+from .fit_start import estimate_start, sweeps_that_see
 from .model.circuit import driving_point_admittance, reflection_from_admittance, s_from_y, \
     termination_admittance, y_elements
 from .model.params import PARAMETER_NAMES, TransformerParams

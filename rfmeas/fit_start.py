@@ -160,7 +160,3 @@ def sweeps_that_see(sweeps: list[Sweep], winding: str) -> bool:
         if other_winding(s.port1) == winding and s.termination not in ("open", "short"):
             return True
     return False
-
-
-def sweeps_see_coupling(sweeps: list[Sweep]) -> bool:
-    return any(s.is_two_port or s.termination != "open" for s in sweeps)

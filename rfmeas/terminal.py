@@ -54,8 +54,9 @@ def render_analysis(analysis, console) -> None:
                   f"{fit.points} fitted values)")
     console.print()
     console.print(parameter_table(analysis))
-    console.print("[dim]T-model view uses the proportional leakage split (Ll1 = L1(1−k), "
-                  "Ll2 = L2(1−k)); the terminals cannot tell how leakage divides.[/]")
+    console.print("[dim]Standard errors come from the trace noise and the fit alone; calibration and "
+                  "jig errors come on top. The T-model view uses the proportional leakage split "
+                  "(Ll1 = L1(1−k), Ll2 = L2(1−k)): the terminals cannot tell how leakage divides.[/]")
     console.print()
     for extra in _extra_renderers():
         extra(analysis, console)

@@ -5,7 +5,7 @@ from __future__ import annotations
 import numpy as np
 import skrf as rf
 
-from reference import OnePort, TwoPort, four_sweeps
+from reference import OnePort, four_sweeps
 from reference.skrf_circuit import simulate_skrf
 from rfmeas.sweep import MeasurementSet, Sweep
 

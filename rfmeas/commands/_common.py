@@ -18,9 +18,10 @@ def stderr_console():
 
 
 def stdout_console():
+    """The results console: the terminal's width, or 120 columns when piped to a file."""
     from rich.console import Console
 
-    return Console(soft_wrap=True, highlight=False)
+    return Console(highlight=False, width=None if sys.stdout.isatty() else 120)
 
 
 def report_error(message: str) -> None:
