@@ -5,12 +5,10 @@ from __future__ import annotations
 import json
 import sys
 import tomllib
-import types
 
 import numpy as np
 import pytest
 import skrf as rf
-import typer
 from typer.testing import CliRunner
 
 from rfmeas.commands import acquire as acquire_module
@@ -22,26 +20,10 @@ runner = CliRunner()
 
 
 @pytest.fixture
-def app(monkeypatch):
-    """The real CLI app, or (while other commands are not in this tree yet) one with only acquire."""
-    try:
-        from rfmeas.cli import app as real_app
+def app():
+    from rfmeas.cli import app as real_app
 
-        return real_app
-    except ModuleNotFoundError as exc:
-        if not (exc.name or "").startswith("rfmeas.commands."):
-            raise
-    stub = types.ModuleType("rfmeas.cli")
-    stub.DEBUG = {"enabled": False}
-    monkeypatch.setitem(sys.modules, "rfmeas.cli", stub)
-    test_app = typer.Typer()
-
-    @test_app.callback()
-    def _root():
-        pass
-
-    acquire_module.register(test_app)
-    return test_app
+    return real_app
 
 
 SIM = ["--resource", "sim", "--timeout", "30"]

@@ -135,11 +135,10 @@ def test_batch_command(units, tmp_path, monkeypatch):
     from typer.testing import CliRunner
 
     import rfmeas.batch
-    from tests.helpers.cli_app import cli_app
+    from rfmeas.cli import app
 
     monkeypatch.setattr(rfmeas.batch, "analyse_manifest", fake_analyse)
     runner = CliRunner()
-    app = cli_app()
     folder = str(units[0].parent)
     res = runner.invoke(app, ["batch", folder, "--workers", "2", "--json", "--csv", str(tmp_path / "lot.csv")])
     assert res.exit_code == 2  # one unit could not be analysed

@@ -122,14 +122,13 @@ def test_compare_command_on_stored_records(tmp_path):
     from typer.testing import CliRunner
 
     from rfmeas.store import HistoryStore
-    from tests.helpers.cli_app import cli_app
+    from rfmeas.cli import app
 
     db = tmp_path / "h.sqlite3"
     with HistoryStore(db) as s:
         first = s.record("unit 7", None, [("a.s1p", b"x")], BEFORE)
         second = s.record("unit 7", None, [("a.s1p", b"y")], AFTER)
     runner = CliRunner()
-    app = cli_app()
     res = runner.invoke(app, ["compare", f"@{first}", f"@{second}", "--db", str(db), "--json"])
     assert res.exit_code == 0, res.output
     data = json.loads(res.stdout)

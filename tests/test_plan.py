@@ -218,20 +218,8 @@ def test_bad_inputs_are_input_errors(kwargs, word):
 
 @pytest.fixture(scope="module")
 def app():
-    try:
-        from rfmeas.cli import app
-    except ModuleNotFoundError as exc:
-        # On a branch where the other commands are not merged yet, load the app with `plan` alone.
-        if not (exc.name or "").startswith("rfmeas.commands."):
-            raise
-        import rfmeas.commands
+    from rfmeas.cli import app
 
-        patch = pytest.MonkeyPatch()
-        patch.setattr(rfmeas.commands, "COMMAND_MODULES", ["plan"])
-        try:
-            from rfmeas.cli import app
-        finally:
-            patch.undo()
     return app
 
 

@@ -264,14 +264,13 @@ def test_history_command_lists_and_exports(tmp_path, monkeypatch):
 
     from typer.testing import CliRunner
 
-    from tests.helpers.cli_app import cli_app
+    from rfmeas.cli import app
 
     db = tmp_path / "h.sqlite3"
     with HistoryStore(db) as s:
         a = add(s)
         add(s, name="other unit", passed=False)
     runner = CliRunner()
-    app = cli_app()
     res = runner.invoke(app, ["history", "--db", str(db), "--json"])
     assert res.exit_code == 0, res.output
     data = json.loads(res.stdout)
