@@ -11,7 +11,6 @@ import pytest
 import skrf as rf
 from typer.testing import CliRunner
 
-from rfmeas.commands import acquire as acquire_module
 from rfmeas.instruments.simulation import DEFAULT_SIM_TRANSFORMER
 from rfmeas.instruments.touchstone_stream import INCOMPLETE_MARK
 from rfmeas.model import input_impedance, s_matrix
