@@ -126,10 +126,15 @@ def format_quantity(key: str, value: float | None, stderr: float | None = None) 
 
 
 def _design_targets(design: dict | None, after: dict) -> dict:
-    source = design if design is not None else (after.get("design_check") or {})
-    if not isinstance(source, dict):
-        return {}
-    return {key: _target(source.get(key)) for key in ("lowest_frequency_Hz", "highest_frequency_Hz", "turns_ratio")}
+    """The design's band and turns ratio: given, or the `target` of the after result's design check."""
+    if design is None:
+        check = after.get("design_check") or {}
+        design = check.get("target", check) if isinstance(check, dict) else None
+        if isinstance(design, dict) and "turns_ratio" not in design:
+            design = dict(design, turns_ratio=design.get("target_turns_ratio"))
+    if not isinstance(design, dict):
+        design = {}
+    return {key: _target(design.get(key)) for key in ("lowest_frequency_Hz", "highest_frequency_Hz", "turns_ratio")}
 
 
 def compare_results(before: dict, after: dict, design: dict | None = None) -> Comparison:

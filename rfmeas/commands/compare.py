@@ -16,23 +16,25 @@ _SWEEP_SUFFIX = re.compile(r"^\.s\d+p$", re.IGNORECASE)
 
 
 def load_side(side: str, store, other_unit: str | None = None, other_id: int | None = None):
-    """(result dict, label, record id or None) for a manifest, a sweep file or a store reference."""
+    """(result dict, label, record id or None, Analysis or None) for a manifest (or its folder),
+    a sweep file or a store reference."""
     from ..store import is_reference
 
     if is_reference(side):
         rec = store.resolve(side, other_unit=other_unit, other_id=other_id)
-        return rec.result, f"@{rec.id} ({rec.unit}, {rec.recorded_utc})", rec.id
+        return rec.result, f"@{rec.id} ({rec.unit}, {rec.recorded_utc})", rec.id, None
     path = Path(side)
+    if path.is_dir():
+        path = path / "manifest.toml"
     if not path.is_file():
         raise InputError("no such file (give a manifest, a sweep file or a store reference like @12)", path=side)
     suffix = path.suffix.lower()
     if suffix != ".toml" and not _SWEEP_SUFFIX.match(suffix):
         raise InputError("not a manifest (.toml) or Touchstone sweep (.s1p, .s2p)", path=side)
-    from .. import analysis
+    from .analyze import run_analysis
 
-    if suffix == ".toml":
-        return analysis.analyze_manifest(path).to_dict(), str(path), None
-    return analysis.analyze_files([path]).to_dict(), str(path), None
+    analysis = run_analysis([path])
+    return analysis.to_dict(), str(side), None, analysis
 
 
 def register(app: typer.Typer) -> None:
@@ -44,16 +46,24 @@ def register(app: typer.Typer) -> None:
         after: str = typer.Argument(..., help="Manifest, sweep file or store reference."),
         db: Optional[Path] = db_option(),
         json_out: bool = typer.Option(False, "--json", help="Print JSON on stdout."),
+        plot: Optional[Path] = typer.Option(None, "--plot", help="Write an overlay of both measurements "
+                                            "and both fitted models (PNG, SVG or PDF; manifests and sweeps only)."),
     ):
         """Compare two analyses: every shared quantity, whether it moved by more than 3σ, and a verdict."""
         from ..compare import compare_results
         from ..store import HistoryStore
 
         with HistoryStore(db) as store:
-            after_result, after_label, after_id = load_side(after, store)
-            before_result, before_label, _ = load_side(before, store, other_unit=after_result.get("name"),
-                                                       other_id=after_id)
+            after_result, after_label, after_id, after_analysis = load_side(after, store)
+            before_result, before_label, _, before_analysis = load_side(
+                before, store, other_unit=after_result.get("name"), other_id=after_id)
         comparison = compare_results(before_result, after_result)
+        if plot is not None:
+            if before_analysis is None or after_analysis is None:
+                raise InputError("--plot needs the sweeps: give manifests or sweep files, not store references")
+            from ..plots.compare import plot_comparison
+
+            plot_comparison(before_analysis, after_analysis, plot)
         if json_out:
             print_json({"before": before_label, "after": after_label, **comparison.to_dict()})
             return
@@ -73,10 +83,20 @@ def _print_comparison(comparison, before_label: str, after_label: str) -> None:
     words = {True: "yes", False: "no", None: "not judged"}
     for key, c in comparison.changes.items():
         change = "—" if c.change_percent is None else f"{c.change_percent:+.2f} %"
-        table.add_row(key, format_quantity(key, c.before, c.before_stderr),
+        table.add_row(_label(key), format_quantity(key, c.before, c.before_stderr),
                       format_quantity(key, c.after, c.after_stderr),
                       change, words[c.significant])
     console.print(table)
     for sentence in comparison.verdict:
         console.print(f"• {sentence}")
     console.print(f"rule: {comparison.rule}", style="dim")
+
+
+def _label(key: str) -> str:
+    """A person's name for a result key: the parameter labels, else the key in plain words."""
+    from ..results import LABELS
+
+    if key in LABELS:
+        return LABELS[key]
+    words = key.replace("_Hz", "").replace("_dB", " (dB)").replace("_percent", " (%)")
+    return words.replace("nH_per_turn2", "(nH/turn²)").replace("_", " ")
