@@ -1,13 +1,14 @@
 """Plausibility checks around the fit: does this look like a two-winding transformer?
 
 `check_sweeps` runs before the fit on the measured sweeps alone; it names a
-sweep that looks like a dead short, an open lead, an uncalibrated or wrong
-file, a sweep above self-resonance, a wrong frequency unit, a swapped pair of
-files or an unconnected port 2. It raises FitError only when no sweep is left
-that a fit could use. `check_fit` runs after the fit and reads its quality
-figures: non-convergence, one sweep fitted far worse than the others, a
-coupling pressed against its range, and inductances that contradict the turn
-counts of the manifest. Both return plain sentences, each naming its sweep.
+sweep that looks like a dead short, an open lead, a matched load, an
+uncalibrated or wrong file, a sweep above self-resonance, a wrong frequency
+unit, a swapped pair of files or an unconnected port 2. It raises FitError
+only when no sweep is left that a fit could use. `check_fit` runs after the
+fit and reads its quality figures: non-convergence, most sweeps missed, one
+sweep fitted far worse than the others, a coupling or inductance pressed
+against its range, and inductances that contradict the turn counts of the
+manifest. Both return plain sentences, naming the sweep where there is one.
 """
 
 from __future__ import annotations
@@ -62,6 +63,11 @@ practice); a ratio at or above 1 is impossible for the same winding."""
 TRANSMISSION_FLOOR = 0.03
 """A two-port sweep whose |S21| stays below this (−30 dB) at every point passes nothing: a
 coupled winding passes far more somewhere in its band (common practice)."""
+
+MISSED_RMS = 0.05
+"""A sweep the fit misses by more than this rms (−26 dB of full reflection) is not described by the
+circuit at all; a sound fit leaves about the trace noise, 1e-3 (common practice). When most sweeps
+are missed like that, the numbers describe none of them."""
 
 RESIDUAL_OUTLIER_FACTOR = 5.0
 """A sweep fitted this many times worse (rms) than the median of the others is the suspect."""
@@ -134,6 +140,10 @@ def _check_one(sweep: Sweep) -> tuple[list[str], bool]:
         return [_SHORT_NOTE] + notes, False
     if _near(s11, 1.0):
         return [_OPEN_NOTE] + notes, False
+    if sweep.termination in ("open", "short") and _near(s11, 0.0):
+        return [f"looks like a {sweep.z0_ohm[0]:g} Ω load, not a winding (S11 ≈ 0 over the whole sweep): "
+                "is the transformer on port 1, and is the other winding really "
+                f"{'open' if sweep.termination == 'open' else 'shorted'}?"] + notes, False
     z_ohm = impedance_from_reflection(s11, sweep.z0_ohm[0])
     if np.mean(np.imag(z_ohm) < 0) >= CAPACITIVE_FRACTION:
         return [f"the winding is capacitive over the whole sweep ({f_Hz[0]:.3g}–{f_Hz[-1]:.3g} Hz): the "
@@ -143,8 +153,10 @@ def _check_one(sweep: Sweep) -> tuple[list[str], bool]:
 
 
 _SHORT_NOTE = ("looks like a short circuit, not a winding (S11 ≈ −1 over the whole sweep): "
-               "shorted turn or wrong termination?")
-_OPEN_NOTE = ("looks like an open circuit (S11 ≈ +1 over the whole sweep): broken or unsoldered lead?")
+               "shorted turn or wrong termination? (A sweep that ends far below where the winding's "
+               "reactance reaches a few ohms reads the same.)")
+_OPEN_NOTE = ("looks like an open circuit (S11 ≈ +1 over the whole sweep): broken or unsoldered lead? "
+              "(A winding above about 2 kΩ over the whole sweep reads the same.)")
 
 
 def _near(s11: np.ndarray, standard: float) -> bool:
@@ -222,6 +234,7 @@ def check_fit(measurement: MeasurementSet, result: FitResult) -> list[str]:
     """Warnings about a fit that should not be believed as it stands, naming the suspect sweep."""
     warnings = []
     warnings.extend(_convergence(result))
+    warnings.extend(_missed_sweeps(result))
     if not unusable_sweeps(measurement):
         # a sweep already named before the fit distorts it; the others' residuals then mislead
         warnings.extend(_residual_outliers(result))
@@ -248,6 +261,16 @@ def _convergence(result: FitResult) -> list[str]:
     hint = f"; the worst-fitted sweep is {worst.label} ({worst.rms_residual:.3g} rms)" if worst else ""
     return [f"no converged fit: {reason}{hint}. The numbers are the solver's last try, not a result; "
             "check the sweeps named in the other warnings"]
+
+
+def _missed_sweeps(result: FitResult) -> list[str]:
+    missed = [q for q in result.sweeps if q.rms_residual > MISSED_RMS]
+    if not result.sweeps or len(missed) * 2 <= len(result.sweeps):
+        return []
+    worst = _worst_sweep(result)
+    return [f"{NOT_A_TRANSFORMER} as the manifest describes it: the fitted circuit misses {len(missed)} of "
+            f"{len(result.sweeps)} sweeps by more than {MISSED_RMS:g} rms (worst {worst.label}, "
+            f"{worst.rms_residual:.3g}), so the numbers describe none of them; check the sweeps named above"]
 
 
 def _residual_outliers(result: FitResult) -> list[str]:

@@ -245,3 +245,35 @@ def test_inductance_at_the_edge_of_its_range_is_named(good_analysis):
     fit = dataclasses.replace(good_analysis.fit, params=params)
     assert any("secondary inductance came out at the edge" in w
                for w in check_fit(good_analysis.measurement, fit))
+
+
+def test_matched_load_instead_of_a_winding_is_named():
+    analysis = analyze(_set(_replaced(sec_open=np.zeros(F_HZ.size))))
+    assert _about(analysis.warnings, "sec_open", "50 Ω load, not a winding")
+
+
+def test_sweeps_of_random_reflections_do_not_look_like_a_transformer():
+    """Passive but meaningless data (|S| < 1, random phase): no circuit fits, and the analysis says so."""
+    rng = np.random.default_rng(11)
+
+    def junk(shape):
+        z = rng.standard_normal(shape) + 1j * rng.standard_normal(shape)
+        return 0.99 * z / (1 + np.abs(z))
+
+    clean = {n: junk((F_HZ.size, 2, 2) if n == "thru" else F_HZ.size) for n in SWEEPS}
+    analysis = analyze(_set(clean))
+    assert any(w.startswith(NOT_A_TRANSFORMER) and "misses 4 of 4 sweeps" in w for w in analysis.warnings)
+
+
+def test_a_fit_that_runs_out_of_evaluations_says_why(monkeypatch):
+    import rfmeas.fit
+
+    real = rfmeas.fit.least_squares
+
+    def starved(*args, **kwargs):
+        return real(*args, **dict(kwargs, max_nfev=2))
+
+    monkeypatch.setattr(rfmeas.fit, "least_squares", starved)
+    analysis = analyze(_set())
+    assert not analysis.fit.converged
+    assert any(w.startswith("no converged fit") and "ran out of evaluations" in w for w in analysis.warnings)
