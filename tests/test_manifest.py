@@ -66,6 +66,11 @@ def sweep_manifest(folder, body, head=""):
     return write(folder, head + "\n[[sweep]]\n" + textwrap.dedent(body))
 
 
+def with_tables(folder, head):
+    """A manifest of one good open sweep after the tables in `head`."""
+    return sweep_manifest(folder, 'file = "pri_open.s1p"\ntermination = "open"\n', head=head)
+
+
 def refused(path, *words):
     """load_manifest(path) raises InputError naming the manifest and every word."""
     with pytest.raises(InputError) as info:
@@ -123,13 +128,11 @@ def test_unknown_keys_are_refused_by_name(folder, text, key):
     ("notes = 3", "notes"),
 ])
 def test_bad_transformer_values_are_refused(folder, line, key):
-    refused(sweep_manifest(folder, 'file = "pri_open.s1p"\ntermination = "open"\n',
-                           head=f"[transformer]\n{line}\n"), key)
+    refused(with_tables(folder, f"[transformer]\n{line}\n"), key)
 
 
 def test_whole_turns_written_as_floats_are_accepted(folder):
-    m = load_manifest(sweep_manifest(folder, 'file = "pri_open.s1p"\ntermination = "open"\n',
-                                     head="[transformer]\nprimary_turns = 3.0\n"))
+    m = load_manifest(with_tables(folder, "[transformer]\nprimary_turns = 3.0\n"))
     assert m.primary_turns == 3 and isinstance(m.primary_turns, int)
 
 
@@ -140,7 +143,7 @@ def test_whole_turns_written_as_floats_are_accepted(folder):
 ])
 def test_tables_given_as_values_are_refused(folder, text):
     key = text.split(" ")[0]
-    refused(sweep_manifest(folder, 'file = "pri_open.s1p"\ntermination = "open"\n', head=text), key)
+    refused(with_tables(folder, text), key)
 
 
 # ---------------------------------------------------------------- sweeps
@@ -252,15 +255,13 @@ def test_parse_termination_names_where_and_file():
     ("shape = 'effective'\neffective_area_mm2 = 20\neffective_length_mm = 0", ("effective_length_mm",)),
 ])
 def test_core_table_errors_are_refused(folder, table, words):
-    refused(sweep_manifest(folder, 'file = "pri_open.s1p"\ntermination = "open"\n', head=f"[core]\n{table}\n"),
-            "[core]", *words)
+    refused(with_tables(folder, f"[core]\n{table}\n"), "[core]", *words)
 
 
 @pytest.mark.xfail(strict=True, reason="rfmeas.magnetics.geometry: a non-string shape raises TypeError "
                                        "(unhashable list) instead of InputError")
 def test_core_shape_that_is_a_list_is_refused(folder):
-    refused(sweep_manifest(folder, 'file = "pri_open.s1p"\ntermination = "open"\n',
-                           head="[core]\nshape = ['toroid']\n"), "shape")
+    refused(with_tables(folder, "[core]\nshape = ['toroid']\n"), "shape")
 
 
 @pytest.mark.xfail(strict=True, reason="rfmeas.magnetics.geometry: huge or tiny sizes overflow "
@@ -270,8 +271,7 @@ def test_core_shape_that_is_a_list_is_refused(folder):
     "shape = 'effective'\neffective_area_mm2 = 1e-300\neffective_length_mm = 1e300",
 ])
 def test_absurd_core_sizes_are_refused(folder, table):
-    refused(sweep_manifest(folder, 'file = "pri_open.s1p"\ntermination = "open"\n', head=f"[core]\n{table}\n"),
-            "[core]")
+    refused(with_tables(folder, f"[core]\n{table}\n"), "[core]")
 
 
 # ---------------------------------------------------------------- design
@@ -286,8 +286,7 @@ def test_absurd_core_sizes_are_refused(folder, table):
     ("target = 3", ("target",)),
 ])
 def test_design_errors_are_refused(folder, lines, words):
-    refused(sweep_manifest(folder, 'file = "pri_open.s1p"\ntermination = "open"\n', head=f"[design]\n{lines}\n"),
-            *words)
+    refused(with_tables(folder, f"[design]\n{lines}\n"), *words)
 
 
 # ---------------------------------------------------------------- the file itself
