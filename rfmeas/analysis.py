@@ -53,12 +53,15 @@ def analyze(measurement: MeasurementSet) -> Analysis:
     """Fit every sweep of `measurement` at once and derive the figures of merit."""
     from .fit import fit_sweeps
     from .results import build_result
+    from .sanity import check_fit, check_sweeps
 
     sweeps = list(measurement.sweeps)
+    pre = check_sweeps(measurement)
     outcome = fit_sweeps(sweeps)
     result = build_result(outcome, sweeps)
+    post = check_fit(measurement, result)
     figures, design_check, warnings = _figures(measurement, result)
-    return Analysis(measurement, result, figures, design_check, tuple(warnings))
+    return Analysis(measurement, result, figures, design_check, tuple(pre + post + list(warnings)))
 
 
 def _figures(measurement: MeasurementSet, result: FitResult):

@@ -1,0 +1,338 @@
+"""Plausibility checks around the fit: does this look like a two-winding transformer?
+
+`check_sweeps` runs before the fit on the measured sweeps alone; it names a
+sweep that looks like a dead short, an open lead, a matched load, an
+uncalibrated or wrong file, a sweep above self-resonance, a wrong frequency
+unit, a swapped pair of files or an unconnected port 2. It raises FitError
+only when no sweep is left that a fit could use. `check_fit` runs after the
+fit and reads its quality figures: non-convergence, most sweeps missed, one
+sweep fitted far worse than the others, a coupling or inductance pressed
+against its range, and inductances that contradict the turn counts of the
+manifest. Both return plain sentences, naming the sweep where there is one.
+"""
+
+from __future__ import annotations
+
+import math
+
+import numpy as np
+
+from .errors import FitError
+from .fit import BOUNDS
+from .fit_start import impedance_from_reflection, inductance_at_low_frequency
+from .results import FitResult
+from .sweep import MeasurementSet, Sweep
+
+NOT_A_TRANSFORMER = "this does not look like a two-winding transformer"
+
+# --- thresholds (S units unless named otherwise)
+
+STANDARD_DISTANCE = 0.05
+"""A one-port reading within this of S11 = −1 (or +1) looks like a short (or an open): |Z| below
+about 1.3 Ω (or above about 2 kΩ) in a 50 Ω system, far outside what the sweep resolves of a
+winding. VNA trace noise is about 1e-3 (common practice), so noise alone never gets this close
+to a standard by accident and never leaves it either."""
+
+WHOLE_BAND_FRACTION = 0.9
+"""'Over the whole band' allows a few glitched points: at least this share of the points."""
+
+PASSIVE_LIMIT = 1.05
+"""|S| of a passive device is at most 1; calibration drift and noise of a small VNA leave a
+few percent at worst (common practice). Beyond this the VNA was not calibrated or the file
+is not what the manifest says."""
+
+CAPACITIVE_FRACTION = 0.95
+"""A winding whose reactance is negative at this share of the points is capacitive over the
+whole sweep: the sweep starts above its self-resonance."""
+
+LOWEST_PLAUSIBLE_Hz = 1.0
+"""A sweep that ends below 1 Hz is no inductance measurement (LCR meters start at 20 Hz or so,
+common practice)."""
+
+HIGHEST_PLAUSIBLE_START_Hz = 10e9
+HIGHEST_PLAUSIBLE_STOP_Hz = 100e9
+"""A sweep that starts above 10 GHz or ends above 100 GHz is beyond any instrument used on wound
+transformers (common practice); the usual cause is a file in Hz or MHz whose option line says GHz
+or is missing (a missing option line means GHz)."""
+
+SHORT_OPEN_RATIO_MAX = 0.5
+"""The short-circuit inductance is L·(1 − k²) (JIS C 5602, via "Short-circuit inductance",
+Wikipedia). A ratio above 0.5 means k below 0.7, rare for windings on one closed core (common
+practice); a ratio at or above 1 is impossible for the same winding."""
+
+TRANSMISSION_FLOOR = 0.03
+"""A two-port sweep whose |S21| stays below this (−30 dB) at every point passes nothing: a
+coupled winding passes far more somewhere in its band (common practice)."""
+
+MISSED_RMS = 0.05
+"""A sweep the fit misses by more than this rms (−26 dB of full reflection) is not described by the
+circuit at all; a sound fit leaves about the trace noise, 1e-3 (common practice). When most sweeps
+are missed like that, the numbers describe none of them."""
+
+RESIDUAL_OUTLIER_FACTOR = 5.0
+"""A sweep fitted this many times worse (rms) than the median of the others is the suspect."""
+
+RESIDUAL_OUTLIER_FLOOR = 3e-3
+"""...but only when its misfit is above three times a typical trace noise of 1e-3 (common
+practice): below that every sweep fits down to its noise."""
+
+SYSTEMATIC_CORRELATION = 0.5
+"""Lag-1 residual correlation above this is a pattern along frequency, not noise (as in
+rfmeas.results)."""
+
+EDGE_TOLERANCE = 0.01
+"""A parameter within this (in the fit's internal log coordinates, about 1 %) of its range
+edge is 'at the edge'."""
+
+TURNS_RATIO_TOLERANCE = 0.15
+"""√(L2/L1) differs from Ns/Np by a few percent on a closed core because of leakage and flux
+outside the core (common practice); beyond 15 % the turn counts or the sweep labels are wrong."""
+
+
+# --------------------------------------------------------------------------- before the fit
+
+
+def check_sweeps(measurement: MeasurementSet) -> list[str]:
+    """Warnings about sweeps that do not look like what the manifest says; FitError if none is usable."""
+    warnings: list[str] = []
+    unusable: dict[str, list[str]] = {}   # reason -> labels of the sweeps it makes unusable
+    for sweep in measurement.sweeps:
+        notes, usable = _check_one(sweep)
+        warnings.extend(f"{sweep.label}: {n}" for n in notes)
+        if not usable:
+            unusable.setdefault(notes[0], []).append(sweep.label)
+    warnings.extend(_check_open_short_pairs(measurement.sweeps))
+    if measurement.sweeps and sum(map(len, unusable.values())) == len(measurement.sweeps):
+        path = measurement.manifest_path or measurement.sweeps[0].path
+        reasons = "; ".join(f"{', '.join(labels)}: {reason}" for reason, labels in unusable.items())
+        raise FitError(f"{NOT_A_TRANSFORMER}: {reasons}", path=path)
+    return warnings
+
+
+def unusable_sweeps(measurement: MeasurementSet) -> list[str]:
+    """Labels of the sweeps `check_sweeps` finds no fit can use (for the checks after the fit)."""
+    return [s.label for s in measurement.sweeps if not _check_one(s)[1]]
+
+
+def _check_one(sweep: Sweep) -> tuple[list[str], bool]:
+    """(plain-words findings, whether a fit can use the sweep at all) for one sweep."""
+    f_Hz = sweep.f_Hz
+    frequency_note = _frequency_range(f_Hz)
+    if frequency_note:
+        return [frequency_note], False
+    s = sweep.measured()
+    magnitude = np.abs(s)
+    if np.median(magnitude) > PASSIVE_LIMIT:
+        return [f"|S| is above {PASSIVE_LIMIT:g} at most points (up to {magnitude.max():.3g}): "
+                "not a passive measurement; was the VNA calibrated, and is this the right file?"], False
+    notes = []
+    if np.any(magnitude > PASSIVE_LIMIT):
+        share = float(np.mean(np.any(magnitude > PASSIVE_LIMIT, axis=1)))
+        notes.append(f"|S| exceeds {PASSIVE_LIMIT:g} at {share:.0%} of the points (up to "
+                     f"{magnitude.max():.3g}), which a passive device cannot do: check the calibration")
+    if sweep.is_two_port:
+        return notes + _two_port_notes(s), not _dead_transmission(s)
+    s11 = s[:, 0]
+    if _near(s11, -1.0):
+        if sweep.termination == "short":
+            return ["looks like a dead short over the whole sweep: no leakage inductance shows; sweep "
+                    "higher, or check that port 1 itself is not shorted"] + notes, False
+        return [_SHORT_NOTE] + notes, False
+    if _near(s11, 1.0):
+        return [_OPEN_NOTE] + notes, False
+    if sweep.termination in ("open", "short") and _near(s11, 0.0):
+        return [f"looks like a {sweep.z0_ohm[0]:g} Ω load, not a winding (S11 ≈ 0 over the whole sweep): "
+                "is the transformer on port 1, and is the other winding really "
+                f"{'open' if sweep.termination == 'open' else 'shorted'}?"] + notes, False
+    z_ohm = impedance_from_reflection(s11, sweep.z0_ohm[0])
+    if np.mean(np.imag(z_ohm) < 0) >= CAPACITIVE_FRACTION:
+        return [f"the winding is capacitive over the whole sweep ({f_Hz[0]:.3g}–{f_Hz[-1]:.3g} Hz): the "
+                "sweep starts above its self-resonance, so its inductance cannot show; start the sweep "
+                "lower"] + notes, False
+    return notes, True
+
+
+_SHORT_NOTE = ("looks like a short circuit, not a winding (S11 ≈ −1 over the whole sweep): "
+               "shorted turn or wrong termination? (A sweep that ends far below where the winding's "
+               "reactance reaches a few ohms reads the same.)")
+_OPEN_NOTE = ("looks like an open circuit (S11 ≈ +1 over the whole sweep): broken or unsoldered lead? "
+              "(A winding above about 2 kΩ over the whole sweep reads the same.)")
+
+
+def _near(s11: np.ndarray, standard: float) -> bool:
+    return bool(np.mean(np.abs(s11 - standard) < STANDARD_DISTANCE) >= WHOLE_BAND_FRACTION)
+
+
+def _frequency_range(f_Hz: np.ndarray) -> str | None:
+    start, stop = float(f_Hz[0]), float(f_Hz[-1])
+    span = f"the sweep runs from {start:.3g} to {stop:.3g} Hz"
+    if stop < LOWEST_PLAUSIBLE_Hz:
+        return f"{span}, far below any inductance measurement: wrong frequency unit in the file's option line?"
+    if start > HIGHEST_PLAUSIBLE_START_Hz or stop > HIGHEST_PLAUSIBLE_STOP_Hz:
+        return (f"{span}, far above any transformer measurement: wrong frequency unit in the file's "
+                "option line (a missing option line means GHz)?")
+    return None
+
+
+def _dead_transmission(s: np.ndarray) -> bool:
+    return bool(np.all(np.abs(s[:, 1]) < TRANSMISSION_FLOOR))
+
+
+def _two_port_notes(s: np.ndarray) -> list[str]:
+    if not _dead_transmission(s):
+        return []
+    return [f"|S21| stays below {TRANSMISSION_FLOOR:g} ({20 * math.log10(TRANSMISSION_FLOOR):.0f} dB) over "
+            f"the whole sweep (at most {np.abs(s[:, 1]).max():.2g}): nothing reaches port 2; "
+            "is port 2 connected?"]
+
+
+def _check_open_short_pairs(sweeps) -> list[str]:
+    """A 'short' sweep must show far less low-frequency inductance than the 'open' sweep of its winding."""
+    out = []
+    for winding in ("primary", "secondary"):
+        opens = _usable_inductances(sweeps, winding, "open")
+        shorts = _usable_inductances(sweeps, winding, "short")
+        if not opens or not shorts:
+            continue
+        l_open_H = float(np.median([l for _, l in opens]))
+        for short, l_short_H in shorts:
+            ratio = l_short_H / l_open_H
+            if ratio <= SHORT_OPEN_RATIO_MAX:
+                continue
+            open_labels = ", ".join(s.label for s, _ in opens)
+            if ratio >= 1.0:
+                out.append(f"{short.label}: with the other winding shorted it measures {l_short_H:.3g} H, "
+                           f"not less than {l_open_H:.3g} H with it open ({open_labels}): are the open and "
+                           "short files swapped in the manifest, or does the open sweep start above the "
+                           "winding's self-resonance?")
+            else:
+                k = math.sqrt(1.0 - ratio)
+                out.append(f"{short.label}: with the other winding shorted it still measures {ratio:.0%} of "
+                           f"the open-circuit inductance ({open_labels}), i.e. coupling k ≈ {k:.2f}: is the "
+                           "short really on the other winding, or are the files swapped?")
+    return out
+
+
+def _usable_inductances(sweeps, winding: str, termination: str) -> list[tuple[Sweep, float]]:
+    out = []
+    for s in sweeps:
+        if s.is_two_port or s.port1 != winding or s.termination != termination:
+            continue
+        if not _check_one(s)[1]:
+            continue
+        z_ohm = impedance_from_reflection(s.measured()[:, 0], s.z0_ohm[0])
+        l_H = inductance_at_low_frequency(s.f_Hz, z_ohm)
+        if l_H is not None:
+            out.append((s, l_H))
+    return out
+
+
+# --------------------------------------------------------------------------- after the fit
+
+
+def check_fit(measurement: MeasurementSet, result: FitResult) -> list[str]:
+    """Warnings about a fit that should not be believed as it stands, naming the suspect sweep."""
+    warnings = []
+    warnings.extend(_convergence(result))
+    warnings.extend(_missed_sweeps(result))
+    if not unusable_sweeps(measurement):
+        # a sweep already named before the fit distorts it; the others' residuals then mislead
+        warnings.extend(_residual_outliers(result))
+    warnings.extend(_edges(result))
+    warnings.extend(_turns_ratio(measurement, result))
+    return warnings
+
+
+def _worst_sweep(result: FitResult):
+    return max(result.sweeps, key=lambda q: q.rms_residual) if result.sweeps else None
+
+
+def _convergence(result: FitResult) -> list[str]:
+    finite = math.isfinite(result.rms_residual) and math.isfinite(result.residual_variance)
+    if result.converged and finite:
+        return []
+    if not finite:
+        reason = "the residuals are not finite numbers"
+    elif "maximum number of function evaluations" in result.message.lower():
+        reason = f"the solver ran out of evaluations ({result.evaluations}) before settling"
+    else:
+        reason = f"the solver stopped: {result.message}"
+    worst = _worst_sweep(result)
+    hint = f"; the worst-fitted sweep is {worst.label} ({worst.rms_residual:.3g} rms)" if worst else ""
+    return [f"no converged fit: {reason}{hint}. The numbers are the solver's last try, not a result; "
+            "check the sweeps named in the other warnings"]
+
+
+def _missed_sweeps(result: FitResult) -> list[str]:
+    missed = [q for q in result.sweeps if q.rms_residual > MISSED_RMS]
+    if not result.sweeps or len(missed) * 2 <= len(result.sweeps):
+        return []
+    worst = _worst_sweep(result)
+    return [f"{NOT_A_TRANSFORMER} as the manifest describes it: the fitted circuit misses {len(missed)} of "
+            f"{len(result.sweeps)} sweeps by more than {MISSED_RMS:g} rms (worst {worst.label}, "
+            f"{worst.rms_residual:.3g}), so the numbers describe none of them; check the sweeps named above"]
+
+
+def _residual_outliers(result: FitResult) -> list[str]:
+    qualities = list(result.sweeps)
+    if len(qualities) < 2:
+        return []
+    out = []
+    for q in qualities:
+        others = [o.rms_residual for o in qualities if o is not q]
+        typical = float(np.median(others))
+        if q.rms_residual <= RESIDUAL_OUTLIER_FLOOR or q.rms_residual <= RESIDUAL_OUTLIER_FACTOR * typical:
+            continue
+        times = q.rms_residual / typical if typical > 0 else math.inf
+        if q.residual_correlation > SYSTEMATIC_CORRELATION:
+            out.append(f"{q.label}: suspect sweep: the fit misses it {times:.0f} times worse than the others "
+                       f"({q.rms_residual:.3g} rms, following a pattern along frequency): it may be swapped "
+                       "with another file or mislabelled in the manifest (port1, port2, termination)")
+        else:
+            out.append(f"{q.label}: {times:.0f} times noisier than the other sweeps ({q.rms_residual:.3g} rms): "
+                       "check the connection and the instrument settings for this sweep")
+    return out
+
+
+def _edges(result: FitResult) -> list[str]:
+    from .fit import to_internal
+
+    out = []
+    params = result.params
+    lo, hi = (to_internal("k", v) for v in BOUNDS["k"])
+    x = to_internal("k", min(params.k, 1 - 1e-12))
+    if abs(x - hi) < EDGE_TOLERANCE:
+        out.append(f"the coupling k came out at the top of its range ({params.k:.7f}): the leakage is too "
+                   "small to show in these sweeps; a short-circuit sweep to a higher frequency would show it")
+    elif abs(x - lo) < EDGE_TOLERANCE:
+        out.append(f"the coupling k came out at the bottom of its range ({params.k:.2f}): the windings barely "
+                   "couple; is the other winding connected, and are the sweeps labelled right?")
+    for name, label in (("L1_H", "primary"), ("L2_H", "secondary")):
+        value = getattr(params, name)
+        low, high = BOUNDS[name]
+        if abs(math.log(value / low)) < EDGE_TOLERANCE or abs(math.log(high / value)) < EDGE_TOLERANCE:
+            out.append(f"the {label} inductance came out at the edge of its range ({value:.3g} H): no winding "
+                       "measures that; the sweeps do not describe a transformer as the manifest says")
+    return out
+
+
+def _turns_ratio(measurement: MeasurementSet, result: FitResult) -> list[str]:
+    np_turns, ns_turns = measurement.primary_turns, measurement.secondary_turns
+    if not np_turns or not ns_turns:
+        return []
+    estimate = result.estimates.get("effective_turns_ratio")
+    if estimate is None or not estimate.determined or not estimate.value:
+        return []
+    expected = ns_turns / np_turns
+    measured = float(estimate.value)
+    if abs(measured / expected - 1.0) <= TURNS_RATIO_TOLERANCE:
+        return []
+    return [f"the turn counts in the manifest say {_ratio_text(np_turns, ns_turns)} but the windings measure "
+            f"1:{measured:.3g} (√(L2/L1)): a miscounted winding, or primary and secondary sweeps swapped?"]
+
+
+def _ratio_text(np_turns: int, ns_turns: int) -> str:
+    """'1:3' for 3:9; '5:14 (1:2.8)' when the primary is not one turn after reducing."""
+    g = math.gcd(np_turns, ns_turns)
+    a, b = np_turns // g, ns_turns // g
+    return f"1:{b}" if a == 1 else f"{a}:{b} (1:{b / a:.3g})"
