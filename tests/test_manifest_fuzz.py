@@ -109,12 +109,10 @@ SCALARS = st.one_of(
 VALUES = st.recursive(SCALARS, lambda inner: st.lists(inner, max_size=3)
                       | st.dictionaries(st.text(max_size=5), inner, max_size=3), max_leaves=6)
 
-# Core sizes stay within 1e-3..1e3 mm and the shape is a string: huge sizes and a list as
-# the shape are known failures of rfmeas.magnetics, pinned by xfail tests in test_manifest.py.
-CORE_SIZE = st.one_of(st.floats(1e-3, 1e3), st.sampled_from([0, -1, math.nan, math.inf, "12", True, [1]]))
-# File names never hold NUL (a known failure of the Touchstone reader, pinned in test_manifest.py).
+CORE_SIZE = st.one_of(st.floats(allow_nan=True, allow_infinity=True),
+                     st.sampled_from([0, -1, math.nan, math.inf, "12", True, [1], 1e300, 1e-300]))
 FILE_NAMES = st.one_of(st.sampled_from(sorted(FILES) + ["sub.s1p", "missing.s1p", "", ".", "../x.s1p"]),
-                       st.text(max_size=12).filter(lambda s: "\x00" not in s), st.integers(), st.booleans())
+                       st.text(max_size=12), st.integers(), st.booleans())
 
 
 PLAUSIBLE = {
@@ -136,7 +134,7 @@ PLAUSIBLE = {
 def value_for(table: str, key: str):
     """Mostly a plausible value (so the fuzz gets past the first check), else anything."""
     if table == "core" and key == "shape":
-        anything = st.one_of(st.sampled_from(["pot", "MHz"]), st.text(max_size=8))
+        anything = st.one_of(st.sampled_from(["pot", "MHz"]), st.text(max_size=8), VALUES)
     elif table == "core":
         anything = CORE_SIZE
     elif table == "sweep" and key == "file":
@@ -252,8 +250,7 @@ def test_a_100_MB_touchstone_file_is_refused_without_reading_it(tmp_path):
     assert peak < 5 * 2**20
 
 
-@pytest.mark.xfail(strict=True, reason="rfmeas.io.manifest.load_manifest reads the whole file before "
-                                       "checking MAX_MANIFEST_BYTES; it should stat it or read at most that much")
+
 def test_a_100_MB_manifest_is_refused_without_reading_it(tmp_path):
     junk = tmp_path / "manifest.toml"
     with open(junk, "wb") as fh:

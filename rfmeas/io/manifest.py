@@ -143,13 +143,13 @@ def load_manifest(path: str | Path) -> MeasurementSet:
             raise InputError("is a folder without a manifest.toml", path)
         path = candidate
     try:
+        if path.stat().st_size > MAX_MANIFEST_BYTES:
+            raise InputError("too large for a manifest (over 1 MB)", path)
         raw = path.read_bytes()
     except FileNotFoundError:
         raise InputError("no such file", path) from None
-    except OSError as exc:
-        raise InputError(f"cannot read: {exc.strerror or exc}", path) from None
-    if len(raw) > MAX_MANIFEST_BYTES:
-        raise InputError("too large for a manifest (over 1 MB)", path)
+    except (OSError, ValueError) as exc:  # ValueError: a NUL in the name
+        raise InputError(f"cannot read: {getattr(exc, 'strerror', None) or exc}", path) from None
     try:
         text = raw.decode("utf-8")
         doc = tomllib.loads(text)
@@ -216,6 +216,9 @@ def load_manifest(path: str | Path) -> MeasurementSet:
             fixture_path = path.parent / entry["fixture"]
             if fixture_path.is_dir():
                 fixture_path = fixture_path / "fixture.toml"
+            if not fixture_path.is_file():
+                raise InputError(f"{where}.fixture: no jig definition at '{entry['fixture']}' "
+                                 "(a fixture.toml, or a folder holding one)", path)
         port1 = _winding(entry.get("port1", "primary"), "port1", where, path)
         port2 = entry.get("port2")
         if port2 is not None:

@@ -100,6 +100,8 @@ def read_touchstone(path: str | os.PathLike) -> TouchstoneData:
         raise InputError("file not found", path=name) from exc
     except OSError as exc:
         raise InputError(f"cannot read the file: {exc.strerror or exc}", path=name) from exc
+    except ValueError as exc:  # e.g. a NUL character in the name
+        raise InputError(f"not a usable file name ({exc})", path=name) from exc
     if target.is_dir():
         raise InputError("is a folder, not a Touchstone file", path=name)
     if info.st_size > MAX_FILE_BYTES:

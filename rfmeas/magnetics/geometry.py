@@ -47,6 +47,10 @@ class CoreGeometry:
         return asdict(self)
 
 
+SIZE_RANGE_MM = (1e-3, 1e5)
+"""Sizes (mm, or mm² for areas) outside this are typing errors, and would overflow the formulas."""
+
+
 def _require_positive(name: str, value, path=None) -> float:
     """A finite positive real number, or an InputError naming `name`."""
     if isinstance(value, bool) or not isinstance(value, (int, float)):
@@ -54,6 +58,9 @@ def _require_positive(name: str, value, path=None) -> float:
     value = float(value)
     if not math.isfinite(value) or value <= 0:
         raise InputError(f"[core] {name} must be a positive size, got {value:g}", path=path)
+    if not SIZE_RANGE_MM[0] <= value <= SIZE_RANGE_MM[1]:
+        raise InputError(f"[core] {name} = {value:g} is not a plausible core size "
+                         f"({SIZE_RANGE_MM[0]:g} to {SIZE_RANGE_MM[1]:g} in its unit)", path=path)
     return value
 
 
@@ -108,7 +115,7 @@ def geometry_from_table(table: dict, path: str | Path | None = None) -> CoreGeom
     shape = table.get("shape")
     if shape is None:
         raise InputError(f"[core] needs 'shape' (one of {', '.join(SHAPES)})", path=path)
-    if shape not in _SHAPE_KEYS:
+    if not isinstance(shape, str) or shape not in _SHAPE_KEYS:
         raise InputError(f"[core] shape {shape!r} is not known (use one of {', '.join(SHAPES)})", path=path)
     wanted = _SHAPE_KEYS[shape]
     unknown = sorted(set(table) - set(wanted) - {"shape"})
