@@ -58,6 +58,7 @@ NEUTRAL = {
 }
 _STEP = 1e-6  # forward-difference step in internal (log) coordinates
 _BAD_RESIDUAL = 1e6
+_TINY_EIGENVALUE = 1e-14  # relative eigenvalue of the scaled normal matrix that carries no information
 _MARGIN = 5.0  # how far (in log units) the unbounded solver may wander past a range edge
 
 
@@ -142,6 +143,8 @@ class SweepProblem:
                 parts.append(d.real.reshape(d.shape[0], -1))
                 parts.append(d.imag.reshape(d.shape[0], -1))
         rows = np.concatenate(parts, axis=1)
+        if np.isfinite(rows).all():
+            return rows
         return np.nan_to_num(rows, nan=_BAD_RESIDUAL, posinf=_BAD_RESIDUAL, neginf=-_BAD_RESIDUAL)
 
     def complex_residuals(self, values: np.ndarray) -> list[np.ndarray]:
@@ -208,12 +211,21 @@ SOLVER = "lm"
 
 
 def _covariance(jac: np.ndarray, residual_variance: float) -> np.ndarray:
-    """s²·(JᵀJ)⁻¹ by SVD; directions with no information get an infinite variance."""
-    _, sv, vt = np.linalg.svd(jac, full_matrices=False)
-    tiny = sv <= sv[0] * 1e-12 if sv.size else sv
-    inv = np.where(tiny, np.inf, 1.0 / np.where(tiny, 1.0, sv) ** 2)
+    """s²·(JᵀJ)⁻¹; directions with no information get an infinite variance.
+
+    Decomposes the small n×n normal matrix (columns scaled to unit norm, which
+    keeps it well conditioned) rather than the tall N×n Jacobian: an SVD of the
+    Jacobian goes through multi-threaded LAPACK, which on a busy two-core
+    machine can take longer than the whole fit.
+    """
+    jtj = jac.T @ jac
+    norm = np.sqrt(np.clip(np.diag(jtj), 0.0, np.inf))
+    scale = np.where(norm > 0, norm, 1.0)
+    w, v = np.linalg.eigh(jtj / np.outer(scale, scale))
+    tiny = w <= w[-1] * _TINY_EIGENVALUE if w.size else w
+    inv = np.where(tiny, np.inf, 1.0 / np.where(tiny, 1.0, w))
     with np.errstate(invalid="ignore"):
-        cov = (vt.T * inv) @ vt
+        cov = (v * inv) @ v.T / np.outer(scale, scale)
     return cov * residual_variance
 
 
