@@ -41,7 +41,16 @@ for _name in COMMAND_MODULES:
 
 
 def main() -> None:
-    """Console-script entry point."""
+    """Console-script entry point.
+
+    The fits multiply small matrices (thousands × 9), where BLAS threads cost
+    more than they give, so one thread is the default unless the user set one.
+    numpy is imported lazily by the commands, so this still takes effect.
+    """
+    import os
+
+    for name in ("OPENBLAS_NUM_THREADS", "OMP_NUM_THREADS", "MKL_NUM_THREADS"):
+        os.environ.setdefault(name, "1")
     app()
 
 
