@@ -19,6 +19,7 @@ class Analysis:
     figures: dict = field(default_factory=dict)
     design_check: dict | None = None
     warnings: tuple[str, ...] = ()
+    advice: tuple[str, ...] = ()   # better ways to measure, not doubts about the result
 
     @property
     def name(self) -> str:
@@ -45,6 +46,7 @@ class Analysis:
             "model": fit["model"],
             "measurement": self.measurement.to_dict(),
             "warnings": list(self.fit.warnings) + list(self.warnings),
+            "advice": list(self.advice),
             "software": {"name": "rfmeas", "version": __version__},
         }
 
@@ -53,15 +55,17 @@ def analyze(measurement: MeasurementSet) -> Analysis:
     """Fit every sweep of `measurement` at once and derive the figures of merit."""
     from .fit import fit_sweeps
     from .results import build_result
-    from .sanity import check_fit, check_sweeps
+    from .sanity import check_fit, check_sweeps, method_warnings
 
     sweeps = list(measurement.sweeps)
     pre = check_sweeps(measurement)
+    advice = method_warnings(measurement)
     outcome = fit_sweeps(sweeps)
     result = build_result(outcome, sweeps)
     post = check_fit(measurement, result)
     figures, design_check, warnings = _figures(measurement, result)
-    return Analysis(measurement, result, figures, design_check, tuple(pre + post + list(warnings)))
+    return Analysis(measurement, result, figures, design_check, tuple(pre + post + list(warnings)),
+                    tuple(advice))
 
 
 def _figures(measurement: MeasurementSet, result: FitResult):

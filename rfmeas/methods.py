@@ -243,8 +243,7 @@ def method_advice(impedance_ohm, z0_ohm: float = 50.0,
     medians = {m: float(np.median(table[m])) for m in METHODS}
     best = min(METHODS, key=lambda m: medians[m])
     low, high = np.percentile(np.abs(z), [10.0, 90.0])
-    # two significant figures, rounded here (format_engineering loops on '1.2e+02' with digits=2)
-    span = "–".join(format_engineering(float(f"{v:.2g}"), "Ω", 3) for v in (low, high))
+    span = "–".join(format_engineering(float(v), "Ω", 2) for v in (low, high))
     gain = medians[REFLECTION] / medians[best]
     if best == REFLECTION:
         others = ", ".join(f"{m} about {_ratio(medians[m] / medians[best])} worse"

@@ -17,7 +17,7 @@ import math
 
 import numpy as np
 
-from .errors import FitError
+from .errors import FitError, InputError
 from .fit import BOUNDS
 from .fit_start import impedance_from_reflection, inductance_at_low_frequency
 from .results import FitResult
@@ -336,3 +336,25 @@ def _ratio_text(np_turns: int, ns_turns: int) -> str:
     g = math.gcd(np_turns, ns_turns)
     a, b = np_turns // g, ns_turns // g
     return f"1:{b}" if a == 1 else f"{a}:{b} (1:{b / a:.3g})"
+
+
+METHOD_ADVICE_GAIN = 3.0
+"""Suggest a two-port method when it would resolve a reflection sweep this many times better."""
+
+
+def method_warnings(measurement: MeasurementSet) -> list[str]:
+    """For each one-port reflection sweep: a sentence when a two-port method would measure it better."""
+    from .methods import impedance_from_reflection, method_advice
+
+    out = []
+    for sweep in measurement.sweeps:
+        if sweep.is_two_port or sweep.is_through_method:
+            continue
+        z = impedance_from_reflection(sweep.measured()[:, 0], sweep.z0_ohm[0])
+        try:
+            advice = method_advice(z, sweep.z0_ohm[0])
+        except InputError:
+            continue
+        if advice.best != "reflection" and advice.gain_over_reflection >= METHOD_ADVICE_GAIN:
+            out.append(f"{sweep.label}: {advice.sentence} (method = \"{advice.best}\" in the manifest)")
+    return out

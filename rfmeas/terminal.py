@@ -65,11 +65,12 @@ def render_analysis(analysis, console) -> None:
     console.print(f"fit {state} in {fit.elapsed_s * 1000:.0f} ms; rms misfit {fit.rms_residual:.2g}, "
                   f"weighted residual variance {fit.residual_variance:.3g} (≈ 1: down to the noise)")
     warnings = list(fit.warnings) + list(analysis.warnings)
-    if warnings:
-        console.print()
-        console.print("[bold yellow]warnings[/]")
-        for w in warnings:
-            console.print(f"  • {w}")
+    for title, lines in (("[bold yellow]warnings[/]", warnings), ("[bold]advice[/]", analysis.advice)):
+        if lines:
+            console.print()
+            console.print(title)
+            for line in lines:
+                console.print(f"  • {line}")
 
 
 def _extra_renderers():

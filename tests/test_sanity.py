@@ -277,3 +277,14 @@ def test_a_fit_that_runs_out_of_evaluations_says_why(monkeypatch):
     analysis = analyze(_set())
     assert not analysis.fit.converged
     assert any(w.startswith("no converged fit") and "ran out of evaluations" in w for w in analysis.warnings)
+
+
+def test_a_low_impedance_reflection_sweep_gets_method_advice():
+    """The sample unit's shorted-secondary sweep is well under an ohm to ~20 Ω: shunt-through
+    resolves it better (rfmeas.methods), and the advice says so; advice is not a warning."""
+    analysis = analyze_manifest("sample_data/coupler-after")
+    advice = [a for a in analysis.advice if a.startswith("pri_short")]
+    assert advice and "shunt-through" in advice[0]
+    assert not any(a.startswith("pri_open") for a in analysis.advice)
+    assert analysis.to_dict()["advice"] == list(analysis.advice)
+    assert analysis.warnings == ()
