@@ -394,9 +394,11 @@ class HistoryStore:
                 raise InputError(f"'{rel_path}' exists already; choose an empty folder or allow overwriting",
                                  path=target)
             targets.append((target, content))
+        from .io.atomic import atomic_write_bytes
+
         for target, content in targets:
             target.parent.mkdir(parents=True, exist_ok=True)
-            target.write_bytes(content)
+            atomic_write_bytes(target, content)
         return [t for t, _ in targets]
 
 

@@ -185,8 +185,10 @@ def register(app: typer.Typer) -> None:
             if last_error is not None:
                 raise last_error
             raise InputError("no sweep was taken; nothing written", path=manifest)
-        manifest.write_text(manifest_text(name, taken, *turns, comment=f"written by rfmeas acquire-set "
-                                          f"({profile.name})"), encoding="utf-8")
+        from ..io.atomic import atomic_write_text
+
+        atomic_write_text(manifest, manifest_text(name, taken, *turns, comment=f"written by rfmeas "
+                                                  f"acquire-set ({profile.name})"))
         err.print(f"\nwrote {manifest} with {len(taken)} of {len(steps)} sweeps")
         if interrupted:
             err.print("interrupted; the manifest lists the sweeps finished so far")

@@ -76,12 +76,9 @@ class TouchstoneStream:
         self._file.close()
         text = self.partial.read_text(encoding="utf-8")
         text = text.replace(INCOMPLETE_MARK + "\n", "", 1)
-        tmp = self.path.with_name(self.path.name + ".tmp")
-        try:
-            tmp.write_text(text, encoding="utf-8")
-            os.replace(tmp, self.path)
-        except OSError as exc:
-            raise InputError(f"cannot write: {exc.strerror or exc}", path=self.path) from exc
+        from ..io.atomic import atomic_write_text
+
+        atomic_write_text(self.path, text)
         self.partial.unlink()
         return self.path
 
