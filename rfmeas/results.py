@@ -269,8 +269,7 @@ def build_result(outcome: FitOutcome, sweeps: list[Sweep]) -> FitResult:
                                           "interwinding_capacitance_F", "primary_resistance_ohm",
                                           "secondary_resistance_ohm"):
             warnings.append(f"{LABELS[key]} not determined: {est.note}")
-    if not outcome.converged:
-        warnings.append(f"the fit did not converge: {outcome.message}")
+    # non-convergence is reported, with its reason, by rfmeas.sanity.check_fit
     return FitResult(
         params=outcome.params,
         estimates=estimates,
