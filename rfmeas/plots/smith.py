@@ -27,7 +27,8 @@ def plot_smith(analysis, model=None, path=None):
     """
     import skrf.plotting
 
-    fig, axes = style.new_figure(1, 1, width_in=6.0, height_in=6.0, sharex=False)
+    fig, axes = style.new_figure(1, 1, width_in=6.0, height_in=6.0, sharex=False,
+                                 margins={"left": 0.45, "right": 0.45, "bottom": 1.0, "top": 0.4})
     ax = axes[0, 0]
     ax.grid(False)
     skrf.plotting.smith(ax=ax, draw_labels=True, chart_type="z")
