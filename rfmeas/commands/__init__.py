@@ -10,4 +10,5 @@ COMMAND_MODULES = [
     "analyze",
     "demo",
     "plan",
+    "report",
 ]

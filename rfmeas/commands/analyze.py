@@ -21,6 +21,8 @@ def analyze_command(
     turns: Optional[str] = typer.Option(None, "--turns", help="Turns PRIMARY:SECONDARY for files without a manifest, e.g. 3:9."),
     termination: str = typer.Option("open", "--termination", help="One-port files without a manifest: what the other winding sees (open, short, or ohms)."),
     port1: str = typer.Option("primary", "--port1", help="One-port files without a manifest: the winding on port 1."),
+    report: Optional[Path] = typer.Option(None, "--report", help="Also write the HTML report to this file."),
+    plots_dir: Optional[Path] = typer.Option(None, "--plots", help="Also write every plot as PNG, SVG and PDF into this folder."),
 ):
     """Fit the equivalent circuit to all sweeps of one transformer at once."""
     from ..analysis import analyze_files, analyze_manifest
@@ -43,5 +45,10 @@ def analyze_command(
         from ..terminal import render_analysis
 
         render_analysis(analysis, stdout_console())
+    if report is not None or plots_dir is not None:
+        from ._common import stderr_console
+        from .report import tell, write_outputs
+
+        tell(write_outputs(analysis, report, plots_dir), stderr_console() if json_output else stdout_console())
     if analysis.design_passed is False:
         raise typer.Exit(EXIT_DESIGN_FAILED)
