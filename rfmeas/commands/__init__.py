@@ -8,6 +8,7 @@ Modules import only typer and the standard library at the top; heavy imports
 # Order here is the order `rfmeas --help` lists them in.
 COMMAND_MODULES = [
     "analyze",
+    "report",
     "plan",
     "core",
     "compare",

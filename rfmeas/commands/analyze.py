@@ -64,6 +64,8 @@ def analyze_command(
     return_loss: Optional[str] = typer.Option(None, "--return-loss", help="Return-loss threshold in dB for the band and its check (default 15, or the manifest's return_loss_dB)."),
     record: bool = typer.Option(True, "--record/--no-record", help="Keep this analysis in the history store (with its raw files)."),
     db: Optional[Path] = typer.Option(None, "--db", help="History store file (default: RFMEAS_DB or the user's data folder)."),
+    report: Optional[Path] = typer.Option(None, "--report", help="Also write the HTML report to this file."),
+    plots_dir: Optional[Path] = typer.Option(None, "--plots", help="Also write every plot as PNG, SVG and PDF into this folder."),
 ):
     """Fit the equivalent circuit to all sweeps of one transformer at once."""
     from ..errors import EXIT_DESIGN_FAILED
@@ -84,6 +86,11 @@ def analyze_command(
         render_analysis(analysis, console)
         if record_id is not None:
             console.print(f"[dim]recorded in the history as @{record_id}[/]")
+    if report is not None or plots_dir is not None:
+        from ._common import stderr_console
+        from .report import tell, write_outputs
+
+        tell(write_outputs(analysis, report, plots_dir), stderr_console() if json_output else stdout_console())
     if analysis.design_passed is False:
         raise typer.Exit(EXIT_DESIGN_FAILED)
 

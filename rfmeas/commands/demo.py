@@ -40,6 +40,7 @@ def demo_command(
     from ..io.atomic import atomic_write_text
     from ..terminal import render_analysis
     from ._common import dumps_json
+    from .report import write_outputs
 
     manifests = sample_manifests()
     if not manifests:
@@ -48,7 +49,7 @@ def demo_command(
     console = stdout_console()
     console.print("[dim]Sample data: invented measurements of a 50 Ω → 450 Ω ladder-line coupler, "
                   "as first wound and after a rewind (see sample_data/README.md).[/]")
-    written = []
+    written, reports = [], []
     for manifest in manifests:
         analysis = analyze_manifest(manifest)
         console.rule(manifest.parent.name)
@@ -56,6 +57,9 @@ def demo_command(
         target = out / f"{manifest.parent.name}.json"
         atomic_write_text(target, dumps_json(analysis.to_dict()) + "\n")
         written.append(target)
+        reports.append(Path(write_outputs(analysis, out / f"{manifest.parent.name}.html")["report"]))
     console.rule()
     for path in written:
         console.print(f"wrote {path}")
+    for path in reports:
+        console.print(f"[bold]report:[/] {path}  (open it in a web browser)")

@@ -1,0 +1,62 @@
+"""Before/after overlay of two analyses: both measurements as points, both fitted models as lines."""
+
+from __future__ import annotations
+
+import numpy as np
+
+from . import style
+from .sweeps import impedance_from_reflection, model_sweeps
+
+
+def matched_sweeps(before, after) -> list[tuple[int, int]]:
+    """Pairs of sweep indices (before, after) taken the same way (same connection description)."""
+    later = {s.describe(): j for j, s in reversed(list(enumerate(after.measurement.sweeps)))}
+    return [(i, later[s.describe()]) for i, s in enumerate(before.measurement.sweeps) if s.describe() in later]
+
+
+def _curve(sweep, values):
+    """What a panel shows for one sweep: |Z| for a one-port sweep, |S21| (else |S11|) in dB."""
+    if not sweep.is_two_port:
+        return np.abs(impedance_from_reflection(values[:, 0], sweep.z0_ohm[0]))
+    j = sweep.elements.index("S21") if "S21" in sweep.elements else 0
+    with np.errstate(divide="ignore"):
+        return 20 * np.log10(np.abs(values[:, j]))
+
+
+def plot_comparison(before, after, path=None):
+    """One panel per sweep taken both times, with both measurements and both models.
+
+    Lines carry gids "data:before:<label>", "model:before:<label>" and the same
+    for "after"; one-port panels show |Z|, two-port panels |S21| in dB.
+    """
+    from ..errors import InputError
+
+    pairs = matched_sweeps(before, after)
+    if not pairs:
+        raise InputError("the two measurement sets have no sweep taken the same way to compare")
+    fig, axes = style.new_figure(len(pairs), 1, height_in=2.4 * len(pairs) + 0.6, sharex=False)
+    models = {"before": model_sweeps(before), "after": model_sweeps(after)}
+    for ax, (i, j) in zip(axes[:, 0], pairs):
+        for n, (tag, analysis, index) in enumerate((("before", before, i), ("after", after, j))):
+            sweep = analysis.measurement.sweeps[index]
+            data_colour, model_colour, marker, ls = style.pair(n)
+            f = sweep.f_Hz
+            d, = ax.plot(f, _curve(sweep, sweep.measured()), color=data_colour,
+                         **dict(style.DATA_STYLE, marker=marker), label=f"{tag}: {analysis.name} measured")
+            m, = ax.plot(f, _curve(sweep, models[tag][index]), color=model_colour,
+                         **dict(style.MODEL_STYLE, linestyle=ls), label=f"{tag} model")
+            d.set_gid(f"data:{tag}:{sweep.label}")
+            m.set_gid(f"model:{tag}:{sweep.label}")
+        sweep = before.measurement.sweeps[i]
+        if sweep.is_two_port:
+            ax.set_ylabel("|S21| (dB)" if "S21" in sweep.elements else "|S11| (dB)")
+        else:
+            ax.set_yscale("log")
+            style.engineering_axis(ax, "y", "Ω")
+            ax.set_ylabel("|Z|")
+        style.frequency_axis(ax, label=ax is axes[-1, 0])
+        ax.set_title(sweep.describe(), fontsize=9, loc="left")
+    axes[0, 0].legend(fontsize=7, frameon=False, ncol=2)
+    if path is not None:
+        style.save_figure(fig, path)
+    return fig

@@ -1,0 +1,208 @@
+"""The transformer in use: gain and return loss in the design's terminations, and the core's spectra.
+
+Gain is the transducer power gain |S21|² and return loss −20·log10|S11| of the
+fitted model with port 1 referenced to the source resistance and port 2 to
+the load resistance (rfmeas.model.circuit.s_matrix), so a perfect transformer
+shows 0 dB gain and infinite return loss. The measured two-port sweeps were
+taken in the analyser's own reference impedance and are not redrawn here.
+
+The spectra come from an open-circuit sweep of a winding with known turns:
+A_L(f) = Re(Z/jω)/N² and, with the core's dimensions, the complex
+permeability by the single-winding method (rfmeas.magnetics.complex_permeability).
+The winding capacitance is not removed, so they are shown only up to half
+the winding's first self-resonance.
+"""
+
+from __future__ import annotations
+
+import math
+
+import numpy as np
+
+from . import style
+from .sweeps import impedance_from_reflection, model_sweeps
+
+RESPONSE_POINTS = 600
+
+
+def figure_value(figures: dict, key: str) -> float | None:
+    """A figure's value as a float, or None when it is missing or not a finite number."""
+    item = (figures or {}).get(key)
+    value = item.get("value") if isinstance(item, dict) else item
+    if isinstance(value, (int, float)) and not isinstance(value, bool) and math.isfinite(value):
+        return float(value)
+    return None
+
+
+def response_terminations(analysis) -> tuple[float, float, str]:
+    """(source Ω, load Ω, how they were chosen): the design's, else 50 Ω and 50 Ω·n²."""
+    design = analysis.measurement.design
+    source = design.source_impedance_ohm if design and design.source_impedance_ohm else None
+    load = design.load_impedance_ohm if design and design.load_impedance_ohm else None
+    if source and load:
+        return float(source), float(load), "design terminations"
+    ratio = analysis.fit.params.effective_turns_ratio
+    source = float(source or 50.0)
+    load = float(load or source * ratio ** 2)
+    return source, load, "no design terminations given: load = source · n²"
+
+
+def transducer_response(params, f_Hz, source_ohm: float, load_ohm: float):
+    """(gain dB, return loss dB) of `params` between `source_ohm` and `load_ohm`."""
+    from ..model.circuit import s_matrix
+
+    s = s_matrix(params, f_Hz, "primary", source_ohm, load_ohm)
+    with np.errstate(divide="ignore"):
+        return 20 * np.log10(np.abs(s[:, 1, 0])), -20 * np.log10(np.abs(s[:, 0, 0]))
+
+
+def response_frequencies(analysis) -> np.ndarray:
+    lo = min(float(s.f_Hz.min()) for s in analysis.measurement.sweeps)
+    hi = max(float(s.f_Hz.max()) for s in analysis.measurement.sweeps)
+    return np.geomspace(lo, hi, RESPONSE_POINTS)
+
+
+def plot_response(analysis, path=None):
+    """Gain and return loss of the fitted model, design band shaded, 1 dB / 3 dB corners marked.
+
+    Lines carry gids "model:gain" and "model:return_loss"; corner markers "marker:<label>".
+    """
+    source, load, how = response_terminations(analysis)
+    f = response_frequencies(analysis)
+    gain_dB, return_loss_dB = transducer_response(analysis.fit.params, f, source, load)
+    fig, axes = style.new_figure(2, 1, height_ratios=[1, 1], height_in=5.0)
+    gain_ax, rl_ax = axes[:, 0]
+    design = analysis.measurement.design
+    figures = analysis.figures or {}
+    for ax in (gain_ax, rl_ax):
+        if design is not None:
+            style.mark_band(ax, design.lowest_frequency_Hz, design.highest_frequency_Hz,
+                            label="design band")
+    g, = gain_ax.plot(f, gain_dB, color=style.PALETTE["data"], **style.MODEL_STYLE, label="gain (model)")
+    g.set_gid("model:gain")
+    r, = rl_ax.plot(f, return_loss_dB, color=style.PALETTE["model"], **style.MODEL_STYLE,
+                    label="return loss (model)")
+    r.set_gid("model:return_loss")
+    for key, label, ls in (("low_frequency_corner_1dB_Hz", "1 dB corner", "--"),
+                           ("high_frequency_corner_1dB_Hz", "1 dB corner", "--"),
+                           ("low_frequency_corner_3dB_Hz", "3 dB corner", ":"),
+                           ("high_frequency_corner_3dB_Hz", "3 dB corner", ":")):
+        value = figure_value(figures, key)
+        if value is not None:
+            side = "low" if key.startswith("low") else "high"
+            style.mark_frequency(gain_ax, value, f"{side} {label}", style=ls)
+    band = figures.get("return_loss_band")
+    if isinstance(band, dict):
+        threshold = band.get("threshold_dB")
+        if isinstance(threshold, (int, float)):
+            rl_ax.axhline(threshold, color=style.PALETTE["muted"], linestyle="--", linewidth=1.0,
+                          label=f"{threshold:g} dB")
+        for edge in ("start_Hz", "stop_Hz"):
+            value = band.get(edge)
+            if isinstance(value, (int, float)) and math.isfinite(value):
+                rl_ax.axvline(value, color=style.PALETTE["third"], linestyle="-.", linewidth=1.0)
+    finite_gain = gain_dB[np.isfinite(gain_dB)]
+    gain_ax.set_ylim(max(float(finite_gain.min()) - 1, -30) if finite_gain.size else -30, 1)
+    rl_ax.set_ylim(0, min(float(np.nanmax(np.where(np.isfinite(return_loss_dB), return_loss_dB, 0))) + 5,
+                          60))
+    gain_ax.set_ylabel("gain (dB)")
+    rl_ax.set_ylabel("return loss (dB)")
+    for ax in (gain_ax, rl_ax):
+        style.frequency_axis(ax, label=ax is rl_ax)
+        ax.legend(fontsize=8, frameon=True, framealpha=0.85, edgecolor="none", loc="lower center")
+    gain_ax.set_title(f"fitted model between {source:g} Ω and {load:g} Ω ({how})", fontsize=10, loc="left")
+    if path is not None:
+        style.save_figure(fig, path)
+    return fig
+
+
+def spectra_sweep(analysis) -> int | None:
+    """Index of the open-circuit one-port sweep of a winding whose turns are known, or None."""
+    ms = analysis.measurement
+    turns = {"primary": ms.primary_turns, "secondary": ms.secondary_turns}
+    for i, s in enumerate(ms.sweeps):
+        if not s.is_two_port and s.termination == "open" and turns.get(s.port1):
+            return i
+    return None
+
+
+def core_spectra(analysis, model=None):
+    """Spectra of the winding in `spectra_sweep`: dict of f_Hz and data/model arrays, or None.
+
+    Keys: sweep, turns, f_Hz, al_data / al_model (nH/turn²) and, with a core
+    geometry, mu_data / mu_model (complex, µ' − jµ'').
+    """
+    index = spectra_sweep(analysis)
+    if index is None:
+        return None
+    ms = analysis.measurement
+    sweep = ms.sweeps[index]
+    model = (model_sweeps(analysis) if model is None else model)[index][:, 0]
+    turns = ms.primary_turns if sweep.port1 == "primary" else ms.secondary_turns
+    f = sweep.f_Hz
+    z0 = sweep.z0_ohm[0]
+    z_data = impedance_from_reflection(sweep.measured()[:, 0], z0)
+    z_model = impedance_from_reflection(model, z0)
+    keep = f <= 0.5 * _first_resonance(f, z_model)
+    f, z_data, z_model = f[keep], z_data[keep], z_model[keep]
+    w = 2 * np.pi * f
+    out = {"sweep": sweep.label, "turns": turns, "f_Hz": f,
+           "al_data": (z_data / (1j * w)).real / turns ** 2 * 1e9,
+           "al_model": (z_model / (1j * w)).real / turns ** 2 * 1e9}
+    if ms.core:
+        from ..magnetics import geometry as geo
+        from ..magnetics.permeability import complex_permeability
+
+        core = geo.geometry_from_table(ms.core)
+        p = analysis.fit.params
+        rw = p.R1_ohm if sweep.port1 == "primary" else p.R2_ohm
+        out["mu_data"] = complex_permeability(z_data, f, turns, core, rw)
+        out["mu_model"] = complex_permeability(z_model, f, turns, core, rw)
+    return out
+
+
+def _first_resonance(f_Hz, z) -> float:
+    """Frequency where the reactance first turns from inductive to capacitive (inf if never)."""
+    x = z.imag
+    cross = np.nonzero((x[:-1] > 0) & (x[1:] <= 0))[0]
+    return float(f_Hz[cross[0]]) if cross.size else math.inf
+
+
+def plot_core_spectra(analysis, model=None, path=None):
+    """A_L and (with core dimensions) µ', µ'' against frequency, or None when not available.
+
+    Lines carry gids "data:A_L", "model:A_L", "data:mu_real", "model:mu_real",
+    "data:mu_imag", "model:mu_imag".
+    """
+    spectra = core_spectra(analysis, model)
+    if spectra is None or spectra["f_Hz"].size < 2:
+        return None
+    has_mu = "mu_data" in spectra
+    fig, axes = style.new_figure(2 if has_mu else 1, 1, height_in=5.0 if has_mu else 3.2)
+    f = spectra["f_Hz"]
+    al_ax = axes[0, 0]
+    _pair_plot(al_ax, f, spectra["al_data"], spectra["al_model"], 0, "A_L")
+    al_ax.set_ylabel("A_L (nH/turn²)")
+    al_ax.set_title(f"{spectra['sweep']}, {spectra['turns']} turns; up to half the self-resonance",
+                    fontsize=10, loc="left")
+    if has_mu:
+        mu_ax = axes[1, 0]
+        mu_d, mu_m = spectra["mu_data"], spectra["mu_model"]
+        _pair_plot(mu_ax, f, mu_d.real, mu_m.real, 0, "mu_real", "µ′")
+        _pair_plot(mu_ax, f, -mu_d.imag, -mu_m.imag, 1, "mu_imag", "µ″")
+        mu_ax.set_ylabel("relative permeability")
+    for ax in axes[:, 0]:
+        style.frequency_axis(ax, label=ax is axes[-1, 0])
+        ax.legend(fontsize=8, frameon=False)
+    if path is not None:
+        style.save_figure(fig, path)
+    return fig
+
+
+def _pair_plot(ax, f, data, model, index, gid, name=None):
+    data_colour, model_colour, marker, ls = style.pair(index)
+    name = name or gid
+    d, = ax.plot(f, data, color=data_colour, **dict(style.DATA_STYLE, marker=marker), label=f"{name} measured")
+    m, = ax.plot(f, model, color=model_colour, **dict(style.MODEL_STYLE, linestyle=ls), label=f"{name} model")
+    d.set_gid(f"data:{gid}")
+    m.set_gid(f"model:{gid}")

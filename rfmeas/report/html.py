@@ -1,0 +1,287 @@
+"""One self-contained HTML page per analysis: verdicts first, then numbers, plots and provenance.
+
+The page needs nothing beyond itself: plots are PNG data URIs, the stylesheet
+is inline, there is no script. Everything taken from the user (names, notes,
+file names, warnings) goes through Jinja2 with autoescaping on.
+"""
+
+from __future__ import annotations
+
+import base64
+import datetime as _dt
+import math
+import platform
+from pathlib import Path
+
+from .. import __version__
+from ..results import LABELS, PARAMETER_KEYS
+from ..units import format_engineering, format_with_error
+
+CAUTIONS = (
+    "These are small-signal results: they say nothing about insulation, saturation, "
+    "heating or power handling. Test those separately.",
+    "Never connect a network analyser or LCR meter to an energised circuit; a charged "
+    "capacitor or live winding can destroy the instrument's input and hurt you.",
+    "Mains and high-voltage parts follow local codes and licensed practice; this report is "
+    "no approval of any such part.",
+)
+
+_UNITS = {key: unit for key, _name, unit in PARAMETER_KEYS}
+# key suffix -> (unit shown, whether SI prefixes apply)
+_SUFFIX_UNITS = (
+    ("_nH_per_turn2", "nH/turn²", False),
+    ("_Hz", "Hz", True),
+    ("_ohm", "Ω", True),
+    ("_dB", "dB", False),
+    ("_percent", "%", False),
+    ("_H", "H", True),
+    ("_F", "F", True),
+)
+_SI_UNITS = {"Hz", "H", "F", "Ω", "ohm", "s", "V", "A", "W"}
+
+
+def unit_of_key(key: str) -> tuple[str, str, bool]:
+    """(label without the unit suffix, unit, SI prefixes apply) for a JSON key."""
+    for suffix, unit, si in _SUFFIX_UNITS:
+        if key.endswith(suffix):
+            return key[: -len(suffix)].replace("_", " "), unit, si
+    return key.replace("_", " "), "", False
+
+
+def format_number(value, unit: str = "", si: bool | None = None, stderr=None) -> str:
+    """A number for people: engineering notation for SI units, 4 significant figures otherwise."""
+    if value is None:
+        return "—"
+    if isinstance(value, bool):
+        return "yes" if value else "no"
+    if not isinstance(value, (int, float)):
+        return str(value)
+    si = (unit in _SI_UNITS) if si is None else si
+    if unit == "ohm":
+        unit = "Ω"
+    if si:
+        return format_with_error(float(value), stderr, unit) if stderr else format_engineering(float(value), unit)
+    if not math.isfinite(value):
+        return format_engineering(float(value), unit)
+    text = f"{value:.4g}" + (f" ± {stderr:.2g}" if isinstance(stderr, (int, float)) and stderr else "")
+    return f"{text} {unit}".strip()
+
+
+def format_figure(key: str, item) -> str:
+    """Render any figure value generically: {value, stderr}, a dict of sub-values, a list, a number."""
+    _label, unit, si = unit_of_key(key)
+    if isinstance(item, dict):
+        if "value" in item:
+            text = format_number(item.get("value"), unit, si, item.get("stderr"))
+            note = item.get("note")
+            return f"{text} ({note})" if note else text
+        parts = []
+        for sub, value in item.items():
+            sub_label, sub_unit, sub_si = unit_of_key(sub)
+            if isinstance(value, dict) and "value" in value:
+                value_text = format_number(value.get("value"), sub_unit, sub_si, value.get("stderr"))
+            elif isinstance(value, (dict, list, tuple)):
+                value_text = format_figure(sub, value)
+            else:
+                value_text = format_number(value, sub_unit, sub_si)
+            parts.append(f"{sub_label}: {value_text}")
+        return "; ".join(parts) if parts else "—"
+    if isinstance(item, (list, tuple)):
+        return ", ".join(format_figure(key, v) for v in item) or "—"
+    return format_number(item, unit, si)
+
+
+def parameter_rows(analysis) -> list[dict]:
+    rows = []
+    for key, est in analysis.fit.estimates.items():
+        unit = _UNITS.get(key, "")
+        if not est.determined:
+            held = "" if est.held_at is None else f" (held at {format_engineering(est.held_at, unit)})"
+            rows.append({"label": LABELS.get(key, key), "key": key, "value": "not determined",
+                         "relative": "", "note": est.note + held, "determined": False})
+            continue
+        rel = est.relative_stderr
+        rel_text = "" if rel is None else (f"{rel * 100:.2g} %" if rel < 10 else "≫100 %")
+        value = format_number(est.value, unit, bool(unit), est.stderr)
+        rows.append({"label": LABELS.get(key, key), "key": key, "value": value, "relative": rel_text,
+                     "note": "", "determined": True})
+    return rows
+
+
+def figure_rows(figures: dict) -> list[dict]:
+    rows = []
+    for key, item in (figures or {}).items():
+        label = item.get("label") if isinstance(item, dict) and isinstance(item.get("label"), str) else None
+        rows.append({"key": key, "label": label or unit_of_key(key)[0], "value": format_figure(key, item)})
+    return rows
+
+
+def _state(passed) -> str:
+    return "pass" if passed is True else ("fail" if passed is False else "info")
+
+
+def verdict_rows(analysis) -> list[dict]:
+    """The verdict table: the fit's own soundness, then every design check."""
+    from ..results import MISFIT_WARNING_RMS
+
+    fit = analysis.fit
+    worst = max(fit.sweeps, key=lambda q: q.rms_residual) if fit.sweeps else None
+    rows = [
+        {"name": "fit converged", "state": _state(fit.converged),
+         "value": "yes" if fit.converged else "no", "limit": "", "margin": "",
+         "advice": "" if fit.converged else fit.message},
+    ]
+    if worst is not None:
+        ok = worst.rms_residual <= MISFIT_WARNING_RMS
+        rows.append({"name": "model describes every sweep", "state": _state(ok),
+                     "value": f"worst rms misfit {worst.rms_residual:.2g} ({worst.label})",
+                     "limit": f"≤ {MISFIT_WARNING_RMS:g}", "margin": "",
+                     "advice": "" if ok else "check the manifest says how each sweep was connected"})
+    check = analysis.design_check
+    if not check:
+        advice = ("no design check was made for this target" if analysis.measurement.design is not None
+                  else "give a [design] table in the manifest to check against a target")
+        rows.append({"name": "design check", "state": "info", "value": "not checked",
+                     "limit": "", "margin": "", "advice": advice})
+        return rows
+    for item in check.get("checks") or []:
+        unit = item.get("unit") or ""
+        margin = item.get("margin")
+        rows.append({
+            "name": "design check: " + str(item.get("label") or item.get("name", "")),
+            "state": _state(item.get("passed")),
+            "value": format_number(item.get("value"), unit),
+            "limit": format_number(item.get("limit"), unit) if item.get("limit") is not None else "",
+            "margin": format_number(margin) if isinstance(margin, (int, float)) else (margin or ""),
+            "advice": str(item.get("advice") or ""),
+        })
+    return rows
+
+
+def overall_verdict(analysis) -> dict:
+    passed = analysis.design_passed
+    if passed is True:
+        return {"state": "pass", "text": "Design check passed"}
+    if passed is False:
+        failed = [c.get("name", "") for c in (analysis.design_check or {}).get("checks") or []
+                  if c.get("passed") is False]
+        return {"state": "fail", "text": "Design check failed" + (f": {', '.join(failed)}" if failed else "")}
+    if not analysis.fit.converged:
+        return {"state": "fail", "text": "The fit did not converge; treat every number with suspicion"}
+    if analysis.measurement.design is not None:
+        return {"state": "info", "text": "Design target given, but no design check was made"}
+    return {"state": "info", "text": "No design target given: results only, nothing checked"}
+
+
+def sweep_rows(analysis) -> list[dict]:
+    rows = []
+    qualities = {q.label: q for q in analysis.fit.sweeps}
+    for sweep in analysis.measurement.sweeps:
+        f = sweep.f_Hz
+        q = qualities.get(sweep.label)
+        rows.append({
+            "label": sweep.label,
+            "file": sweep.path or "",
+            "description": sweep.describe(),
+            "points": int(f.size),
+            "range": f"{format_engineering(float(f[0]), 'Hz', 3)} – {format_engineering(float(f[-1]), 'Hz', 3)}",
+            "reference": " / ".join(f"{z:g} Ω" for z in sweep.z0_ohm),
+            "misfit": "" if q is None else f"{q.rms_residual:.2g}",
+            "noise": "" if q is None else f"{q.noise_estimate:.2g}",
+            "sha256": sweep.sha256 or "not recorded",
+        })
+    return rows
+
+
+def design_rows(analysis) -> list[dict]:
+    design = analysis.measurement.design
+    if design is None:
+        return []
+    rows = []
+    for key, value in design.to_dict().items():
+        if value is None:
+            continue
+        label, unit, si = unit_of_key(key)
+        rows.append({"label": label, "value": format_number(value, unit, si)})
+    return rows
+
+
+def software_versions() -> list[dict]:
+    from importlib.metadata import PackageNotFoundError, version
+
+    rows = [{"name": "rfmeas", "version": __version__}, {"name": "Python", "version": platform.python_version()}]
+    for dist in ("numpy", "scipy", "scikit-rf", "matplotlib", "jinja2"):
+        try:
+            rows.append({"name": dist, "version": version(dist)})
+        except PackageNotFoundError:
+            rows.append({"name": dist, "version": "not installed"})
+    return rows
+
+
+def png_data_uri(figure, dpi: int = 110) -> str:
+    from ..plots.style import figure_bytes
+
+    return "data:image/png;base64," + base64.b64encode(figure_bytes(figure, "png", dpi)).decode("ascii")
+
+
+def report_context(analysis, plots, generated: str | None = None) -> dict:
+    """Everything the template shows, as plain text and numbers (no objects, no markup)."""
+    fit = analysis.fit
+    ms = analysis.measurement
+    embedded = []
+    for plot in plots:
+        width_in, height_in = plot.figure.get_size_inches()
+        embedded.append({"key": plot.key, "title": plot.title, "caption": plot.caption,
+                         "src": png_data_uri(plot.figure),
+                         "width": int(round(width_in * 110)), "height": int(round(height_in * 110))})
+    return {
+        "name": analysis.name,
+        "generated": generated or _dt.datetime.now(_dt.timezone.utc).strftime("%Y-%m-%d %H:%M UTC"),
+        "overall": overall_verdict(analysis),
+        "verdicts": verdict_rows(analysis),
+        "parameters": parameter_rows(analysis),
+        "figures": figure_rows(analysis.figures),
+        "design": design_rows(analysis),
+        "warnings": list(fit.warnings) + list(analysis.warnings),
+        "plots": embedded,
+        "sweeps": sweep_rows(analysis),
+        "turns": {"primary": ms.primary_turns, "secondary": ms.secondary_turns},
+        "manifest": ms.manifest_path or "",
+        "notes": ms.notes or "",
+        "fit": {"converged": fit.converged, "points": fit.points, "free": fit.free_parameters,
+                "rms": f"{fit.rms_residual:.2g}", "variance": f"{fit.residual_variance:.3g}",
+                "elapsed_ms": f"{fit.elapsed_s * 1000:.0f}",
+                "polarity": "inverting" if fit.params.polarity < 0 else "non-inverting"},
+        "software": software_versions(),
+        "cautions": list(CAUTIONS),
+    }
+
+
+def _environment():
+    from jinja2 import Environment, FileSystemLoader, StrictUndefined
+
+    return Environment(loader=FileSystemLoader(str(Path(__file__).parent / "templates")),
+                       autoescape=True, undefined=StrictUndefined, trim_blocks=True, lstrip_blocks=True)
+
+
+def render_report(analysis, plots=None, generated: str | None = None) -> str:
+    """The report page as HTML text; `plots` (from analysis_plots) are made and closed if not given."""
+    from .plots import analysis_plots, close_plots
+
+    own = plots is None
+    plots = analysis_plots(analysis) if own else plots
+    try:
+        context = report_context(analysis, plots, generated)
+    finally:
+        if own:
+            close_plots(plots)
+    return _environment().get_template("report.html.j2").render(**context)
+
+
+def write_report(analysis, path, plots=None) -> Path:
+    """Render the report and write it to `path` atomically; returns the path."""
+    from ..io.atomic import atomic_write_text
+
+    path = Path(path)
+    atomic_write_text(path, render_report(analysis, plots))
+    return path
