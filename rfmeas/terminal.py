@@ -50,8 +50,12 @@ def sweep_table(analysis):
 def render_analysis(analysis, console) -> None:
     """Print the whole analysis: header, parameters, figures, design check, fit quality, warnings."""
     fit = analysis.fit
-    console.print(f"[bold]{analysis.name}[/]  ({len(analysis.measurement.sweeps)} sweeps, "
+    from rich.markup import escape
+
+    console.print(f"[bold]{escape(analysis.name)}[/]  ({len(analysis.measurement.sweeps)} sweeps, "
                   f"{fit.points} fitted values)")
+    if analysis.measurement.notes:
+        console.print(f"[dim]{escape(analysis.measurement.notes)}[/]")
     console.print()
     console.print(parameter_table(analysis))
     console.print("[dim]Standard errors come from the trace noise and the fit alone; calibration and "

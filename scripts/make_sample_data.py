@@ -48,9 +48,9 @@ C1_F = 1.5e-12
 C12_F = 1.0e-12
 
 SETS = {
-    "coupler-before": dict(name="ladder-line coupler, unit 3 (as wound)", secondary_turns=14, k=0.990,
+    "coupler-before": dict(name="ladder-line coupler, unit 3", secondary_turns=14, k=0.990,
                            C2_F=1.9e-12, wording="as first wound, loosely, with 14 secondary turns instead of 15"),
-    "coupler-after": dict(name="ladder-line coupler, unit 3 (rewound)", secondary_turns=15, k=0.997,
+    "coupler-after": dict(name="ladder-line coupler, unit 3", secondary_turns=15, k=0.997,
                           C2_F=2.0e-12, wording="rewound tighter with the designed 15 secondary turns"),
 }
 
@@ -114,6 +114,7 @@ def manifest(spec: dict) -> str:
 
 [transformer]
 name = "{spec["name"]}"
+notes = "{spec["wording"]}"
 primary_turns = {PRIMARY_TURNS}
 secondary_turns = {spec["secondary_turns"]}
 

@@ -26,8 +26,15 @@ def sample_data_root() -> Path:
     return Path(__file__).resolve().parents[2] / "sample_data"
 
 
+DEMO_ORDER = ("coupler-before", "coupler-after")
+"""The story the demo tells: the unit as first wound, then after the rework."""
+
+
 def sample_manifests() -> list[Path]:
-    return sorted(sample_data_root().glob("*/manifest.toml"))
+    """The sample sets, before-then-after first, any others after them by name."""
+    found = sorted(sample_data_root().glob("*/manifest.toml"))
+    rank = {name: i for i, name in enumerate(DEMO_ORDER)}
+    return sorted(found, key=lambda p: (rank.get(p.parent.name, len(rank)), p.parent.name))
 
 
 @handles_errors
@@ -49,17 +56,34 @@ def demo_command(
     console = stdout_console()
     console.print("[dim]Sample data: invented measurements of a 50 Ω → 450 Ω ladder-line coupler, "
                   "as first wound and after a rewind (see sample_data/README.md).[/]")
-    written, reports = [], []
+    written, reports, analyses = [], [], {}
     for manifest in manifests:
         analysis = analyze_manifest(manifest)
+        analyses[manifest.parent.name] = analysis
         console.rule(manifest.parent.name)
         render_analysis(analysis, console)
         target = out / f"{manifest.parent.name}.json"
         atomic_write_text(target, dumps_json(analysis.to_dict()) + "\n")
         written.append(target)
         reports.append(Path(write_outputs(analysis, out / f"{manifest.parent.name}.html")["report"]))
+    if all(name in analyses for name in DEMO_ORDER):
+        written.append(_compare(analyses[DEMO_ORDER[0]], analyses[DEMO_ORDER[1]], out, console))
     console.rule()
     for path in written:
         console.print(f"wrote {path}")
     for path in reports:
         console.print(f"[bold]report:[/] {path}  (open it in a web browser)")
+
+
+def _compare(before, after, out: Path, console) -> Path:
+    """The rework in a few lines, and the overlay of both units' sweeps and models."""
+    from ..compare import compare_results
+    from ..plots.compare import plot_comparison
+
+    comparison = compare_results(before.to_dict(), after.to_dict())
+    console.rule("before → after")
+    for line in comparison.verdict:
+        console.print(f"  • {line}")
+    target = out / "compare.png"
+    plot_comparison(before, after, target)
+    return target

@@ -127,13 +127,13 @@ def verdict_rows(analysis) -> list[dict]:
     fit = analysis.fit
     worst = max(fit.sweeps, key=lambda q: q.rms_residual) if fit.sweeps else None
     rows = [
-        {"name": "fit converged", "state": _state(fit.converged),
+        {"name": "fit converged", "group": "fit", "state": _state(fit.converged),
          "value": "yes" if fit.converged else "no", "limit": "", "margin": "",
          "advice": "" if fit.converged else fit.message},
     ]
     if worst is not None:
         ok = worst.rms_residual <= MISFIT_WARNING_RMS
-        rows.append({"name": "model describes every sweep", "state": _state(ok),
+        rows.append({"name": "model describes every sweep", "group": "fit", "state": _state(ok),
                      "value": f"worst rms misfit {worst.rms_residual:.2g} ({worst.label})",
                      "limit": f"≤ {MISFIT_WARNING_RMS:g}", "margin": "",
                      "advice": "" if ok else "check the manifest says how each sweep was connected"})
@@ -141,14 +141,14 @@ def verdict_rows(analysis) -> list[dict]:
     if not check:
         advice = ("no design check was made for this target" if analysis.measurement.design is not None
                   else "give a [design] table in the manifest to check against a target")
-        rows.append({"name": "design check", "state": "info", "value": "not checked",
+        rows.append({"name": "no target given", "state": "info", "value": "not checked",
                      "limit": "", "margin": "", "advice": advice})
         return rows
     for item in check.get("checks") or []:
         unit = item.get("unit") or ""
         margin = item.get("margin")
         rows.append({
-            "name": "design check: " + str(item.get("label") or item.get("name", "")),
+            "name": str(item.get("label") or item.get("name", "")),
             "state": _state(item.get("passed")),
             "value": format_number(item.get("value"), unit),
             "limit": format_number(item.get("limit"), unit) if item.get("limit") is not None else "",
@@ -163,9 +163,9 @@ def overall_verdict(analysis) -> dict:
     if passed is True:
         return {"state": "pass", "text": "Design check passed"}
     if passed is False:
-        failed = [c.get("name", "") for c in (analysis.design_check or {}).get("checks") or []
+        failed = [c.get("label") or c.get("name", "") for c in (analysis.design_check or {}).get("checks") or []
                   if c.get("passed") is False]
-        return {"state": "fail", "text": "Design check failed" + (f": {', '.join(failed)}" if failed else "")}
+        return {"state": "fail", "text": "Design check failed" + (f": {'; '.join(failed)}" if failed else "")}
     if not analysis.fit.converged:
         return {"state": "fail", "text": "The fit did not converge; treat every number with suspicion"}
     if analysis.measurement.design is not None:
@@ -228,6 +228,7 @@ def report_context(analysis, plots, generated: str | None = None) -> dict:
     """Everything the template shows, as plain text and numbers (no objects, no markup)."""
     fit = analysis.fit
     ms = analysis.measurement
+    verdicts = verdict_rows(analysis)
     embedded = []
     for plot in plots:
         width_in, height_in = plot.figure.get_size_inches()
@@ -238,7 +239,8 @@ def report_context(analysis, plots, generated: str | None = None) -> dict:
         "name": analysis.name,
         "generated": generated or _dt.datetime.now(_dt.timezone.utc).strftime("%Y-%m-%d %H:%M UTC"),
         "overall": overall_verdict(analysis),
-        "verdicts": verdict_rows(analysis),
+        "verdicts": verdicts,
+        "fit_checks": sum(1 for row in verdicts if row.get("group") == "fit"),
         "parameters": parameter_rows(analysis),
         "figures": figure_rows(analysis.figures),
         "design": design_rows(analysis),
