@@ -34,7 +34,8 @@ def plot_comparison(before, after, path=None):
     pairs = matched_sweeps(before, after)
     if not pairs:
         raise InputError("the two measurement sets have no sweep taken the same way to compare")
-    fig, axes = style.new_figure(len(pairs), 1, height_in=2.4 * len(pairs) + 0.6, sharex=False)
+    fig, axes = style.new_figure(len(pairs), 1, height_in=2.6 * len(pairs) + 0.6, sharex=False,
+                                 margins={"hspace": 0.55})
     models = {"before": model_sweeps(before), "after": model_sweeps(after)}
     for ax, (i, j) in zip(axes[:, 0], pairs):
         for n, (tag, analysis, index) in enumerate((("before", before, i), ("after", after, j))):
@@ -42,7 +43,7 @@ def plot_comparison(before, after, path=None):
             data_colour, model_colour, marker, ls = style.pair(n)
             f = sweep.f_Hz
             d, = ax.plot(f, _curve(sweep, sweep.measured()), color=data_colour,
-                         **dict(style.DATA_STYLE, marker=marker), label=f"{tag}: {analysis.name} measured")
+                         **dict(style.DATA_STYLE, marker=marker), label=f"{tag}: measured")
             m, = ax.plot(f, _curve(sweep, models[tag][index]), color=model_colour,
                          **dict(style.MODEL_STYLE, linestyle=ls), label=f"{tag} model")
             d.set_gid(f"data:{tag}:{sweep.label}")
