@@ -397,27 +397,26 @@ def _value_text(fig: dict | None, unit: str = "", digits: int = 4) -> str:
     return f"{fig['value']:.{digits}g}" + (f" ± {err:.2g}" if err else "")
 
 
-def _table_note(note: str, shared: str) -> str:
-    """A figure's note without the terminations note (printed once under the table), markup-safe."""
-    from rich.markup import escape
-
+def _plain_note(note: str, shared: str) -> str:
+    """A figure's note without the terminations note (which is said once, under the table)."""
     if shared:
         note = note.replace("; " + shared, "").replace(shared, "")
-    return escape(note.strip("; "))
+    return note.strip("; ")
 
 
-def figures_table(analysis):
-    from rich.table import Table
+def figure_rows(analysis) -> list[tuple[str, str, str]]:
+    """(label, value ± standard error, note) for every figure, in reading order, as plain text.
 
+    The terminal table and the HTML report both show these rows.
+    """
     f = analysis.figures
+    if not f:
+        return []
     shared = f.get("terminations", {}).get("note", "")
-    table = Table(title="Figures", title_justify="left", show_edge=False, pad_edge=False)
-    table.add_column("figure")
-    table.add_column("value ± standard error", justify="right")
-    table.add_column("note", overflow="fold")
+    rows: list[tuple[str, str, str]] = []
 
     def row(label, fig, unit="", note=""):
-        table.add_row(label, _value_text(fig, unit), _table_note(note or (fig or {}).get("note", ""), shared))
+        rows.append((label, _value_text(fig, unit), _plain_note(note or (fig or {}).get("note", ""), shared)))
 
     al = f.get("inductance_factor_nH_per_turn2", {})
     if al.get("value") is not None:
@@ -448,7 +447,7 @@ def figures_table(analysis):
     rl = f.get("return_loss_band", {})
     band = "—" if rl.get("start_Hz") is None and rl.get("stop_Hz") is None else \
         f"{eng(rl.get('start_Hz'), 'Hz')} – {eng(rl.get('stop_Hz'), 'Hz')}"
-    table.add_row(f"return loss ≥ {rl.get('threshold_dB', 15):g} dB", band, _table_note(rl.get("note", ""), shared))
+    rows.append((f"return loss ≥ {rl.get('threshold_dB', 15):g} dB", band, _plain_note(rl.get("note", ""), shared)))
     row("self-resonance, primary (secondary open)", f.get("self_resonance_primary_Hz"), "Hz")
     row("self-resonance, secondary (primary open)", f.get("self_resonance_secondary_Hz"), "Hz")
     tr = f.get("turns_ratio", {})
@@ -459,6 +458,19 @@ def figures_table(analysis):
         notes.append(f"design 1:{tr['design_ratio']:.4g}")
     row("turns ratio √(L2/L1)", tr, "", ", ".join(notes))
     row("open-circuit voltage ratio", tr.get("open_circuit_voltage_ratio"))
+    return rows
+
+
+def figures_table(analysis):
+    from rich.markup import escape
+    from rich.table import Table
+
+    table = Table(title="Figures", title_justify="left", show_edge=False, pad_edge=False)
+    table.add_column("figure")
+    table.add_column("value ± standard error", justify="right")
+    table.add_column("note", overflow="fold")
+    for label, value, note in figure_rows(analysis):
+        table.add_row(label, value, escape(note))
     return table
 
 

@@ -14,6 +14,7 @@ import platform
 from pathlib import Path
 
 from .. import __version__
+from ..figures import figure_rows
 from ..results import LABELS, PARAMETER_KEYS
 from ..units import format_engineering, format_with_error
 
@@ -67,30 +68,6 @@ def format_number(value, unit: str = "", si: bool | None = None, stderr=None) ->
     return f"{text} {unit}".strip()
 
 
-def format_figure(key: str, item) -> str:
-    """Render any figure value generically: {value, stderr}, a dict of sub-values, a list, a number."""
-    _label, unit, si = unit_of_key(key)
-    if isinstance(item, dict):
-        if "value" in item:
-            text = format_number(item.get("value"), unit, si, item.get("stderr"))
-            note = item.get("note")
-            return f"{text} ({note})" if note else text
-        parts = []
-        for sub, value in item.items():
-            sub_label, sub_unit, sub_si = unit_of_key(sub)
-            if isinstance(value, dict) and "value" in value:
-                value_text = format_number(value.get("value"), sub_unit, sub_si, value.get("stderr"))
-            elif isinstance(value, (dict, list, tuple)):
-                value_text = format_figure(sub, value)
-            else:
-                value_text = format_number(value, sub_unit, sub_si)
-            parts.append(f"{sub_label}: {value_text}")
-        return "; ".join(parts) if parts else "—"
-    if isinstance(item, (list, tuple)):
-        return ", ".join(format_figure(key, v) for v in item) or "—"
-    return format_number(item, unit, si)
-
-
 def parameter_rows(analysis) -> list[dict]:
     rows = []
     for key, est in analysis.fit.estimates.items():
@@ -105,14 +82,6 @@ def parameter_rows(analysis) -> list[dict]:
         value = format_number(est.value, unit, bool(unit), est.stderr)
         rows.append({"label": LABELS.get(key, key), "key": key, "value": value, "relative": rel_text,
                      "note": "", "determined": True})
-    return rows
-
-
-def figure_rows(figures: dict) -> list[dict]:
-    rows = []
-    for key, item in (figures or {}).items():
-        label = item.get("label") if isinstance(item, dict) and isinstance(item.get("label"), str) else None
-        rows.append({"key": key, "label": label or unit_of_key(key)[0], "value": format_figure(key, item)})
     return rows
 
 
@@ -242,9 +211,11 @@ def report_context(analysis, plots, generated: str | None = None) -> dict:
         "verdicts": verdicts,
         "fit_checks": sum(1 for row in verdicts if row.get("group") == "fit"),
         "parameters": parameter_rows(analysis),
-        "figures": figure_rows(analysis.figures),
+        "figures": [{"label": label, "value": value, "note": note}
+                    for label, value, note in figure_rows(analysis)],
         "design": design_rows(analysis),
         "warnings": list(fit.warnings) + list(analysis.warnings),
+        "advice": list(analysis.advice),
         "plots": embedded,
         "sweeps": sweep_rows(analysis),
         "turns": {"primary": ms.primary_turns, "secondary": ms.secondary_turns},
