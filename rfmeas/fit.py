@@ -184,11 +184,11 @@ class _Objective:
         return r
 
     def jacobian(self, x: np.ndarray) -> np.ndarray:
-        X = np.vstack([x[None, :], x[None, :] + _STEP * np.eye(len(x))])
+        base = self.residuals(x)  # usually cached: least_squares has just evaluated x
+        X = x[None, :] + _STEP * np.eye(len(x))
         R = self.problem.residual_rows(self.values(X))
         self.evaluations += len(X)
-        self._last = (x.copy(), R[0])
-        return ((R[1:] - R[0]) / _STEP).T
+        return ((R - base) / _STEP).T
 
 
 def _solve(problem, free, fixed, x0, max_nfev=200):
@@ -202,7 +202,7 @@ def _solve(problem, free, fixed, x0, max_nfev=200):
     lb, ub = zip(*(internal_bounds(n) for n in free))
     x0 = np.clip(x0, np.array(lb) + 1e-9, np.array(ub) - 1e-9)
     res = least_squares(obj.residuals, x0, jac=obj.jacobian, method="lm", x_scale="jac",
-                        xtol=1e-12, ftol=1e-12, gtol=1e-12, max_nfev=max_nfev)
+                        xtol=1e-10, ftol=1e-10, gtol=1e-10, max_nfev=max_nfev)
     # past the clip the model no longer changes: bring x back to where it still acts
     res.x = np.array([np.clip(x, lo - _MARGIN, hi if n == "k" else hi + _MARGIN)
                       for x, n, lo, hi in zip(res.x, free, lb, ub)])
@@ -222,9 +222,13 @@ def _covariance(jac: np.ndarray, residual_variance: float) -> np.ndarray:
     scale = np.where(norm > 0, norm, 1.0)
     w, v = np.linalg.eigh(jtj / np.outer(scale, scale))
     tiny = w <= w[-1] * _TINY_EIGENVALUE if w.size else w
-    inv = np.where(tiny, np.inf, 1.0 / np.where(tiny, 1.0, w))
-    with np.errstate(invalid="ignore"):
-        cov = (v * inv) @ v.T / np.outer(scale, scale)
+    inv = np.where(tiny, 0.0, 1.0 / np.where(tiny, 1.0, w))
+    cov = (v * inv) @ v.T / np.outer(scale, scale)
+    # a parameter that moves along a direction the data do not see has no bounded variance
+    unseen = np.any(np.abs(v[:, tiny]) > 1e-6, axis=1) if np.any(tiny) else np.zeros(len(w), bool)
+    cov[unseen, :] = np.nan
+    cov[:, unseen] = np.nan
+    cov[unseen, unseen] = np.inf
     return cov * residual_variance
 
 
@@ -299,11 +303,12 @@ def fit_sweeps(sweeps: list[Sweep], start: TransformerParams | None = None) -> F
         for j, n in enumerate(free):
             if n in ("L1_H", "L2_H"):
                 continue  # inductances with sweeps behind them are always reported
+            edge = (j, n) in at_edge
             badness = log_stderr[j] if np.isfinite(log_stderr[j]) else np.inf
-            if (j, n) in at_edge:
-                badness = max(badness, 1e6)
-            if badness > UNDETERMINED_LOG_STDERR and (worst is None or badness > worst[0]):
-                worst = (badness, n, (j, n) in at_edge)
+            # a parameter at the edge of its range goes first: it can spoil the others' errors
+            rank = (edge, badness)
+            if (edge or badness > UNDETERMINED_LOG_STDERR) and (worst is None or rank > worst[0]):
+                worst = (rank, n, edge)
         if worst is None:
             break
         _, name, edge = worst

@@ -132,22 +132,26 @@ def estimate_start(sweeps: list[Sweep]) -> tuple[dict, int]:
         k = math.sqrt(max(1e-6, 1.0 - min(pick("Lsc2") / L2, 0.999)))
     k = min(max(k if k is not None else 0.99, 0.2), 1 - 1e-5)
 
+    n = math.sqrt(L2 / L1)
     R1 = pick("R1", 0.05)
-    R2 = pick("R2", 0.05)
     rsc = pick("Rsc1")
     if rsc is not None and rsc > 0:
         R1 = R1 if R1 < rsc else rsc / 2
+        # shorted secondary at low frequency: R1 + R2/n²
+        R2 = (rsc - R1) * n ** 2 if rsc > 1.2 * R1 else R1 * n
+    else:
+        R2 = pick("R2") or R1 * n  # copper grows with the turns (common practice)
     Rc = pick("Rc1") or pick("Rc2", 1e5) * L1 / L2
-    c1_total = pick("Ctot1")
-    c2_total = pick("Ctot2")
+    # The open sweeps see one total capacitance, C1 + n²·C2 + (n ∓ 1)²·C12 referred to the
+    # primary, whatever the split: start from three equal capacitances that give that total.
     f_max = max(float(s.f_Hz[-1]) for s in sweeps)
-    c_default = 1.0 / ((2 * np.pi * 2 * f_max) ** 2 * L1)
-    c1_total = c1_total or c_default
-    c2_total = c2_total or c1_total * L1 / L2
+    c_referred = [c for c in (pick("Ctot1"), pick("Ctot2") and pick("Ctot2") / n ** 2) if c]
+    c_total = float(np.median(c_referred)) if c_referred else 1.0 / ((2 * np.pi * 2 * f_max) ** 2 * L1)
+    c_each = c_total / (1.0 + n ** 2 + (n - polarity) ** 2)
     start = {
         "L1_H": L1, "L2_H": L2, "k": k,
         "R1_ohm": max(R1, 1e-3), "R2_ohm": max(R2, 1e-3), "Rc_ohm": min(max(Rc, 10.0), 1e8),
-        "C1_F": 0.6 * c1_total, "C2_F": 0.6 * c2_total, "C12_F": 0.2 * min(c1_total, c2_total),
+        "C1_F": c_each, "C2_F": c_each, "C12_F": c_each,
     }
     return start, polarity
 

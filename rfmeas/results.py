@@ -197,7 +197,8 @@ def build_estimates(outcome: FitOutcome) -> dict:
             continue
         value = _derived_value(name, values)
         g = _gradient(lambda x: _derived_value(name, vals_from_x(x)), outcome.x.copy())
-        var = float(g @ cov @ g) if cov is not None else math.nan
+        with np.errstate(invalid="ignore"):  # nan where the data leave a direction unseen
+            var = float(g @ cov @ g) if cov is not None else math.nan
         stderr = math.sqrt(var) if math.isfinite(var) and var >= 0 else None
         out[key] = Estimate(float(value), stderr)
     return out
