@@ -58,6 +58,8 @@ NEUTRAL = {
     "C1_F": 1e-17, "C2_F": 1e-17, "C12_F": 1e-17,
 }
 _STEP = 1e-6  # forward-difference step in internal (log) coordinates
+COARSE_POINTS = 200
+"""The first pass uses about this many points per sweep; the second uses them all."""
 _BAD_RESIDUAL = 1e6
 _TINY_EIGENVALUE = 1e-14  # relative eigenvalue of the scaled normal matrix that carries no information
 _MARGIN = 5.0  # how far (in log units) the unbounded solver may wander past a range edge
@@ -100,20 +102,22 @@ class FitOutcome:
 class SweepProblem:
     """Vectorised residuals of a set of sweeps for stacks of parameter vectors."""
 
-    def __init__(self, sweeps: list[Sweep], polarity: int):
+    def __init__(self, sweeps: list[Sweep], polarity: int, stride: int = 1):
+        """`stride` > 1 keeps every stride-th point: a cheap problem for the first pass."""
         self.sweeps = sweeps
         self.polarity = polarity
-        self.measured = [s.measured() for s in sweeps]
+        self.measured = [s.measured()[::stride] for s in sweeps]
         self.weights = np.ones(len(sweeps))
         # sweeps sharing a frequency grid share one evaluation of the network
         self._grids: dict[bytes, int] = {}
         self.grid_of_sweep = []
         self.grids = []
         for s in sweeps:
-            key = s.f_Hz.tobytes()
+            f = s.f_Hz[::stride]
+            key = f.tobytes()
             if key not in self._grids:
                 self._grids[key] = len(self.grids)
-                self.grids.append(s.f_Hz)
+                self.grids.append(f)
             self.grid_of_sweep.append(self._grids[key])
 
     def predict(self, values: np.ndarray) -> list[np.ndarray]:
@@ -202,7 +206,7 @@ def _solve(problem, free, fixed, x0, max_nfev=200):
     lb, ub = zip(*(internal_bounds(n) for n in free))
     x0 = np.clip(x0, np.array(lb) + 1e-9, np.array(ub) - 1e-9)
     res = least_squares(obj.residuals, x0, jac=obj.jacobian, method="lm", x_scale="jac",
-                        xtol=1e-10, ftol=1e-10, gtol=1e-10, max_nfev=max_nfev)
+                        xtol=1e-8, ftol=1e-8, gtol=1e-8, max_nfev=max_nfev)
     # past the clip the model no longer changes: bring x back to where it still acts
     res.x = np.array([np.clip(x, lo - _MARGIN, hi if n == "k" else hi + _MARGIN)
                       for x, n, lo, hi in zip(res.x, free, lb, ub)])
@@ -242,6 +246,8 @@ def fit_sweeps(sweeps: list[Sweep], start: TransformerParams | None = None) -> F
         start_values = {n: getattr(start, n) for n in PARAMETER_NAMES}
         polarity = start.polarity
     problem = SweepProblem(sweeps, polarity)
+    stride = max(1, min(s.f_Hz.size for s in sweeps) // COARSE_POINTS)
+    coarse = SweepProblem(sweeps, polarity, stride) if stride > 1 else problem
     points = sum(m.size for m in problem.measured) * 2
 
     held: dict[str, tuple[float, str]] = {}
@@ -270,21 +276,21 @@ def fit_sweeps(sweeps: list[Sweep], start: TransformerParams | None = None) -> F
         if len(free) == 0:
             raise FitError("nothing left to fit: the sweeps determine no parameter")
         fixed = {n: v for n, (v, _) in held.items()}
-        problem.weights = np.ones(len(sweeps))
+        # first pass on a thinned problem (cheap); several starts get a short budget
         best = None
-        for k0 in k_starts:  # several starts get a short budget; the best is then polished
+        for k0 in k_starts:
             trial = dict(current, k=k0) if "k" in free else dict(current)
             x0 = np.array([to_internal(n, trial[n]) for n in free])
-            res, obj = _solve(problem, free, fixed, x0, max_nfev=40 if len(k_starts) > 1 else 200)
+            res, obj = _solve(coarse, free, fixed, x0, max_nfev=40 if len(k_starts) > 1 else 200)
             total_evals += obj.evaluations
             if best is None or res.cost < best[0].cost:
                 best = (res, obj)
         res, obj = best
         if len(k_starts) > 1:
-            res, obj = _solve(problem, free, fixed, res.x)
+            res, obj = _solve(coarse, free, fixed, res.x)
             total_evals += obj.evaluations
         k_starts = [float(to_physical("k", res.x[free.index("k")]))] if "k" in free else k_starts
-        # second pass: weight each sweep by its own noise level
+        # second pass on every point, each sweep weighted by its own noise level
         values = obj.values(res.x[None, :])[0]
         sigma = _sweep_sigma(problem, values)
         problem.weights = 1.0 / sigma
