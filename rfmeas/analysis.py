@@ -2,7 +2,7 @@
 
 from __future__ import annotations
 
-from dataclasses import dataclass, field
+from dataclasses import dataclass, field, replace
 from pathlib import Path
 
 from . import __version__
@@ -20,6 +20,7 @@ class Analysis:
     design_check: dict | None = None
     warnings: tuple[str, ...] = ()
     advice: tuple[str, ...] = ()   # better ways to measure, not doubts about the result
+    recorded: MeasurementSet | None = None  # everything measured, left-out sweeps included
 
     @property
     def name(self) -> str:
@@ -33,7 +34,7 @@ class Analysis:
 
     @property
     def sources(self) -> list[tuple[str, bytes]]:
-        return self.measurement.sources()
+        return (self.recorded or self.measurement).sources()
 
     def to_dict(self) -> dict:
         fit = self.fit.to_dict()
@@ -44,7 +45,7 @@ class Analysis:
             "design_check": self.design_check,
             "fit": fit["fit"],
             "model": fit["model"],
-            "measurement": self.measurement.to_dict(),
+            "measurement": (self.recorded or self.measurement).to_dict(),
             "warnings": list(self.fit.warnings) + list(self.warnings),
             "advice": list(self.advice),
             "software": {"name": "rfmeas", "version": __version__},
@@ -55,17 +56,25 @@ def analyze(measurement: MeasurementSet) -> Analysis:
     """Fit every sweep of `measurement` at once and derive the figures of merit."""
     from .fit import fit_sweeps
     from .results import build_result
-    from .sanity import check_fit, check_sweeps, method_warnings
+    from .sanity import check_fit, check_sweeps, method_warnings, unusable_sweeps
 
-    sweeps = list(measurement.sweeps)
-    pre = check_sweeps(measurement)
+    pre = check_sweeps(measurement)  # raises FitError when no sweep is usable
     advice = method_warnings(measurement)
+    recorded = measurement
+    unusable = set(unusable_sweeps(measurement))
+    if unusable:
+        # a sweep that cannot be a winding would drag every parameter with it: fit the others
+        measurement = replace(measurement, sweeps=tuple(s for s in measurement.sweeps
+                                                        if s.label not in unusable))
+        pre += [f"{label}: left out of the fit (see above); the results rest on the other sweeps"
+                for label in sorted(unusable)]
+    sweeps = list(measurement.sweeps)
     outcome = fit_sweeps(sweeps)
     result = build_result(outcome, sweeps)
     post = check_fit(measurement, result)
     figures, design_check, warnings = _figures(measurement, result)
     return Analysis(measurement, result, figures, design_check, tuple(pre + post + list(warnings)),
-                    tuple(advice))
+                    tuple(advice), recorded)
 
 
 def _figures(measurement: MeasurementSet, result: FitResult):

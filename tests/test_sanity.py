@@ -288,3 +288,12 @@ def test_a_low_impedance_reflection_sweep_gets_method_advice():
     assert not any(a.startswith("pri_open") for a in analysis.advice)
     assert analysis.to_dict()["advice"] == list(analysis.advice)
     assert analysis.warnings == ()
+
+
+def test_an_unusable_sweep_is_left_out_and_the_others_still_fit():
+    """An open lead on the primary-open sweep: the other three sweeps carry the fit."""
+    analysis = analyze(_set(_replaced(pri_open=np.ones(F_HZ.size))))
+    assert _about(analysis.warnings, "pri_open", "left out of the fit")
+    assert [s.label for s in analysis.measurement.sweeps] == ["pri_short", "sec_open", "thru"]
+    assert analysis.fit.estimates["primary_inductance_H"].value == pytest.approx(TRUE.L1_H, rel=0.02)
+    assert "pri_open" in [s["label"] for s in analysis.to_dict()["measurement"]["sweeps"]]
