@@ -12,6 +12,11 @@ quirks small VNAs produce: mixed formats and frequency units, a forward-only
 two-port file (S12, S22 written as zeros) joined from two sweep segments that
 share the 10 MHz point.
 
+A third set, "unknown-core", is one test winding of 10 turns on an unmarked
+ring core (10 / 5 / 4 mm) from a parts drawer, for `rfmeas core`: the core is
+an invented NiZn ferrite with µi ≈ 125 and a first-order relaxation at 25 MHz
+(Lm with Rc across it), the winding has 0.08 ohm and 2 pF of its own.
+
 Usage: python scripts/make_sample_data.py [OUTPUT_FOLDER]  (default: sample_data/)
 """
 
@@ -190,6 +195,59 @@ def make_set(folder: Path, spec: dict, params: TransformerParams, rng: np.random
     (folder / "manifest.toml").write_text(manifest(spec), encoding="utf-8")
 
 
+# the unknown core: an invented NiZn ferrite, µi ≈ 125, relaxing at 25 MHz
+CORE_OD_MM, CORE_ID_MM, CORE_HEIGHT_MM = 10.0, 5.0, 4.0
+CORE_MU_R = 125.0
+CORE_RELAXATION_HZ = 25e6
+CORE_TURNS = 10
+
+
+def core_winding_params() -> TransformerParams:
+    """One winding as the circuit's primary with an idle, unconnected secondary.
+
+    k is within 1e-9 of 1 and the secondary has no capacitance, so the primary
+    is Rw in series with (L ∥ Rc), with Cw across the terminals: a winding on a
+    core with a first-order (Debye) relaxation, 2π·fr = Rc/L.
+    """
+    L_H = MU0 * CORE_MU_R / toroid_c1_per_m(CORE_OD_MM, CORE_ID_MM, CORE_HEIGHT_MM) * CORE_TURNS ** 2
+    return TransformerParams(L1_H=L_H, L2_H=L_H, k=1 - 1e-9, R1_ohm=0.08, R2_ohm=0.0,
+                             Rc_ohm=2 * math.pi * CORE_RELAXATION_HZ * L_H, C1_F=2e-12)
+
+
+def make_core_set(folder: Path, rng: np.random.Generator) -> TransformerParams:
+    folder.mkdir(parents=True, exist_ok=True)
+    params = core_winding_params()
+    f = np.geomspace(100e3, 100e6, 601)
+    s11 = add_noise(simulate_spice(params, f, OnePort("primary", "open", Z0_OHM)), rng)
+    header = [
+        "Invented demo data, not a measurement: ngspice simulation plus simulated VNA noise",
+        "(scripts/make_sample_data.py).",
+        f"Scenario: an unmarked ring core {CORE_OD_MM:g} / {CORE_ID_MM:g} / {CORE_HEIGHT_MM:g} mm from a parts",
+        f"drawer, {CORE_TURNS} turns wound on it to find out what it is. One-port, winding on port 1.",
+    ]
+    (folder / "winding.s1p").write_text(touchstone(f, [s11], "MHz", "RI", header), encoding="utf-8")
+    (folder / "manifest.toml").write_text(f'''# Invented demo data made by scripts/make_sample_data.py: a test winding on an unknown core.
+# Analyse it with: rfmeas core sample_data/unknown-core
+
+[transformer]
+name = "unmarked ring core, drawer 4"
+notes = "{CORE_TURNS} turns of enamelled wire, evenly spread, to identify the material"
+primary_turns = {CORE_TURNS}
+
+[core]
+shape = "toroid"
+outer_diameter_mm = {CORE_OD_MM}
+inner_diameter_mm = {CORE_ID_MM}
+height_mm = {CORE_HEIGHT_MM}
+
+[[sweep]]
+file = "winding.s1p"
+port1 = "primary"
+termination = "open"
+''', encoding="utf-8")
+    return params
+
+
 def main(argv: list[str]) -> int:
     out = Path(argv[1]) if len(argv) > 1 else ROOT / "sample_data"
     rng = np.random.default_rng(SEED)
@@ -198,6 +256,8 @@ def main(argv: list[str]) -> int:
         params = true_params(spec["secondary_turns"], spec["C2_F"], spec["k"])
         make_set(out / folder, spec, params, rng)
         truth[folder] = params.to_dict()
+    core = make_core_set(out / "unknown-core", rng)
+    truth["unknown-core"] = dict(core.to_dict(), mu_initial=CORE_MU_R, relaxation_frequency_Hz=CORE_RELAXATION_HZ)
     (out / "truth.json").write_text(json.dumps(truth, indent=2) + "\n", encoding="utf-8")
     a_l = inductance_factor_H()
     print(f"A_L = {a_l * 1e9:.2f} nH/turn², C1 = {toroid_c1_per_m(OD_MM, ID_MM, HEIGHT_MM):.1f} 1/m")

@@ -97,6 +97,19 @@ def test_demo_writes_its_outputs(tmp_path):
     result = runner.invoke(app, ["demo", "--out", str(tmp_path)])
     assert result.exit_code == 0, result.stdout + result.stderr
     written = sorted(p.name for p in tmp_path.iterdir())
-    assert "coupler-after.json" in written and "coupler-before.json" in written
+    assert {"coupler-after.json", "coupler-before.json", "coupler-after.html", "coupler-before.html",
+            "compare.png", "unknown-core.json", "unknown-core.png"} <= set(written)
     data = json.loads((tmp_path / "coupler-after.json").read_text())
     assert data["parameters"]["primary_inductance_H"]["value"] > 0
+
+
+def test_the_unknown_core_sample_gives_back_its_invented_material():
+    """sample_data/unknown-core: an ngspice-simulated test winding on a core with a first-order
+    relaxation (µi 125, fr 25 MHz, sample_data/truth.json); acceptance bounds of the core job."""
+    result = runner.invoke(app, ["core", str(SAMPLE / "unknown-core"), "--json"])
+    assert result.exit_code == 0, result.stderr
+    data = json.loads(result.stdout)
+    true = TRUTH["unknown-core"]
+    assert data["initial_permeability"]["value"] == pytest.approx(true["mu_initial"], rel=0.03)
+    assert data["relaxation_frequency_Hz"]["value"] == pytest.approx(true["relaxation_frequency_Hz"], rel=0.10)
+    assert "NiZn" in data["material_class"]["best"]["name"]

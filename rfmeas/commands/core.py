@@ -36,14 +36,15 @@ def _geometry(toroid: str | None, effective: str | None):
     return None
 
 
-def _render(analysis) -> None:
+def render_core(analysis, console=None) -> None:
+    """The core analysis as tables: summary, spectrum at a few frequencies, material class."""
     from rich import box
     from rich.table import Table
 
     from ..units import format_engineering as eng
     from ..units import format_with_error
 
-    console = stdout_console()
+    console = console or stdout_console()
     console.print(f"Core: {analysis.geometry.description}, {analysis.turns} turns, "
                   f"{analysis.method} measurement against {analysis.z0_ohm:g} Ω")
     summary = Table(title="Summary", box=box.SIMPLE_HEAD, pad_edge=False, show_header=False)
@@ -152,6 +153,6 @@ def core_command(
     if json_output:
         print_json(analysis.to_dict())
     else:
-        _render(analysis)
+        render_core(analysis)
         if plot is not None:
             stdout_console().print(f"Plot written to {plot}")

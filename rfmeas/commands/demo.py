@@ -28,11 +28,13 @@ def sample_data_root() -> Path:
 
 DEMO_ORDER = ("coupler-before", "coupler-after")
 """The story the demo tells: the unit as first wound, then after the rework."""
+CORE_SETS = ("unknown-core",)
+"""Sample sets of a single test winding, for the core analysis rather than the transformer fit."""
 
 
 def sample_manifests() -> list[Path]:
-    """The sample sets, before-then-after first, any others after them by name."""
-    found = sorted(sample_data_root().glob("*/manifest.toml"))
+    """The transformer sample sets, before-then-after first, any others after them by name."""
+    found = [p for p in sorted(sample_data_root().glob("*/manifest.toml")) if p.parent.name not in CORE_SETS]
     rank = {name: i for i, name in enumerate(DEMO_ORDER)}
     return sorted(found, key=lambda p: (rank.get(p.parent.name, len(rank)), p.parent.name))
 
@@ -68,6 +70,9 @@ def demo_command(
         reports.append(Path(write_outputs(analysis, out / f"{manifest.parent.name}.html")["report"]))
     if all(name in analyses for name in DEMO_ORDER):
         written.append(_compare(analyses[DEMO_ORDER[0]], analyses[DEMO_ORDER[1]], out, console))
+    for name in CORE_SETS:
+        if (sample_data_root() / name / "manifest.toml").is_file():
+            written.extend(_core(sample_data_root() / name, out, console))
     console.rule()
     for path in written:
         console.print(f"wrote {path}")
@@ -87,3 +92,20 @@ def _compare(before, after, out: Path, console) -> Path:
     target = out / "compare.png"
     plot_comparison(before, after, target)
     return target
+
+
+def _core(folder: Path, out: Path, console) -> list[Path]:
+    """The unknown-core job: what is this core? (see `rfmeas core`)."""
+    from ..core import analyze_core_file
+    from ..io.atomic import atomic_write_text
+    from ..plots.permeability import plot_permeability
+    from ._common import dumps_json
+    from .core import render_core
+
+    console.rule(f"{folder.name}: what is this core?")
+    analysis = analyze_core_file(folder)
+    render_core(analysis, console)
+    json_path, plot_path = out / f"{folder.name}.json", out / f"{folder.name}.png"
+    atomic_write_text(json_path, dumps_json(analysis.to_dict()) + "\n")
+    plot_permeability(analysis, plot_path)
+    return [json_path, plot_path]
