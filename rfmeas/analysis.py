@@ -54,6 +54,7 @@ class Analysis:
 
 def analyze(measurement: MeasurementSet) -> Analysis:
     """Fit every sweep of `measurement` at once and derive the figures of merit."""
+    from .figures import compute_figures
     from .fit import fit_sweeps
     from .results import build_result
     from .sanity import check_fit, check_sweeps, method_warnings, unusable_sweeps
@@ -72,18 +73,9 @@ def analyze(measurement: MeasurementSet) -> Analysis:
     outcome = fit_sweeps(sweeps)
     result = build_result(outcome, sweeps)
     post = check_fit(measurement, result)
-    figures, design_check, warnings = _figures(measurement, result)
+    figures, design_check, warnings = compute_figures(measurement, result)
     return Analysis(measurement, result, figures, design_check, tuple(pre + post + list(warnings)),
                     tuple(advice), recorded)
-
-
-def _figures(measurement: MeasurementSet, result: FitResult):
-    """Figures of merit and the design check (rfmeas.figures), when that module is present."""
-    try:
-        from .figures import compute_figures
-    except ImportError:
-        return {}, None, []
-    return compute_figures(measurement, result)
 
 
 def analyze_manifest(path: str | Path) -> Analysis:

@@ -62,7 +62,9 @@ def render_analysis(analysis, console) -> None:
                   "jig errors come on top. The T-model view uses the proportional leakage split "
                   "(Ll1 = L1(1−k), Ll2 = L2(1−k)): the terminals cannot tell how leakage divides.[/]")
     console.print()
-    for extra in _extra_renderers():
+    from .figures import terminal_renderers
+
+    for extra in terminal_renderers():
         extra(analysis, console)
     console.print(sweep_table(analysis))
     state = "[green]converged[/]" if fit.converged else "[red]did not converge[/]"
@@ -75,12 +77,3 @@ def render_analysis(analysis, console) -> None:
             console.print(title)
             for line in lines:
                 console.print(f"  • {line}")
-
-
-def _extra_renderers():
-    """Renderers of figures and design verdicts, provided by rfmeas.figures when present."""
-    try:
-        from .figures import terminal_renderers
-    except ImportError:
-        return []
-    return terminal_renderers()
