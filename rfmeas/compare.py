@@ -220,8 +220,10 @@ def _verdict(before: dict, after: dict, changes: dict[str, Change], targets: dic
         if target is not None:
             sentences.append(_target_sentence(key, label, bound, target, c))
     params = [(k, c) for k, c in changes.items() if c.group == "parameter"]
-    moved = [f"{k} ({c.change_percent:+.1f} %)" if c.change_percent is not None else k
-             for k, c in params if c.significant]
+    from .results import LABELS
+
+    moved = [f"{LABELS.get(k, k)} ({c.change_percent:+.1f} %)" if c.change_percent is not None
+             else LABELS.get(k, k) for k, c in params if c.significant]
     if moved:
         sentences.append(f"Parameters that changed significantly: {', '.join(moved)}.")
     elif params:

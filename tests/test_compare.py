@@ -62,7 +62,8 @@ def test_verdict_sentences():
     assert "Low-frequency limit: the design asks for at most 1.8 MHz: now met (missed before)." in verdict
     assert "Upper corner frequency improved (28 MHz → 35 MHz, +25.0 %), not judged" in text
     assert "Turns-ratio error improved (2.5 % → 0.2 % off the design ratio)." in verdict
-    assert "secondary_inductance_H (+5.3 %)" in text and "primary_inductance_H" not in text.split("significantly:")[1]
+    moved = text.split("significantly:")[1]
+    assert "secondary inductance L2 (+5.3 %)" in moved and "primary inductance" not in moved
     assert "different units" not in text
 
 
@@ -139,7 +140,7 @@ def test_compare_command_on_stored_records(tmp_path):
                                                   "--json"]).stdout)
     res = runner.invoke(app, ["compare", f"@{first}", f"@{second}", "--db", str(db)])
     assert res.exit_code == 0
-    assert "Low-frequency limit improved" in res.stdout and "secondary_inductance_H" in res.stdout
+    assert "Low-frequency limit improved" in res.stdout and "secondary inductance L2" in res.stdout
     for args, message in ((["@99", f"@{second}"], "no record 99"),
                           ([f"@{first}", "@prev"], "@prev needs"),
                           ([f"@{first}", str(tmp_path / "missing.toml")], "no such file"),
