@@ -15,14 +15,15 @@ def register(app: typer.Typer) -> None:
 
 def sample_data_root() -> Path:
     """The bundled sample sets: installed as rfmeas.sample_data, or sample_data/ in a checkout."""
-    try:
-        from importlib.resources import files
+    import importlib.util
 
-        root = Path(str(files("rfmeas.sample_data")))
-        if (root / "README.md").exists():
-            return root
-    except (ModuleNotFoundError, TypeError):
-        pass
+    try:
+        spec = importlib.util.find_spec("rfmeas.sample_data")
+    except ModuleNotFoundError:
+        spec = None
+    for location in (spec.submodule_search_locations or []) if spec else []:
+        if (Path(location) / "README.md").is_file():
+            return Path(location)
     return Path(__file__).resolve().parents[2] / "sample_data"
 
 
