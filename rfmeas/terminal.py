@@ -2,6 +2,8 @@
 
 from __future__ import annotations
 
+from rich.markup import escape
+
 from .results import LABELS, PARAMETER_KEYS
 from .units import format_engineering, format_with_error
 
@@ -20,7 +22,7 @@ def parameter_table(analysis):
         unit = _UNITS[key]
         if not est.determined:
             held = "" if est.held_at is None else f" (held at {format_engineering(est.held_at, unit)})"
-            table.add_row(LABELS[key], "[yellow]not determined[/]", "", est.note + held)
+            table.add_row(LABELS[key], "[yellow]not determined[/]", "", escape(est.note + held))
             continue
         rel = est.relative_stderr
         rel_text = "" if rel is None else (f"{rel * 100:.2g} %" if rel < 10 else "≫100 %")
@@ -41,7 +43,7 @@ def sweep_table(analysis):
         table.add_column(col, justify=justify)
     for q, sweep in zip(analysis.fit.sweeps, analysis.measurement.sweeps):
         f = sweep.f_Hz
-        table.add_row(q.label, q.description, str(q.points),
+        table.add_row(escape(q.label), escape(q.description), str(q.points),
                       f"{format_engineering(f[0], 'Hz', 3)} – {format_engineering(f[-1], 'Hz', 3)}",
                       f"{q.rms_residual:.2g}", f"{q.noise_estimate:.2g}")
     return table
@@ -50,8 +52,6 @@ def sweep_table(analysis):
 def render_analysis(analysis, console) -> None:
     """Print the whole analysis: header, parameters, figures, design check, fit quality, warnings."""
     fit = analysis.fit
-    from rich.markup import escape
-
     console.print(f"[bold]{escape(analysis.name)}[/]  ({len(analysis.measurement.sweeps)} sweeps, "
                   f"{fit.points} fitted values)")
     if analysis.measurement.notes:
@@ -76,4 +76,4 @@ def render_analysis(analysis, console) -> None:
             console.print()
             console.print(title)
             for line in lines:
-                console.print(f"  • {line}")
+                console.print(f"  • {escape(line)}")
