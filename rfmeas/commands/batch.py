@@ -6,6 +6,7 @@ from pathlib import Path
 from typing import List, Optional
 
 import typer
+from rich.markup import escape
 
 from ._common import handles_errors, print_json, report_error, stderr_console, stdout_console
 
@@ -54,7 +55,7 @@ def _print_summary(result) -> None:
     for column in ("manifest", "unit", "design check"):
         units.add_column(column)
     for u in result.units:
-        units.add_row(u.path, u.name or "—", u.status if not u.error else "error (see above)")
+        units.add_row(escape(u.path), escape(u.name or "—"), u.status if not u.error else "error (see above)")
     console.print(units)
     spread = Table(title="spread over the lot")
     for column, justify in (("quantity", "left"), ("units", "right"), ("mean", "right"), ("std", "right"),

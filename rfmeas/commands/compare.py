@@ -7,6 +7,7 @@ from pathlib import Path
 from typing import Optional
 
 import typer
+from rich.markup import escape
 
 from ..errors import InputError
 from ._common import handles_errors, print_json, stdout_console
@@ -76,7 +77,7 @@ def _print_comparison(comparison, before_label: str, after_label: str) -> None:
     from ..compare import format_quantity
 
     console = stdout_console()
-    table = Table(title=f"before: {before_label}\nafter:  {after_label}")
+    table = Table(title=escape(f"before: {before_label}\nafter:  {after_label}"))
     table.add_column("quantity", overflow="fold")
     for column, justify in (("before", "right"), ("after", "right"), ("change", "right"), ("significant", "left")):
         table.add_column(column, justify=justify)
@@ -88,7 +89,7 @@ def _print_comparison(comparison, before_label: str, after_label: str) -> None:
                       change, words[c.significant])
     console.print(table)
     for sentence in comparison.verdict:
-        console.print(f"• {sentence}")
+        console.print(f"• {escape(sentence)}")
     console.print(f"rule: {comparison.rule}", style="dim")
 
 

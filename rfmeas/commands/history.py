@@ -6,6 +6,7 @@ from pathlib import Path
 from typing import Optional, Tuple
 
 import typer
+from rich.markup import escape
 
 from ._common import handles_errors, print_json, stdout_console
 
@@ -54,10 +55,10 @@ def _print_table(rows, path, unit) -> None:
     if not rows:
         console.print(f"no records{f' of unit {unit!r}' if unit else ''} in {path}")
         return
-    table = Table(title=f"history ({path})")
+    table = Table(title=escape(f"history ({path})"))
     for column, justify in (("id", "right"), ("unit", "left"), ("recorded (UTC)", "left"),
                             ("design", "left"), ("files", "right"), ("rfmeas", "left")):
         table.add_column(column, justify=justify)
     for r in rows:
-        table.add_row(str(r.id), r.unit, r.recorded_utc, r.design_status, str(r.file_count), r.software_version)
+        table.add_row(str(r.id), escape(r.unit), r.recorded_utc, r.design_status, str(r.file_count), r.software_version)
     console.print(table)
