@@ -45,13 +45,13 @@ from __future__ import annotations
 
 import logging
 import math
-import tomllib
 from dataclasses import dataclass, field
 from pathlib import Path
 
 import numpy as np
 
 from .errors import InputError
+from .io.strict import check_keys, read_toml
 
 log = logging.getLogger(__name__)
 
@@ -243,13 +243,6 @@ class Fixture:
 
 # ---------------------------------------------------------------- loading
 
-def _check_keys(table: dict, allowed: set, where: str, path: Path):
-    for key in table:
-        if key not in allowed:
-            raise InputError(f"unknown key '{key}' in {where} (allowed: {', '.join(sorted(allowed))})",
-                             path=path)
-
-
 def _number(table: dict, key: str, where: str, path: Path, positive=True, default=None) -> float | None:
     if key not in table:
         return default
@@ -279,7 +272,7 @@ def _read_standard(path: Path):
 
 def _load_standards(table: dict, base: Path, path: Path):
     where = "[standards]"
-    _check_keys(table, _STANDARDS_KEYS, where, path)
+    check_keys(table, _STANDARDS_KEYS, where, path)
     for key in ("open", "short"):
         if key not in table:
             raise InputError(f"{where} needs '{key}' (a .s1p file of the jig with that standard)", path=path)
@@ -309,7 +302,7 @@ def _load_standards(table: dict, base: Path, path: Path):
 
 def _load_extension(table: dict, path: Path) -> PortExtension:
     where = "[extension]"
-    _check_keys(table, _EXTENSION_KEYS, where, path)
+    check_keys(table, _EXTENSION_KEYS, where, path)
     delay = _number(table, "delay_s", where, path, positive=False)
     length = _number(table, "length_m", where, path, positive=False)
     vf = _number(table, "velocity_factor", where, path)
@@ -333,21 +326,13 @@ def _load_extension(table: dict, path: Path) -> PortExtension:
 def load_fixture(path) -> Fixture:
     """Read a jig definition (TOML); standard files are relative to it."""
     path = Path(path)
-    try:
-        with path.open("rb") as fh:
-            doc = tomllib.load(fh)
-    except FileNotFoundError:
-        raise InputError("fixture file not found", path=path) from None
-    except OSError as exc:
-        raise InputError(f"cannot read fixture file ({exc})", path=path) from exc
-    except tomllib.TOMLDecodeError as exc:
-        raise InputError(f"not valid TOML ({exc})", path=path) from exc
-    _check_keys(doc, _TOP_KEYS, "the fixture file", path)
+    _text, doc = read_toml(path, "fixture file")
+    check_keys(doc, _TOP_KEYS, "the fixture file", path)
     for key in _TOP_KEYS:
         if key in doc and not isinstance(doc[key], dict):
             raise InputError(f"'{key}' must be a table ([{key}])", path=path)
     meta = doc.get("fixture", {})
-    _check_keys(meta, _FIXTURE_KEYS, "[fixture]", path)
+    check_keys(meta, _FIXTURE_KEYS, "[fixture]", path)
     for key in _FIXTURE_KEYS:
         if key in meta and not isinstance(meta[key], str):
             raise InputError(f"'{key}' in [fixture] must be text", path=path)

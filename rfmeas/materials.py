@@ -22,11 +22,11 @@ import logging
 import math
 import os
 import re
-import tomllib
 from dataclasses import dataclass
 from pathlib import Path
 
 from .errors import InputError
+from .io.strict import check_keys, parse_toml
 
 log = logging.getLogger(__name__)
 
@@ -132,17 +132,6 @@ def _range(value, key: str, where: str, path) -> tuple[float, float]:
     return lo, hi
 
 
-def _check_keys(table, allowed: dict, where: str, path) -> None:
-    if not isinstance(table, dict):
-        raise InputError(f"{where} must be a table", path)
-    for key in table:
-        if key not in allowed:
-            raise InputError(f"unknown key '{key}' in {where} (allowed: {', '.join(sorted(allowed))})", path)
-    for key, required in allowed.items():
-        if required and key not in table:
-            raise InputError(f"{where} needs '{key}'", path)
-
-
 def _text(table, key, where, path) -> str:
     value = table.get(key, "")
     if not isinstance(value, str):
@@ -152,10 +141,7 @@ def _text(table, key, where, path) -> str:
 
 def parse_materials(text: str, path, origin: str) -> tuple[list[MaterialClass], dict]:
     """Classes and families of one TOML text; strict: unknown keys raise InputError naming key and file."""
-    try:
-        doc = tomllib.loads(text)
-    except tomllib.TOMLDecodeError as exc:
-        raise InputError(f"not valid TOML: {exc}", path) from None
+    doc = parse_toml(text, path)
     for key in doc:
         if key not in ("class", "family"):
             raise InputError(f"unknown key '{key}' (allowed: class, family)", path)
@@ -165,7 +151,7 @@ def parse_materials(text: str, path, origin: str) -> tuple[list[MaterialClass], 
         raise InputError("family must be tables ([family.NAME])", path)
     for name, table in family_tables.items():
         where = f"[family.{name}]"
-        _check_keys(table, _FAMILY_KEYS, where, path)
+        check_keys(table, _FAMILY_KEYS, where, path, [k for k, needed in _FAMILY_KEYS.items() if needed])
         families[name] = MaterialFamily(name, _range(table["snoek_product_Hz"], "snoek_product_Hz", where, path),
                                         _text(table, "source", where, path))
     classes = []
@@ -174,7 +160,7 @@ def parse_materials(text: str, path, origin: str) -> tuple[list[MaterialClass], 
         raise InputError("class must be an array of tables ([[class]])", path)
     for i, table in enumerate(entries, start=1):
         where = f"[[class]] {i}"
-        _check_keys(table, _CLASS_KEYS, where, path)
+        check_keys(table, _CLASS_KEYS, where, path, [k for k, needed in _CLASS_KEYS.items() if needed])
         ident = table["id"]
         if not isinstance(ident, str) or not _ID.fullmatch(ident):
             raise InputError(f"{where}.id must be letters, digits, '-' or '_', not {ident!r}", path)

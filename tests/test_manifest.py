@@ -8,7 +8,8 @@ import textwrap
 import pytest
 
 from rfmeas.errors import InputError
-from rfmeas.io.manifest import MAX_MANIFEST_BYTES, load_manifest, parse_termination
+from rfmeas.io.manifest import load_manifest, parse_termination
+from rfmeas.io.strict import MAX_TOML_BYTES
 
 ONE_PORT = "# Hz S RI R 50\n1e5 0.1 0.2\n2e5 0.1 0.3\n3e5 0.2 0.3\n"
 TWO_PORT = ("# Hz S RI R 50\n"
@@ -301,7 +302,7 @@ def test_a_manifest_that_is_not_utf8_is_refused(folder):
 
 def test_an_oversized_manifest_is_refused(folder):
     path = folder / "manifest.toml"
-    path.write_bytes(b"# " + b"x" * MAX_MANIFEST_BYTES + b"\n")
+    path.write_bytes(b"# " + b"x" * MAX_TOML_BYTES + b"\n")
     refused(path, "too large")
 
 

@@ -10,12 +10,12 @@ from __future__ import annotations
 
 import os
 import string
-import tomllib
 from dataclasses import asdict, dataclass
 from importlib import resources
 from pathlib import Path
 
 from ..errors import InputError
+from ..io.strict import check_keys, parse_toml
 
 PROFILES_ENV = "RFMEAS_PROFILES"
 
@@ -92,15 +92,6 @@ class Profile:
         return data
 
 
-def _check_keys(table: dict, allowed: set, where: str, path) -> None:
-    if not isinstance(table, dict):
-        raise InputError(f"'{where}' must be a table", path=path)
-    for key in table:
-        if key not in allowed:
-            raise InputError(f"unknown key '{key}' in {where} (allowed: {', '.join(sorted(allowed))})",
-                             path=path)
-
-
 def _string(value, key: str, path) -> str:
     if not isinstance(value, str) or not value.strip():
         raise InputError(f"'{key}' must be a non-empty string", path=path)
@@ -125,11 +116,8 @@ def _check_template(key: str, template: str, path) -> None:
 
 def parse_profile(text: str, path: str | Path = "<profile>") -> Profile:
     """Validate the TOML text of one profile and return it."""
-    try:
-        data = tomllib.loads(text)
-    except tomllib.TOMLDecodeError as exc:
-        raise InputError(f"not valid TOML: {exc}", path=path) from exc
-    _check_keys(data, _TOP_KEYS, "the profile", path)
+    data = parse_toml(text, path)
+    check_keys(data, _TOP_KEYS, "the profile", path)
     for key in ("name", "kind", "commands", "reply"):
         if key not in data:
             raise InputError(f"missing key '{key}'", path=path)
@@ -140,7 +128,7 @@ def parse_profile(text: str, path: str | Path = "<profile>") -> Profile:
                     "description": str(data.get("description", "")), "path": str(path)}
 
     commands = data["commands"]
-    _check_keys(commands, set(_COMMAND_FIELDS) | {"setup"}, "[commands]", path)
+    check_keys(commands, set(_COMMAND_FIELDS) | {"setup"}, "[commands]", path)
     for key in _REQUIRED[kind]:
         if key not in commands:
             raise InputError(f"a '{kind}' profile needs [commands] {key}", path=path)
@@ -154,7 +142,7 @@ def parse_profile(text: str, path: str | Path = "<profile>") -> Profile:
         fields[key] = value
 
     reply = data["reply"]
-    _check_keys(reply, _REPLY_KEYS, "[reply]", path)
+    check_keys(reply, _REPLY_KEYS, "[reply]", path)
     fmt = reply.get("format")
     formats = POINT_FORMATS if kind == "lcr" else TRACE_FORMATS
     if fmt not in formats:
@@ -170,7 +158,7 @@ def parse_profile(text: str, path: str | Path = "<profile>") -> Profile:
         fields["reply_fields"] = count
 
     connection = data.get("connection", {})
-    _check_keys(connection, _CONNECTION_KEYS, "[connection]", path)
+    check_keys(connection, _CONNECTION_KEYS, "[connection]", path)
     for key in ("read_termination", "write_termination"):
         if key in connection:
             if not isinstance(connection[key], str):
@@ -184,7 +172,7 @@ def parse_profile(text: str, path: str | Path = "<profile>") -> Profile:
             fields[key] = value
 
     spacing = data.get("spacing", {})
-    _check_keys(spacing, _SPACING_KEYS, "[spacing]", path)
+    check_keys(spacing, _SPACING_KEYS, "[spacing]", path)
     for key in _SPACING_KEYS & set(spacing):
         fields[f"spacing_{key}"] = _string(spacing[key], key, path)
     return Profile(**fields)

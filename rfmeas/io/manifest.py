@@ -3,12 +3,12 @@
 from __future__ import annotations
 
 import math
-import tomllib
 from pathlib import Path
 
 import numpy as np
 
 from ..errors import InputError
+from .strict import check_keys, read_toml
 from ..sweep import WINDINGS, DesignTarget, MeasurementSet, Sweep, other_winding
 
 _TOP_KEYS = {"transformer", "core", "design", "sweep"}
@@ -19,7 +19,6 @@ _DESIGN_KEYS = {
 }
 _SWEEP_KEYS = {"file", "port1", "port2", "termination", "label", "method", "fixture"}
 
-MAX_MANIFEST_BYTES = 1_000_000
 
 
 def _number(table: dict, key: str, where: str, path, positive=True, integer=False):
@@ -31,14 +30,6 @@ def _number(table: dict, key: str, where: str, path, positive=True, integer=Fals
     if not math.isfinite(float(value)) or (positive and value <= 0):
         raise InputError(f"{where}.{key} must be a positive number, not {value!r}", path)
     return int(value) if integer else float(value)
-
-
-def _check_keys(table, allowed: set, where: str, path):
-    if not isinstance(table, dict):
-        raise InputError(f"[{where}] must be a table", path)
-    for key in table:
-        if key not in allowed:
-            raise InputError(f"unknown key '{key}' in [{where}] (allowed: {', '.join(sorted(allowed))})", path)
 
 
 def parse_termination(value, where: str, path) -> str | float:
@@ -142,27 +133,13 @@ def load_manifest(path: str | Path) -> MeasurementSet:
         if not candidate.is_file():
             raise InputError("is a folder without a manifest.toml", path)
         path = candidate
-    try:
-        if path.stat().st_size > MAX_MANIFEST_BYTES:
-            raise InputError("too large for a manifest (over 1 MB)", path)
-        raw = path.read_bytes()
-    except FileNotFoundError:
-        raise InputError("no such file", path) from None
-    except (OSError, ValueError) as exc:  # ValueError: a NUL in the name
-        raise InputError(f"cannot read: {getattr(exc, 'strerror', None) or exc}", path) from None
-    try:
-        text = raw.decode("utf-8")
-        doc = tomllib.loads(text)
-    except UnicodeDecodeError:
-        raise InputError("not a text file (manifests are UTF-8 TOML)", path) from None
-    except tomllib.TOMLDecodeError as exc:
-        raise InputError(f"not valid TOML: {exc}", path) from None
+    text, doc = read_toml(path, "manifest")
     for key in doc:
         if key not in _TOP_KEYS:
             raise InputError(f"unknown key '{key}' (allowed tables: {', '.join(sorted(_TOP_KEYS))})", path)
 
     transformer = doc.get("transformer", {})
-    _check_keys(transformer, _TRANSFORMER_KEYS, "transformer", path)
+    check_keys(transformer, _TRANSFORMER_KEYS, "[transformer]", path)
     name = transformer.get("name", path.parent.name or path.stem)
     if not isinstance(name, str) or not name.strip():
         raise InputError("transformer.name must be a non-empty string", path)
@@ -186,7 +163,7 @@ def load_manifest(path: str | Path) -> MeasurementSet:
     design = None
     if "design" in doc:
         table = doc["design"]
-        _check_keys(table, _DESIGN_KEYS, "design", path)
+        check_keys(table, _DESIGN_KEYS, "[design]", path)
         values = {k: _number(table, k, "design", path) for k in table}
         lo, hi = values.get("lowest_frequency_Hz"), values.get("highest_frequency_Hz")
         if lo and hi and hi <= lo:
@@ -201,7 +178,7 @@ def load_manifest(path: str | Path) -> MeasurementSet:
     sweeps = []
     for i, entry in enumerate(entries, start=1):
         where = f"sweep {i}"
-        _check_keys(entry, _SWEEP_KEYS, where, path)
+        check_keys(entry, _SWEEP_KEYS, f"[{where}]", path)
         if "file" not in entry or not isinstance(entry["file"], str):
             raise InputError(f"{where} needs file = \"...\" (a Touchstone file relative to the manifest)", path)
         from ..methods import METHODS
