@@ -12,7 +12,7 @@ import math
 
 import numpy as np
 
-from .methods import impedance_from_reflection, impedance_from_s
+from .methods import impedance_from_reflection
 from .sweep import Sweep, other_winding
 
 
@@ -69,10 +69,7 @@ def estimate_start(sweeps: list[Sweep]) -> tuple[dict, int]:
         f = sweep.f_Hz
         z0 = sweep.z0_ohm[0]
         s = sweep.measured()
-        if sweep.is_through_method:
-            z = impedance_from_s(sweep.method, s[:, 0], z0)
-        else:
-            z = impedance_from_reflection(s[:, 0], z0)
+        z = impedance_from_reflection(s[:, 0], z0) if sweep.is_two_port else sweep.impedance_ohm()
         side = "1" if sweep.port1 == "primary" else "2"
         if sweep.is_two_port:
             s21 = s[:, 1]

@@ -19,7 +19,7 @@ import numpy as np
 
 from .errors import FitError, InputError
 from .fit import BOUNDS
-from .fit_start import impedance_from_reflection, inductance_at_low_frequency
+from .fit_start import inductance_at_low_frequency
 from .results import FitResult
 from .sweep import MeasurementSet, Sweep
 
@@ -132,7 +132,7 @@ def _check_one(sweep: Sweep) -> tuple[list[str], bool]:
                      f"{magnitude.max():.3g}), which a passive device cannot do: check the calibration")
     if sweep.is_two_port:
         return notes + _two_port_notes(s), not _dead_transmission(s)
-    s11 = s[:, 0]
+    s11 = sweep.equivalent_reflection()
     if _near(s11, -1.0):
         if sweep.termination == "short":
             return ["looks like a dead short over the whole sweep: no leakage inductance shows; sweep "
@@ -144,7 +144,7 @@ def _check_one(sweep: Sweep) -> tuple[list[str], bool]:
         return [f"looks like a {sweep.z0_ohm[0]:g} Ω load, not a winding (S11 ≈ 0 over the whole sweep): "
                 "is the transformer on port 1, and is the other winding really "
                 f"{'open' if sweep.termination == 'open' else 'shorted'}?"] + notes, False
-    z_ohm = impedance_from_reflection(s11, sweep.z0_ohm[0])
+    z_ohm = sweep.impedance_ohm()
     if np.mean(np.imag(z_ohm) < 0) >= CAPACITIVE_FRACTION:
         return [f"the winding is capacitive over the whole sweep ({f_Hz[0]:.3g}–{f_Hz[-1]:.3g} Hz): the "
                 "sweep starts above its self-resonance, so its inductance cannot show; start the sweep "
@@ -220,7 +220,7 @@ def _usable_inductances(sweeps, winding: str, termination: str) -> list[tuple[Sw
             continue
         if not _check_one(s)[1]:
             continue
-        z_ohm = impedance_from_reflection(s.measured()[:, 0], s.z0_ohm[0])
+        z_ohm = s.impedance_ohm()
         l_H = inductance_at_low_frequency(s.f_Hz, z_ohm)
         if l_H is not None:
             out.append((s, l_H))
@@ -344,15 +344,14 @@ METHOD_ADVICE_GAIN = 3.0
 
 def method_warnings(measurement: MeasurementSet) -> list[str]:
     """For each one-port reflection sweep: a sentence when a two-port method would measure it better."""
-    from .methods import impedance_from_reflection, method_advice
+    from .methods import method_advice
 
     out = []
     for sweep in measurement.sweeps:
         if sweep.is_two_port or sweep.is_through_method:
             continue
-        z = impedance_from_reflection(sweep.measured()[:, 0], sweep.z0_ohm[0])
         try:
-            advice = method_advice(z, sweep.z0_ohm[0])
+            advice = method_advice(sweep.impedance_ohm(), sweep.z0_ohm[0])
         except InputError:
             continue
         if advice.best != "reflection" and advice.gain_over_reflection >= METHOD_ADVICE_GAIN:

@@ -77,6 +77,28 @@ class Sweep:
         index = {"S11": (0, 0), "S21": (1, 0), "S12": (0, 1), "S22": (1, 1)}
         return np.stack([s[:, index[e][0], index[e][1]] for e in self.elements], axis=1)
 
+    def impedance_ohm(self, values=None) -> np.ndarray:
+        """The winding's impedance from a one-port sweep's measured (or given) S element.
+
+        Reflection sweeps convert S11, two-port method sweeps their S21, each by the
+        method's own formula (rfmeas.methods). `values` defaults to the measurement.
+        """
+        from .methods import impedance_from_s
+
+        if self.is_two_port:
+            raise ValueError("a two-port sweep of both windings has no single winding impedance")
+        s = self.measured()[:, 0] if values is None else np.asarray(values)
+        return impedance_from_s(self.method, s, self.z0_ohm[0])
+
+    def equivalent_reflection(self, values=None) -> np.ndarray:
+        """S11 a reflection sweep of the same winding would have read (for reflection sweeps, S11)."""
+        if not self.is_through_method:
+            return self.measured()[:, 0] if values is None else np.asarray(values)
+        z = self.impedance_ohm(values)
+        z0 = self.z0_ohm[0]
+        with np.errstate(invalid="ignore", divide="ignore"):
+            return np.where(np.isinf(z), 1.0 + 0j, (z - z0) / (z + z0))
+
     def describe(self) -> str:
         """'primary on port 1, secondary open' in plain words."""
         if self.is_two_port:

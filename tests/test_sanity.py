@@ -21,7 +21,8 @@ from reference import OnePort, four_sweeps
 from reference.skrf_circuit import simulate_skrf
 from rfmeas.analysis import analyze, analyze_manifest
 from rfmeas.errors import FitError
-from rfmeas.fit_start import first_resonance_Hz, impedance_from_reflection
+from rfmeas.fit_start import first_resonance_Hz
+from rfmeas.methods import impedance_from_reflection
 from rfmeas.io.touchstone import write_touchstone
 from rfmeas.model import TransformerParams
 from rfmeas.sanity import NOT_A_TRANSFORMER, check_fit, check_sweeps

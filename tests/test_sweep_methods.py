@@ -128,3 +128,27 @@ def test_method_and_fixture_misuse_is_refused(tmp_path):
         with pytest.raises(InputError, match=message) as info:
             analyze_manifest(_manifest(tmp_path, [entry]))
         assert "manifest.toml" in str(info.value)
+
+
+def test_a_shorted_winding_measured_series_through_is_not_taken_for_an_open_lead(tmp_path):
+    """Series-through S21 of a few-ohm winding is close to 1, which as an S11 would read 'open':
+    the checks and the plots convert each method's S parameter to the winding impedance first."""
+    from rfmeas.model import input_impedance
+    from rfmeas.plots.sweeps import plot_sweep
+    from rfmeas.plots.style import close
+
+    f = np.logspace(5, 8, 201)
+    freq = rf.Frequency.from_f(f, unit="Hz")
+    z = input_impedance(TRUE, f, "primary", "short")
+    element = Circuit.SeriesImpedance(freq, Z=z, name="winding", z0=50)
+    _write(tmp_path, "pri_short.s2p", f, add_vna_noise(element.s, 1e-4, np.random.default_rng(13)))
+    gamma = simulate_skrf(TRUE, f, OnePort("primary", "open"))
+    _write(tmp_path, "pri_open.s1p", f, add_vna_noise(gamma, 1e-3, np.random.default_rng(14)))
+    analysis = analyze_manifest(_manifest(tmp_path, [
+        {"file": "pri_open.s1p", "port1": "primary", "termination": "open"},
+        {"file": "pri_short.s2p", "port1": "primary", "termination": "short", "method": "series-through"}]))
+    assert not any("open circuit" in w or "left out" in w for w in analysis.warnings)
+    fig = plot_sweep(analysis, 1)
+    drawn = [line for line in fig.axes[0].lines if (line.get_gid() or "").startswith("data")]
+    np.testing.assert_allclose(drawn[0].get_ydata(), np.abs(z), rtol=0.15)  # 1e-4 noise on 0.2 Ω
+    close(fig)

@@ -5,7 +5,7 @@ from __future__ import annotations
 import numpy as np
 
 from . import style
-from .sweeps import impedance_from_reflection, model_sweeps
+from .sweeps import model_sweeps
 
 
 def matched_sweeps(before, after) -> list[tuple[int, int]]:
@@ -17,7 +17,7 @@ def matched_sweeps(before, after) -> list[tuple[int, int]]:
 def _curve(sweep, values):
     """What a panel shows for one sweep: |Z| for a one-port sweep, |S21| (else |S11|) in dB."""
     if not sweep.is_two_port:
-        return np.abs(impedance_from_reflection(values[:, 0], sweep.z0_ohm[0]))
+        return np.abs(sweep.impedance_ohm(values[:, 0]))
     j = sweep.elements.index("S21") if "S21" in sweep.elements else 0
     with np.errstate(divide="ignore"):
         return 20 * np.log10(np.abs(values[:, j]))

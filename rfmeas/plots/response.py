@@ -20,7 +20,7 @@ import math
 import numpy as np
 
 from . import style
-from .sweeps import impedance_from_reflection, model_sweeps
+from .sweeps import model_sweeps
 
 RESPONSE_POINTS = 600
 
@@ -140,9 +140,8 @@ def core_spectra(analysis, model=None):
     model = (model_sweeps(analysis) if model is None else model)[index][:, 0]
     turns = ms.primary_turns if sweep.port1 == "primary" else ms.secondary_turns
     f = sweep.f_Hz
-    z0 = sweep.z0_ohm[0]
-    z_data = impedance_from_reflection(sweep.measured()[:, 0], z0)
-    z_model = impedance_from_reflection(model, z0)
+    z_data = sweep.impedance_ohm()
+    z_model = sweep.impedance_ohm(model)
     keep = f <= 0.5 * _first_resonance(f, z_model)
     f, z_data, z_model = f[keep], z_data[keep], z_model[keep]
     w = 2 * np.pi * f

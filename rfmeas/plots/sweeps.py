@@ -22,12 +22,6 @@ def model_sweeps(analysis) -> list[np.ndarray]:
     return [m[0] for m in problem.predict(np.array([params.values()], dtype=float))]
 
 
-def impedance_from_reflection(s11, z0_ohm: float) -> np.ndarray:
-    """Z = Z0·(1 + Γ)/(1 − Γ) (a perfect open gives inf, not an error)."""
-    with np.errstate(divide="ignore", invalid="ignore"):
-        return z0_ohm * (1.0 + s11) / (1.0 - s11)
-
-
 def sweep_title(sweep) -> str:
     return f"{sweep.label}: {sweep.describe()}"
 
@@ -48,7 +42,7 @@ def plot_sweep(analysis, index: int, model=None, path=None):
     if sweep.is_two_port:
         _plot_s_elements(top, phase, f, sweep.elements, measured, model)
     else:
-        _plot_impedance(top, phase, f, sweep.z0_ohm[0], measured[:, 0], model[:, 0])
+        _plot_impedance(top, phase, f, sweep, measured[:, 0], model[:, 0])
     for j, element in enumerate(sweep.elements):
         data_colour, _m, marker, _ls = style.pair(j)
         line, = resid.plot(f, np.abs(model[:, j] - measured[:, j]), color=data_colour,
@@ -72,9 +66,9 @@ def plot_sweep(analysis, index: int, model=None, path=None):
     return fig
 
 
-def _plot_impedance(top, phase, f, z0_ohm, s_data, s_model):
-    z_data = impedance_from_reflection(s_data, z0_ohm)
-    z_model = impedance_from_reflection(s_model, z0_ohm)
+def _plot_impedance(top, phase, f, sweep, s_data, s_model):
+    z_data = sweep.impedance_ohm(s_data)
+    z_model = sweep.impedance_ohm(s_model)
     data_colour, model_colour, marker, ls = style.pair(0)
     for ax, fn, unit in ((top, np.abs, "Ω"), (phase, lambda z: np.degrees(np.angle(z)), "°")):
         d, = ax.plot(f, fn(z_data), color=data_colour, **dict(style.DATA_STYLE, marker=marker),
