@@ -8,6 +8,8 @@ import subprocess
 
 import numpy as np
 import pytest
+
+from reference.spice import read_rawfile
 import skrf as rf
 
 from rfmeas.errors import InputError
@@ -38,34 +40,6 @@ RE p2 0 50
 """
 
 
-def read_binary_raw(path) -> dict[str, np.ndarray]:
-    """Vectors of the first plot of an ngspice binary rawfile (complex AC data), by lower-case name."""
-    data = path.read_bytes()
-    marker = b"Binary:\n"
-    head, _, body = data.partition(marker)
-    lines = head.decode("ascii", errors="replace").splitlines()
-    n_vars = n_points = None
-    names: list[str] = []
-    complex_data = False
-    for i, line in enumerate(lines):
-        key, _, value = line.partition(":")
-        if key == "Flags":
-            complex_data = "complex" in value
-        elif key == "No. Variables":
-            n_vars = int(value)
-        elif key == "No. Points":
-            n_points = int(value)
-        elif key == "Variables":
-            names = [lines[i + 1 + j].split()[1].lower() for j in range(n_vars)]
-            break
-    if not complex_data:
-        raise AssertionError("expected complex AC data in the rawfile")
-    values = np.frombuffer(body, dtype="<f8", count=n_points * n_vars * 2)
-    values = values.reshape(n_points, n_vars, 2)
-    cvals = values[..., 0] + 1j * values[..., 1]
-    return {name: cvals[:, j] for j, name in enumerate(names)}
-
-
 def simulate(params, tmp_path, form="auto"):
     netlist = BENCH.format(sub=spice_subcircuit(params, name="XFMR", form=form), name="XFMR")
     cir = tmp_path / "bench.cir"
@@ -74,7 +48,7 @@ def simulate(params, tmp_path, form="auto"):
     done = subprocess.run(["ngspice", "-b", "-r", str(raw), str(cir)], capture_output=True,
                           text=True, timeout=60)
     assert done.returncode == 0, done.stdout + done.stderr
-    vec = read_binary_raw(raw)
+    vec = read_rawfile(raw.read_bytes(), str(raw))[0]  # the reference package's rawfile reader
     f = vec["frequency"].real
     s = np.empty((f.size, 2, 2), complex)
     s[:, 0, 0] = vec["v(p1)"] - 1.0
