@@ -236,15 +236,12 @@ def _covariance(jac: np.ndarray, residual_variance: float) -> np.ndarray:
     return cov * residual_variance
 
 
-def fit_sweeps(sweeps: list[Sweep], start: TransformerParams | None = None) -> FitOutcome:
+def fit_sweeps(sweeps: list[Sweep]) -> FitOutcome:
     """Fit the equivalent circuit to all `sweeps` at once."""
     t0 = time.perf_counter()
     if not sweeps:
         raise FitError("no sweeps to fit")
     start_values, polarity = estimate_start(sweeps)
-    if start is not None:
-        start_values = {n: getattr(start, n) for n in PARAMETER_NAMES}
-        polarity = start.polarity
     problem = SweepProblem(sweeps, polarity)
     stride = max(1, min(s.f_Hz.size for s in sweeps) // COARSE_POINTS)
     coarse = SweepProblem(sweeps, polarity, stride) if stride > 1 else problem

@@ -96,6 +96,7 @@ class Estimate:
         d = {"value": self.value, "stderr": self.stderr, "determined": self.determined}
         if not self.determined:
             d["held_at"] = self.held_at
+        if self.note:
             d["note"] = self.note
         return d
 
@@ -196,11 +197,12 @@ def build_estimates(outcome: FitOutcome) -> dict:
             out[key] = Estimate(None, None, False, held_at, note)
             continue
         value = _derived_value(name, values)
+        note = outcome.referred.get(name, "")
         g = _gradient(lambda x: _derived_value(name, vals_from_x(x)), outcome.x.copy())
         with np.errstate(invalid="ignore"):  # nan where the data leave a direction unseen
             var = float(g @ cov @ g) if cov is not None else math.nan
         stderr = math.sqrt(var) if math.isfinite(var) and var >= 0 else None
-        out[key] = Estimate(float(value), stderr)
+        out[key] = Estimate(float(value), stderr, note=note)
     return out
 
 

@@ -30,7 +30,7 @@ def parameter_table(analysis):
             value_text = format_with_error(est.value, est.stderr, unit)
         else:
             value_text = (f"{est.value:.5g} ± {est.stderr:.2g}" if est.stderr else f"{est.value:.5g}")
-        table.add_row(LABELS[key], value_text, rel_text, "")
+        table.add_row(LABELS[key], value_text, rel_text, escape(est.note))
     return table
 
 

@@ -8,9 +8,9 @@ import subprocess
 
 import numpy as np
 import pytest
+import skrf as rf
 
 from reference.spice import read_rawfile
-import skrf as rf
 
 from rfmeas.errors import InputError
 from rfmeas.export import model_touchstone_network, spice_subcircuit

@@ -159,3 +159,16 @@ def test_wrong_termination_in_the_manifest_is_flagged():
     clean["pri_open"], clean["pri_short"] = clean["pri_short"], clean["pri_open"]
     analysis = analyze(simulated_set(TRUE, F_HZ, clean=clean, rng=np.random.default_rng(9)))
     assert any("misses this sweep" in w for w in analysis.fit.warnings)
+
+
+def test_an_unseen_winding_reports_its_resistance_and_capacitance_as_referred():
+    """Primary open and shorted only: no sweep sees L2, so R2 and C2 are fitted as referred values."""
+    sweeps = {"pri_open": OnePort("primary", "open", 50.0), "pri_short": OnePort("primary", "short", 50.0)}
+    analysis = analyze(simulated_set(TRUE, F_HZ, sweeps=sweeps, rng=np.random.default_rng(10)))
+    params = analysis.to_dict()["parameters"]
+    c2 = params["secondary_capacitance_F"]
+    assert c2["determined"] is True and "referred to the primary" in c2["note"]
+    # referred, C2 stands for about n²·C2 (54 pF here) plus what C12 adds: well above C2 itself
+    assert c2["value"] > 5 * TRUE.C2_F
+    assert params["secondary_inductance_H"]["determined"] is False
+    assert "note" not in params["primary_capacitance_F"]

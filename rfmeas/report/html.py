@@ -81,7 +81,7 @@ def parameter_rows(analysis) -> list[dict]:
         rel_text = "" if rel is None else (f"{rel * 100:.2g} %" if rel < 10 else "≫100 %")
         value = format_number(est.value, unit, bool(unit), est.stderr)
         rows.append({"label": LABELS.get(key, key), "key": key, "value": value, "relative": rel_text,
-                     "note": "", "determined": True})
+                     "note": est.note, "determined": True})
     return rows
 
 
