@@ -33,6 +33,11 @@ class Analysis:
         return bool(self.design_check.get("passed"))
 
     @property
+    def all_warnings(self) -> list[str]:
+        """The fit's own warnings, then those of the checks and figures."""
+        return list(self.fit.warnings) + list(self.warnings)
+
+    @property
     def sources(self) -> list[tuple[str, bytes]]:
         return (self.recorded or self.measurement).sources()
 
@@ -46,7 +51,7 @@ class Analysis:
             "fit": fit["fit"],
             "model": fit["model"],
             "measurement": (self.recorded or self.measurement).to_dict(),
-            "warnings": list(self.fit.warnings) + list(self.warnings),
+            "warnings": self.all_warnings,
             "advice": list(self.advice),
             "software": {"name": "rfmeas", "version": __version__},
         }

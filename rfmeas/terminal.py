@@ -70,7 +70,7 @@ def render_analysis(analysis, console) -> None:
     state = "[green]converged[/]" if fit.converged else "[red]did not converge[/]"
     console.print(f"fit {state} in {fit.elapsed_s * 1000:.0f} ms; rms misfit {fit.rms_residual:.2g}, "
                   f"weighted residual variance {fit.residual_variance:.3g} (≈ 1: down to the noise)")
-    warnings = list(fit.warnings) + list(analysis.warnings)
+    warnings = analysis.all_warnings
     for title, lines in (("[bold yellow]warnings[/]", warnings), ("[bold]advice[/]", analysis.advice)):
         if lines:
             console.print()

@@ -214,7 +214,7 @@ def report_context(analysis, plots, generated: str | None = None) -> dict:
         "figures": [{"label": label, "value": value, "note": note}
                     for label, value, note in figure_rows(analysis)],
         "design": design_rows(analysis),
-        "warnings": list(fit.warnings) + list(analysis.warnings),
+        "warnings": analysis.all_warnings,
         "advice": list(analysis.advice),
         "plots": embedded,
         "sweeps": sweep_rows(analysis),
