@@ -62,12 +62,11 @@ def analyze(measurement: MeasurementSet) -> Analysis:
     from .figures import compute_figures
     from .fit import fit_sweeps
     from .results import build_result
-    from .sanity import check_fit, check_sweeps, method_warnings, unusable_sweeps
+    from .sanity import check_fit, method_warnings, review_sweeps
 
-    pre = check_sweeps(measurement)  # raises FitError when no sweep is usable
+    pre, unusable = review_sweeps(measurement)  # raises FitError when no sweep is usable
     advice = method_warnings(measurement)
     recorded = measurement
-    unusable = set(unusable_sweeps(measurement))
     if unusable:
         # a sweep that cannot be a winding would drag every parameter with it: fit the others
         measurement = replace(measurement, sweeps=tuple(s for s in measurement.sweeps

@@ -92,8 +92,9 @@ outside the core (common practice); beyond 15 % the turn counts or the sweep lab
 # --------------------------------------------------------------------------- before the fit
 
 
-def check_sweeps(measurement: MeasurementSet) -> list[str]:
-    """Warnings about sweeps that do not look like what the manifest says; FitError if none is usable."""
+def review_sweeps(measurement: MeasurementSet) -> tuple[list[str], list[str]]:
+    """(warnings about sweeps that do not look like what the manifest says, labels of the sweeps
+    no fit can use); FitError if none is usable."""
     warnings: list[str] = []
     unusable: dict[str, list[str]] = {}   # reason -> labels of the sweeps it makes unusable
     for sweep in measurement.sweeps:
@@ -102,16 +103,17 @@ def check_sweeps(measurement: MeasurementSet) -> list[str]:
         if not usable:
             unusable.setdefault(notes[0], []).append(sweep.label)
     warnings.extend(_check_open_short_pairs(measurement.sweeps))
-    if measurement.sweeps and sum(map(len, unusable.values())) == len(measurement.sweeps):
+    labels = [label for group in unusable.values() for label in group]
+    if measurement.sweeps and len(labels) == len(measurement.sweeps):
         path = measurement.manifest_path or measurement.sweeps[0].path
-        reasons = "; ".join(f"{', '.join(labels)}: {reason}" for reason, labels in unusable.items())
+        reasons = "; ".join(f"{', '.join(group)}: {reason}" for reason, group in unusable.items())
         raise FitError(f"{NOT_A_TRANSFORMER}: {reasons}", path=path)
-    return warnings
+    return warnings, labels
 
 
-def unusable_sweeps(measurement: MeasurementSet) -> list[str]:
-    """Labels of the sweeps `check_sweeps` finds no fit can use (for the checks after the fit)."""
-    return [s.label for s in measurement.sweeps if not _check_one(s)[1]]
+def check_sweeps(measurement: MeasurementSet) -> list[str]:
+    """The warnings of `review_sweeps`."""
+    return review_sweeps(measurement)[0]
 
 
 def _check_one(sweep: Sweep) -> tuple[list[str], bool]:
@@ -231,13 +233,14 @@ def _usable_inductances(sweeps, winding: str, termination: str) -> list[tuple[Sw
 
 
 def check_fit(measurement: MeasurementSet, result: FitResult) -> list[str]:
-    """Warnings about a fit that should not be believed as it stands, naming the suspect sweep."""
+    """Warnings about a fit that should not be believed as it stands, naming the suspect sweep.
+
+    `measurement` holds the sweeps that were fitted (analyze leaves out unusable ones).
+    """
     warnings = []
     warnings.extend(_convergence(result))
     warnings.extend(_missed_sweeps(result))
-    if not unusable_sweeps(measurement):
-        # a sweep already named before the fit distorts it; the others' residuals then mislead
-        warnings.extend(_residual_outliers(result))
+    warnings.extend(_residual_outliers(result))  # sweeps found unusable were left out of this fit
     warnings.extend(_edges(result))
     warnings.extend(_turns_ratio(measurement, result))
     return warnings
