@@ -21,6 +21,10 @@ DIFFERENCE_ORDERS = (2, 3, 4, 5)
 """Difference orders tried; the smallest normalised estimate wins."""
 MIN_DIFFERENCES = 8
 """Fewer differences than this give no usable estimate (NaN)."""
+SYSTEMATIC_FLOOR = 3e-4
+"""S units per component: what a careful calibration of a small VNA leaves beside the
+trace noise (about −70 dB; from memory). Added in quadrature to the data's own noise, so
+a noise-free simulated sweep is not held to a precision no instrument reaches."""
 _MAD_TO_SIGMA = 1.482602218505602  # 1/Φ⁻¹(3/4): MAD of a normal variable → its σ
 
 
@@ -49,3 +53,13 @@ def sweep_noise_sigma(measured: np.ndarray) -> np.ndarray:
     if m.ndim == 1:
         m = m[:, None]
     return np.array([trace_noise_sigma(m[:, e]) for e in range(m.shape[1])])
+
+
+def error_sigma(measured: np.ndarray) -> np.ndarray:
+    """The error model of a sweep, per S element: data noise and the systematic floor in quadrature.
+
+    This, never the fit's own residuals, is what a fit is weighted by and judged against.
+    """
+    noise = sweep_noise_sigma(measured)
+    noise = np.where(np.isfinite(noise), noise, 0.0)
+    return np.sqrt(noise**2 + SYSTEMATIC_FLOOR**2)

@@ -28,6 +28,8 @@ class Sweep:
                  (S11 at port 1), or "series-through" / "shunt-through" (the
                  winding as the series or shunt element between two ports, S21)
     fixture      the test jig the sweep was compensated for, if any
+    partial      the file is marked as an incomplete (interrupted) sweep: its
+                 data may be used, but no design verdict may rest on it
     """
 
     network: Any
@@ -42,6 +44,7 @@ class Sweep:
     sha256: str | None = None
     method: str = "reflection"
     fixture: str | None = None
+    partial: bool = False
 
     @property
     def f_Hz(self) -> np.ndarray:

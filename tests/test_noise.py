@@ -39,3 +39,13 @@ def test_short_trace_has_no_estimate_and_shape_per_element():
     assert np.isnan(trace_noise_sigma(np.ones(5, complex)))
     out = sweep_noise_sigma(np.ones((100, 2), complex))
     assert out.shape == (2,)
+
+
+def test_error_model_never_below_the_systematic_floor():
+    from rfmeas.noise import SYSTEMATIC_FLOOR, error_sigma
+
+    quiet = np.exp(1j * np.linspace(0, 1, 200))[:, None]
+    assert error_sigma(quiet)[0] == pytest.approx(SYSTEMATIC_FLOOR, rel=1e-3)
+    rng = np.random.default_rng(5)
+    noisy = quiet + 3e-3 * (rng.standard_normal((200, 1)) + 1j * rng.standard_normal((200, 1)))
+    assert error_sigma(noisy)[0] == pytest.approx(np.hypot(3e-3, SYSTEMATIC_FLOOR), rel=0.25)
