@@ -184,14 +184,10 @@ def parse_materials(text: str, path, origin: str) -> tuple[list[MaterialClass], 
 
 
 def _read(path: Path) -> str:
-    try:
-        return path.read_text(encoding="utf-8")
-    except FileNotFoundError:
-        raise InputError("material table not found", path) from None
-    except UnicodeDecodeError:
-        raise InputError("not a UTF-8 text file", path) from None
-    except OSError as exc:
-        raise InputError(f"cannot read: {exc.strerror or exc}", path) from None
+    from .io.files import read_regular_file
+    from .io.strict import decode_text
+
+    return decode_text(read_regular_file(path, "material table"), path, "material table")
 
 
 def load_materials(extra_file=None, use_environment: bool = True) -> MaterialTable:
