@@ -2,7 +2,7 @@
 
 from __future__ import annotations
 
-from rich.markup import escape
+from .usertext import markup as escape  # user text verbatim: control characters visible, no markup
 
 from .results import LABELS, PARAMETER_KEYS
 from .units import format_engineering, format_with_error

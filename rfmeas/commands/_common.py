@@ -3,7 +3,9 @@
 from __future__ import annotations
 
 import functools
+import logging
 import sys
+import warnings
 
 import typer
 
@@ -25,20 +27,36 @@ def stdout_console():
 
 
 def report_error(message: str) -> None:
-    """One line on stderr: 'error: <file>: <problem>'."""
-    stderr_console().print(f"[bold red]error:[/] {message}", markup=True) if sys.stderr.isatty() \
-        else print(f"error: {message}", file=sys.stderr)
+    """One line on stderr: 'error: <file>: <problem>', the message verbatim (never read as markup,
+    control characters shown as visible escapes: rfmeas.usertext)."""
+    from ..usertext import plain
+
+    if sys.stderr.isatty():
+        from rich.text import Text
+
+        stderr_console().print(Text.assemble(("error:", "bold red"), " " + plain(message)))
+    else:
+        print(f"error: {plain(message)}", file=sys.stderr)
+
+
+def log_warning(message, category, filename, lineno, file=None, line=None) -> None:
+    """`warnings.showwarning` for the CLI: a library's warning (numpy's RuntimeWarning on an overflow,
+    scikit-rf's notices) goes to the log, shown with --debug, never to a user's terminal."""
+    logging.getLogger("rfmeas.warnings").debug("%s:%s: %s: %s", filename, lineno, category.__name__, message)
 
 
 def handles_errors(func):
-    """Turn a project error into one stderr line and its exit code; hide tracebacks unless --debug."""
+    """Turn a project error into one stderr line and its exit code; hide tracebacks unless --debug.
+    Python warnings raised meanwhile go to the log (`log_warning`)."""
 
     @functools.wraps(func)
     def wrapper(*args, **kwargs):
         from ..cli import DEBUG
 
         try:
-            return func(*args, **kwargs)
+            with warnings.catch_warnings():
+                warnings.showwarning = log_warning
+                return func(*args, **kwargs)
         except RfmeasError as exc:
             if DEBUG["enabled"]:
                 raise

@@ -3,12 +3,14 @@
 from __future__ import annotations
 
 import math
+import re
 from pathlib import Path
 
 import numpy as np
 
 from ..errors import InputError
 from ..limits import check_range
+from ..usertext import plain
 from .strict import check_keys, read_toml
 from ..sweep import (WINDINGS, DesignTarget, MeasurementSet, Sweep, check_sweep_count, other_winding,
                      refuse_repeated_sweeps, thin_for_fit)
@@ -121,6 +123,16 @@ def _compensate(network, fixture_path: Path):
     return compensated, fixture.name
 
 
+_CONTROL = re.compile(r"[\x00-\x1f\x7f-\x9f]")
+
+
+def _refuse_control_characters(text: str, key: str, path, allowed: str = "") -> None:
+    """Names end up on terminals, in reports and in the history: no escape sequences in them."""
+    bad = [c for c in _CONTROL.findall(text) if c not in allowed]
+    if bad:
+        raise InputError(f"{key} holds a control character ({plain(bad[0])}); use plain text", path)
+
+
 def _winding(value, key, where, path) -> str:
     if value not in WINDINGS:
         raise InputError(f"{where}.{key} must be 'primary' or 'secondary', not {value!r}", path)
@@ -145,6 +157,7 @@ def load_manifest(path: str | Path) -> MeasurementSet:
     name = transformer.get("name", path.parent.name or path.stem)
     if not isinstance(name, str) or not name.strip():
         raise InputError("transformer.name must be a non-empty string", path)
+    _refuse_control_characters(name, "transformer.name", path)
     turns = {}
     for key in ("primary_turns", "secondary_turns"):
         if key in transformer:
@@ -153,6 +166,7 @@ def load_manifest(path: str | Path) -> MeasurementSet:
     notes = transformer.get("notes", "")
     if not isinstance(notes, str):
         raise InputError("transformer.notes must be a string", path)
+    _refuse_control_characters(notes, "transformer.notes", path, allowed="\n\t")
 
     core = doc.get("core")
     if core is not None:
@@ -212,6 +226,7 @@ def load_manifest(path: str | Path) -> MeasurementSet:
         label = entry.get("label")
         if label is not None and not isinstance(label, str):
             raise InputError(f"{where}.label must be a string", path)
+        _refuse_control_characters(label or "", f"{where}.label", path)
         file_path = (path.parent / entry["file"])
         sweep = load_sweep(file_path, port1, termination, port2, label or entry["file"], where, path,
                            method, fixture_path)
