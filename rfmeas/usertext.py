@@ -36,6 +36,12 @@ def plain(text) -> str:
     return _CONTROL.sub(_escape_control, text.replace("\n", "\\n").replace("\t", "\\t"))
 
 
+def visible_lines(text) -> str:
+    """Like `plain`, but newlines and tabs kept: for whole blocks of output, not single names."""
+    text = _SURROGATE.sub(_escape_surrogate, str(text))
+    return _CONTROL.sub(lambda m: m.group() if m.group() in "\n\t" else _escape_control(m), text)
+
+
 def markup(text) -> str:
     """`plain(text)` with rich markup escaped, for an f-string printed by a rich console."""
     from rich.markup import escape
