@@ -20,6 +20,8 @@ from hypothesis import strategies as st
 from typer.testing import CliRunner
 
 from rfmeas.cli import app
+from test_manifest_fuzz import toml_string  # control characters as \u escapes; a lone surrogate
+# stays in and makes the manifest invalid UTF-8: that is a hostile input too
 
 ROOT = Path(__file__).resolve().parents[1]
 SAMPLE = ROOT / "sample_data" / "coupler-after"
@@ -41,20 +43,6 @@ def _fs_name(name: str, suffix: str) -> str:
     while len(os.fsencode(stem + suffix)) > 200:
         stem = stem[:-1]
     return stem + suffix
-
-
-def _toml_string(text: str) -> str:
-    """A TOML basic string for `text` (control characters as \\u escapes; what TOML cannot hold stays
-    in, so the manifest is refused: that is a hostile input too)."""
-    out = []
-    for ch in text:
-        if ch in '"\\':
-            out.append("\\" + ch)
-        elif ord(ch) < 0x20 or ord(ch) == 0x7F:
-            out.append(f"\\u{ord(ch):04x}")
-        else:
-            out.append(ch)
-    return '"' + "".join(out) + '"'
 
 
 def _run(*args):
@@ -86,8 +74,8 @@ def test_every_command_with_a_hostile_name(tmp_path_factory, name):
     sweep = unit / sweep_name
     (unit / "pri_open.s1p").rename(sweep)
     text = (unit / "manifest.toml").read_text(encoding="utf-8")
-    text = text.replace('name = "ladder-line coupler, unit 3"', f"name = {_toml_string(name)}")
-    text = text.replace('file = "pri_open.s1p"', f"file = {_toml_string(sweep_name)}\nlabel = {_toml_string(name)}")
+    text = text.replace('name = "ladder-line coupler, unit 3"', f"name = {toml_string(name)}")
+    text = text.replace('file = "pri_open.s1p"', f"file = {toml_string(sweep_name)}\nlabel = {toml_string(name)}")
     (unit / "manifest.toml").write_bytes(text.encode("utf-8", "surrogateescape"))
     out = base / "out"
     out.mkdir()

@@ -9,6 +9,7 @@ import shutil
 import signal
 import socket
 import sys
+import tempfile
 import warnings
 from contextlib import contextmanager
 from pathlib import Path
@@ -93,7 +94,7 @@ def test_a_fifo_as_any_toml_input_is_refused_without_blocking(tmp_path, what):
     args = {
         "manifest": ["analyze", fifo],
         "fixture": ["analyze", tmp_path / "manifest.toml"],
-        "profile": ["acquire", "-r", "sim", "-p", fifo, "-o", tmp_path / "out.s1p"],
+        "profile": ["acquire", "-r", "sim", "-p", "x", "-o", tmp_path / "out.s1p", "--profiles-dir", tmp_path],
         "materials": ["core", tmp_path / "pri.s1p", "--turns", "5", "--toroid", "12.7,7.1,4.9",
                       "--materials", fifo],
     }[what]
@@ -107,7 +108,8 @@ def test_a_fifo_as_any_toml_input_is_refused_without_blocking(tmp_path, what):
 
 
 def test_devices_sockets_and_folders_are_refused_before_opening(tmp_path):
-    sock_path = tmp_path / "s.s1p"
+    short = tempfile.TemporaryDirectory(dir="/tmp")  # a socket path must stay under 108 bytes
+    sock_path = Path(short.name) / "s.s1p"
     server = socket.socket(socket.AF_UNIX)
     server.bind(str(sock_path))
     try:
@@ -117,6 +119,7 @@ def test_devices_sockets_and_folders_are_refused_before_opening(tmp_path):
                 files.read_regular_file(path, "Touchstone file")
     finally:
         server.close()
+        short.cleanup()
 
 
 def test_a_file_swapped_for_a_fifo_after_the_check_does_not_block(tmp_path, monkeypatch):
