@@ -17,9 +17,12 @@ Statistics reported (per sweep and overall):
   component gives ratio ≈ sqrt(1 + a²);
 - misfit_ratio (overall): the same over every point of every sweep, pooled,
   sqrt(Σ_sweeps Σ_fe |r_fe|²/(2σ_e²) / Σ_sweeps F·E);
-- grade: good when the overall ratio ≤ GOOD_MISFIT_RATIO (2), marginal when
-  ≤ POOR_MISFIT_RATIO (5), poor above (or when the ratio is not a finite number);
-  a fit with a missed sweep is at least marginal. See the constants for why;
+- grade: of the larger of the overall ratio and the worst sweep's ratio, good
+  when ≤ GOOD_MISFIT_RATIO (2), marginal when ≤ POOR_MISFIT_RATIO (5), poor above
+  (or when a ratio is not a finite number). The worst sweep counts on its own: a
+  sweep of another unit, or a wrong connection, is missed by 7–11× while the other
+  three sweeps fit to their noise and the pooled ratio stays near 3. See the
+  constants for why these limits;
 - missed sweeps: misfit_ratio > POOR_MISFIT_RATIO, or > GOOD_MISFIT_RATIO and
   more than MISSED_SWEEP_FACTOR times the median ratio of the other sweeps;
 - worst_band: the tenth of a sweep's log-frequency span with the largest rms
@@ -381,9 +384,8 @@ def fit_quality(qualities, sizes) -> FitQuality:
     ratio = math.sqrt(total / count) if count else math.nan
     ratios = {q.label: q.misfit_ratio for q in qualities}
     missed_labels = missed_sweeps(ratios)
-    grade = grade_of(ratio)
-    if missed_labels and grade == "good":
-        grade = "marginal"
+    worst = max(ratios.values(), key=lambda r: r if math.isfinite(r) else math.inf, default=ratio)
+    grade = max(grade_of(ratio), grade_of(worst), key=GRADES.index)
     missed = tuple({"sweep": q.label, "misfit_ratio": q.misfit_ratio, "worst_band": dict(q.worst_misfit_band)}
                    for q in qualities if q.label in missed_labels)
     return FitQuality(grade, ratio, ratios, missed)
