@@ -426,7 +426,9 @@ def figure_rows(analysis) -> list[tuple[str, str, str]]:
     rows: list[tuple[str, str, str]] = []
 
     def row(label, fig, unit="", note=""):
-        note = "; ".join(n for n in (note or (fig or {}).get("note", ""), (fig or {}).get("stderr_note", "")) if n)
+        own = (fig or {}).get("note", "")
+        why = [own] if note and own.startswith("no standard error") else []  # said even beside another note
+        note = "; ".join(n for n in [note or own] + why + [(fig or {}).get("stderr_note", "")] if n)
         rows.append((label, _value_text(fig, unit), _plain_note(note, shared)))
 
     al = f.get("inductance_factor_nH_per_turn2", {})

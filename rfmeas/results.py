@@ -243,9 +243,18 @@ class FitResult:
             "quality": self.quality.to_dict(),
         }
 
+    def parameters_dict(self) -> dict:
+        """Every estimate's dict; when the fit is poor, each standard error is flagged as meaningless."""
+        out = {k: e.to_dict() for k, e in self.estimates.items()}
+        if not self.quality.stderr_describes_error:
+            for d in out.values():
+                if d["stderr"] is not None:
+                    d["stderr_describes_error"] = False
+        return out
+
     def to_dict(self) -> dict:
         return {
-            "parameters": {k: e.to_dict() for k, e in self.estimates.items()},
+            "parameters": self.parameters_dict(),
             "fit": self.fit_dict(),
             "warnings": list(self.warnings),
             "model": self.params.to_dict(),

@@ -24,7 +24,7 @@ import numpy as np
 from .errors import FitError, InputError
 from .fit import BOUNDS
 from .fit_start import inductance_at_low_frequency
-from .results import FitResult
+from .results import GOOD_MISFIT_RATIO, FitResult
 from .sweep import MeasurementSet, Sweep
 
 NOT_A_TRANSFORMER = "this does not look like a two-winding transformer"
@@ -325,9 +325,12 @@ def _residual_outliers(result: FitResult) -> list[str]:
         if q.rms_residual <= RESIDUAL_OUTLIER_FLOOR or q.rms_residual <= RESIDUAL_OUTLIER_FACTOR * typical:
             continue
         times = q.rms_residual / typical if typical > 0 else math.inf
-        if q.residual_correlation > SYSTEMATIC_CORRELATION:
+        # measured against its own noise, a sweep the model misses is suspect; one it fits is just noisy
+        if q.misfit_ratio > GOOD_MISFIT_RATIO or not math.isfinite(q.misfit_ratio):
+            pattern = ", following a pattern along frequency" if q.residual_correlation > SYSTEMATIC_CORRELATION \
+                else ""
             out.append(f"{q.label}: suspect sweep: the fit misses it {times:.0f} times worse than the others "
-                       f"({q.rms_residual:.3g} rms, following a pattern along frequency): it may be swapped "
+                       f"({q.rms_residual:.3g} rms{pattern}): it may be swapped "
                        "with another file or mislabelled in the manifest (port1, port2, termination)")
         else:
             out.append(f"{q.label}: {times:.0f} times noisier than the other sweeps ({q.rms_residual:.3g} rms): "

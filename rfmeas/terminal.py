@@ -59,7 +59,7 @@ def sweep_table(analysis):
     missed = {m["sweep"] for m in analysis.fit.quality.missed}
     for q, sweep in zip(analysis.fit.sweeps, analysis.measurement.sweeps):
         f = sweep.f_Hz
-        ratio = f"{q.misfit_ratio:.2g}" + (" [bold red]missed[/]" if q.label in missed else "")
+        ratio = f"{q.misfit_ratio:.3g}" + (" [bold red]missed[/]" if q.label in missed else "")
         table.add_row(escape(q.label), escape(q.description), str(q.points),
                       f"{format_engineering(f[0], 'Hz', 3)} – {format_engineering(f[-1], 'Hz', 3)}",
                       f"{q.rms_residual:.2g}", f"{q.data_noise:.2g}", ratio)

@@ -165,6 +165,7 @@ def test_a_sweep_from_another_transformer_is_graded_poor_and_named(wrong):
     data = wrong.to_dict()
     assert data["fit"]["quality"]["grade"] == "poor"
     assert data["fit"]["quality"]["stderr_describes_error"] is False
+    assert data["parameters"]["primary_inductance_H"]["stderr_describes_error"] is False
     assert any(w.startswith("sec_open: the model misses this sweep") and "Hz" in w for w in data["warnings"])
     assert any(w.startswith("the fit is poor") for w in data["warnings"])
 
@@ -206,6 +207,25 @@ def test_a_resonance_the_model_lacks_is_named_with_its_band(r_peak_ohm, grade):
     assert any(w.startswith("pri_open: the model misses this sweep") for w in analysis.all_warnings)
     assert (analysis.design_status == "not judged") == (grade == "poor")
     assert quality.stderr_describes_error == (grade != "poor")
+
+
+def test_a_noisy_sweep_is_noisy_not_missed():
+    """pri_short with 15× the noise of the others: its rms misfit is far above theirs, but measured
+    against its own noise the model fits it; it is called noisy, and the fit stays good."""
+    measurement = simulated_set(TRUE, F_HZ, rng=np.random.default_rng(8))
+    rng = np.random.default_rng(9)
+    sweeps = []
+    for sweep in measurement.sweeps:
+        if sweep.label == "pri_short":
+            s = sweep.network.s.copy()
+            s = s + 15e-3 * (rng.standard_normal(s.shape) + 1j * rng.standard_normal(s.shape))
+            sweep = dataclasses.replace(sweep, network=sweep.network.copy())
+            sweep.network.s = s
+        sweeps.append(sweep)
+    analysis = analyze(dataclasses.replace(measurement, sweeps=tuple(sweeps)))
+    assert analysis.fit.quality.grade == "good" and analysis.fit.quality.missed == ()
+    assert any(w.startswith("pri_short:") and "noisier" in w for w in analysis.all_warnings)
+    assert not any("suspect sweep" in w or "misses this sweep" in w for w in analysis.all_warnings)
 
 
 def test_cli_exits_1_without_advice_when_the_fit_is_poor(tmp_path):

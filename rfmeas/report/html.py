@@ -188,7 +188,7 @@ def sweep_rows(analysis) -> list[dict]:
             "reference": " / ".join(f"{z:g} Ω" for z in sweep.z0_ohm),
             "misfit": "" if q is None else f"{q.rms_residual:.2g}",
             "noise": "" if q is None else f"{q.data_noise:.2g}",
-            "ratio": "" if q is None else f"{q.misfit_ratio:.2g}×",
+            "ratio": "" if q is None else f"{q.misfit_ratio:.3g}×",
             "missed": q is not None and any(m["sweep"] == q.label for m in analysis.fit.quality.missed),
             "sha256": sweep.sha256 or "not recorded",
         })
