@@ -104,6 +104,7 @@ def test_grade_over_a_random_population():
         print(f"  misfit ratio of the good ones: median {np.median(ratios):.3f}, "
               f"min {ratios.min():.3f}, max {ratios.max():.3f}")
     print(f"  silent failures (> 5 standard errors off, not graded poor): {len(silent)} {silent}")
+    print(f"  graded poor: {[(i, round(r, 2), round(z, 1)) for i, (g, r, z) in enumerate(right) if g == 'poor']}")
     poor = sum(1 for g, _r, _s in wrong if g == "poor")
     not_judged = sum(1 for _g, _r, s in wrong if s == "not judged")
     print(f"wrong model (sec_open from another unit): graded poor {poor}/{UNITS}, "
