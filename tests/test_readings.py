@@ -90,6 +90,16 @@ def test_magnitude_and_phase(tmp_path):
     assert r.impedance_ohm[0] == pytest.approx(5 + 8.660254038j, rel=1e-9)
 
 
+def test_readings_as_a_one_port_network(tmp_path):
+    # S11 = (Z − Z0)/(Z + Z0) (standard circuit texts): Z = 50 + j50 Ω against 50 Ω gives
+    # j50/(100 + j50) = j50·(100 − j50)/12500 = 0.2 + 0.4j.
+    r = load_readings(write(tmp_path, "net.csv", "frequency_Hz, Rs_ohm, Xs_ohm\n1e6, 50, 50\n2e6, 50, 0\n"))
+    network = r.to_network()
+    np.testing.assert_allclose(network.s[:, 0, 0], [0.2 + 0.4j, 0.0], atol=1e-12)
+    np.testing.assert_array_equal(network.f, [1e6, 2e6])
+    assert r.to_dict()["series_resistance_ohm"] == [50.0, 50.0]
+
+
 def test_resistance_and_reactance(tmp_path):
     r = load_readings(write(tmp_path, "rx.csv", "frequency_Hz, Rs_ohm, Xs_ohm\n# a comment\n\n1e6, 2, 30\n"))
     assert r.form == "Rs_Xs" and r.impedance_ohm[0] == 2 + 30j

@@ -97,6 +97,14 @@ class LcrReadings:
     def series_resistance_ohm(self) -> np.ndarray:
         return self.impedance_ohm.real
 
+    def to_network(self, z0_ohm: float = 50.0):
+        """The readings as a one-port scikit-rf Network (S11 against `z0_ohm`), for code that takes sweeps."""
+        import skrf as rf
+
+        frequency = rf.Frequency.from_f(self.f_Hz, unit="Hz")
+        return rf.Network.from_z(self.impedance_ohm[:, None, None], frequency=frequency, z0=z0_ohm,
+                                 name=Path(self.path).stem)
+
     def to_dict(self) -> dict:
         return {"path": self.path, "form": self.form, "frequency_Hz": self.f_Hz.tolist(),
                 "series_resistance_ohm": self.series_resistance_ohm.tolist(),
