@@ -271,6 +271,8 @@ def test_square_section_lies_between_its_inscribed_and_circumscribed_rings():
     assert c1 < 2 * math.pi / math.log(2.0)
     assert c1 > 2 * math.pi / math.log(2.0 * math.sqrt(2))
     assert c2 < 2 * math.pi * (1 - 1 / 2.0) / math.log(2.0) ** 3
+    with pytest.raises(InputError):
+        hole_in_rectangle_constants((2.0, 0.9, 2.0, 2.0), 1.0, 1.0)  # the hole breaks through a side
 
 
 @pytest.mark.parametrize("table, words", [

@@ -168,3 +168,21 @@ def test_older_peak_key_is_read_and_conflicts_are_refused(tmp_path):
                         "two.toml", "two.toml")
     with pytest.raises(InputError, match="peak_frequency_Hz"):
         parse_materials(head, "none.toml", "none.toml")
+
+
+def test_cores_drawn_from_each_class_population(table):
+    # seeded population: µi and peak drawn log-uniformly inside each class's own ranges, the ohmmeter
+    # hint given half the time; a "likely" answer must never name another class, and the nearest
+    # class is the drawing class for most cores (measured: 0 wrong "likely" of ~1160, 92 % right)
+    rng = np.random.default_rng(3)
+    right = likely_wrong = total = 0
+    for c in table.classes:
+        for _ in range(150):
+            mu = math.exp(rng.uniform(*np.log(c.initial_permeability)))
+            fp = math.exp(rng.uniform(*np.log(c.peak_frequency_Hz)))
+            match = match_material(table, mu, 0.03 * mu, fp, 0.1 * fp, rng.choice([c.resistivity, None]))
+            total += 1
+            right += match.best.material.id == c.id
+            likely_wrong += match.confidence_level == "likely" and match.best.material.id != c.id
+    assert likely_wrong == 0
+    assert right / total > 0.85
