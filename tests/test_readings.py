@@ -147,6 +147,13 @@ def test_round_trip_every_form(tmp_path, form):
     assert format_readings_csv(f, z, form) == path.read_text()
 
 
+def test_writer_refuses_a_form_that_cannot_hold_the_impedance():
+    # a pure resistance has no parallel inductance (Lp = ∞) and Q = 0
+    with pytest.raises(InputError, match="Lp_Rp"):
+        format_readings_csv([1e6], [50 + 0j], "Lp_Rp")
+    assert format_readings_csv([1e6], [50 + 0j], "Rs_Xs").splitlines()[1] == "1000000.0, 50.0, 0.0"
+
+
 # ------------------------------------------------------------------ malformed files
 
 CSV_CASES = {

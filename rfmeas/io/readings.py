@@ -401,7 +401,11 @@ def format_readings_csv(f_Hz, impedance_ohm, form: str = "Ls_Rs") -> str:
     if form not in FORMS:
         raise InputError(f"form {form!r} is not known (use one of {', '.join(FORMS)})")
     f = np.asarray(f_Hz, dtype=float)
-    a, b = form_values(form, f, impedance_ohm)
+    with np.errstate(divide="ignore", invalid="ignore"):
+        a, b = form_values(form, f, impedance_ohm)
+    if not (np.all(np.isfinite(a)) and np.all(np.isfinite(b))):
+        raise InputError(f"these impedances cannot be written as {form} (a zero resistance or reactance); "
+                         "use Rs_Xs or Z_theta")
     first, second = FORMS[form]
     names = ["frequency_Hz"] + [f"{q}_{_BASE_UNIT[q]}" if _BASE_UNIT[q] else q for q in (first, second)]
     lines = [", ".join(names)] + [f"{fi!r}, {ai!r}, {bi!r}" for fi, ai, bi in
