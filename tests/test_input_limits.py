@@ -348,3 +348,32 @@ def test_library_warnings_go_to_the_log_not_the_terminal(monkeypatch):
         warnings.simplefilter("always")
         code, stdout, stderr = invoke("analyze", SAMPLE, "--no-record")
     assert code == 2 and "RuntimeWarning" not in stderr + stdout and "overflow" not in stderr
+
+
+def _readers():
+    from rfmeas.fixture import load_fixture
+    from rfmeas.instruments.profiles import load_profile_file
+    from rfmeas.io.readings import load_readings
+    from rfmeas.materials import load_materials
+
+    return {
+        "sweep.s1p": read_touchstone, "manifest.toml": load_manifest, "fixture.toml": load_fixture,
+        "profile.toml": load_profile_file, "materials.toml": lambda p: load_materials(p, use_environment=False),
+        "readings.csv": load_readings, "readings.toml": load_readings,
+    }
+
+
+@pytest.mark.parametrize("name", sorted(_readers()))
+def test_every_reader_refuses_a_fifo_and_deep_toml(tmp_path, name):
+    read = _readers()[name]
+    fifo = tmp_path / name
+    os.mkfifo(fifo)
+    with no_hang(), pytest.raises(InputError, match="named pipe") as info:
+        read(fifo)
+    assert info.value.path == str(fifo)
+    if name.endswith(".toml"):
+        deep = tmp_path / "deep" / name
+        deep.parent.mkdir()
+        deep.write_text("a = " + "[" * 1000 + "]" * 1000 + "\n")
+        with pytest.raises(InputError, match="nest"):
+            read(deep)

@@ -95,7 +95,9 @@ def analyze_command(
         from .report import tell, write_outputs
 
         tell(write_outputs(analysis, report, plots_dir), stderr_console() if json_output else stdout_console())
-    if analysis.design_passed is False:
+    from ..design import design_fails
+
+    if design_fails(analysis.design_status):  # failed, or could not be judged
         raise typer.Exit(EXIT_DESIGN_FAILED)
 
 
