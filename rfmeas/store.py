@@ -38,7 +38,7 @@ import sys
 import time
 from dataclasses import dataclass, field
 from datetime import datetime, timezone
-from pathlib import Path
+from pathlib import Path, PurePosixPath
 
 from .errors import InputError
 
@@ -404,7 +404,8 @@ class HistoryStore:
             result = None
             why = "its result is not valid JSON"
         else:
-            why = f"its result is a JSON {type(result).__name__}, not an object"
+            kind = {list: "list", str: "string", int: "number", float: "number", bool: "true/false"}
+            why = f"its result is a JSON {kind.get(type(result), 'null')}, not an object"
         if not isinstance(result, dict):
             raise DamagedRecord(f"record {record_id} is damaged: {why}", path=self.path)
         return result
@@ -707,7 +708,9 @@ def _manifest_renames(text: str, base: Path, names: dict[str, str]) -> list[tupl
     renames = []
     for entry in tomllib.loads(text).get("sweep", []):
         old = entry.get("file")
-        renames.append((old, names.get(str((base / old).resolve()), old)))
+        new = names.get(str((base / old).resolve()), old)
+        same = PurePosixPath(old.replace("\\", "/")).as_posix() == new  # 'x.s1p' named as './x.s1p'
+        renames.append((old, old if same else new))
     return renames
 
 
