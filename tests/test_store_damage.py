@@ -199,3 +199,14 @@ def test_analyze_with_a_read_only_store_keeps_the_analysis(world_readable_dir):
     lines = res.stderr.strip().splitlines()
     assert len(lines) == 1 and "read-only" in lines[0] and "not kept" in lines[0], res.stderr
     assert db.read_bytes() == before
+
+
+def test_compare_of_records_whose_sections_are_damaged(tmp_path):
+    db = tmp_path / "h.sqlite3"
+    with HistoryStore(db) as s:
+        s.record("unit", None, [], result_for("unit"))
+        s.record("unit", None, [], {"name": "unit", "parameters": [1, 2], "figures": "none",
+                                    "design_check": [True]})
+    res = invoke("compare", "@1", "@2", "--db", db, "--json")
+    assert res.exit_code == 0, res.output
+    assert json.loads(res.stdout)["changes"] == {}

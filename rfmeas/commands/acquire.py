@@ -7,10 +7,8 @@ from typing import Optional
 
 import typer
 
-from ..errors import EXIT_INSTRUMENT, InputError, InstrumentError
+from ..errors import EXIT_INSTRUMENT, EXIT_INTERRUPTED, InputError, InstrumentError
 from ._common import handles_errors, print_json, stderr_console
-
-EXIT_INTERRUPTED = 130  # common practice for a program stopped by Ctrl-C (128 + SIGINT)
 
 # Options both commands take (typer reads these definitions; it does not change them)
 _SWEEP = typer.Option("100k:30M:201", "--sweep", help="START:STOP:POINTS, e.g. 100k:30M:201.")
