@@ -25,7 +25,7 @@ from rfmeas.io.incomplete import marked_incomplete
 from rfmeas.model import s_matrix
 
 runner = CliRunner()
-SIM = ["--resource", "sim", "--timeout", "30"]
+SIM = ["--resource", "sim", "--timeout", "5000"]  # see sim_acquire in test_instruments
 ROOT = Path(__file__).resolve().parents[1]
 SAMPLE = ROOT / "sample_data" / "coupler-before"
 
