@@ -245,6 +245,11 @@ class HistoryStore:
                 self.path.parent.mkdir(parents=True, exist_ok=True)
             elif self.path.is_dir():
                 raise InputError("is a folder, not a history store file", path=self.path)
+            elif not self.path.is_file():  # a FIFO or device would block or never be a store
+                raise InputError("is not a regular file, so not a history store", path=self.path)
+            elif not _looks_like_sqlite(self.path):  # SQLite would take a tiny file over as a new store
+                raise InputError("not a readable history store: the file is not an SQLite database",
+                                 path=self.path)
             writable = not self.path.exists() or (os.access(self.path, os.W_OK)
                                                    and os.access(self.path.parent, os.W_OK))
         except OSError as exc:
@@ -535,6 +540,13 @@ def _checked_sources(sources) -> list[tuple[str, str, bytes]]:
         content = bytes(content)
         rows.append((rel_path, _sha256(content), content))
     return rows
+
+
+def _looks_like_sqlite(path: Path) -> bool:
+    """An empty file (a store being created) or one that starts with SQLite's header."""
+    with open(path, "rb") as handle:
+        head = handle.read(16)
+    return head == b"" or head == b"SQLite format 3\x00"
 
 
 def _open_read_only(path: Path) -> sqlite3.Connection:

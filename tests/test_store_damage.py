@@ -210,3 +210,19 @@ def test_compare_of_records_whose_sections_are_damaged(tmp_path):
     res = invoke("compare", "@1", "@2", "--db", db, "--json")
     assert res.exit_code == 0, res.output
     assert json.loads(res.stdout)["changes"] == {}
+
+
+def test_a_tiny_foreign_file_is_not_taken_over(tmp_path):
+    db = tmp_path / "notes.txt"
+    db.write_bytes(b"x")
+    res = invoke("analyze", SAMPLE, "--json", "--db", db)
+    assert_one_clear_line(res, "not an SQLite database", "not kept")
+    assert db.read_bytes() == b"x"
+
+
+def test_a_fifo_as_the_store_is_refused_without_blocking(tmp_path):
+    fifo = tmp_path / "h.sqlite3"
+    os.mkfifo(fifo)
+    res = subprocess.run([sys.executable, "-m", "rfmeas.cli", "history", "--db", str(fifo)], capture_output=True,
+                         text=True, timeout=60, env=dict(os.environ, PYTHONPATH=str(ROOT)))
+    assert res.returncode == 2 and "not a regular file" in res.stderr
