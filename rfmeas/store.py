@@ -616,21 +616,22 @@ def _toml_document(doc: dict, comment: str) -> str:
     return "\n".join(lines) + "\n"
 
 
-_FILE_LINE = re.compile(r"""^(?P<head>[ \t]*file[ \t]*=[ \t]*)(?P<value>"(?:[^"\\\n]|\\.)*"|'[^'\n]*')""",
-                        re.MULTILINE)
+def _key_line(key: str) -> re.Pattern:
+    return re.compile(rf"""^(?P<head>[ \t]*{key}[ \t]*=[ \t]*)(?P<value>"(?:[^"\\\n]|\\.)*"|'[^'\n]*')""",
+                      re.MULTILINE)
 
 
-def _renamed_manifest(text: str, renames: list[tuple[str, str]]) -> str:
-    """The manifest with each [[sweep]] entry's `file` replaced (renames: (old, new) in entry order).
+def _renamed_manifest(text: str, renames: list[tuple[str, str]], key: str = "file") -> str:
+    """The manifest with `key` of each [[sweep]] entry that has it replaced (renames: (old, new) in order).
 
-    The text is edited in place when its `file = "..."` lines can be matched to the
+    The text is edited in place when its `key = "..."` lines can be matched to the
     entries one by one, so comments and layout stay; otherwise it is written anew.
     """
     import tomllib
 
     if all(old == new for old, new in renames):
         return text
-    matches = list(_FILE_LINE.finditer(text))
+    matches = list(_key_line(key).finditer(text))
     if len(matches) == len(renames):
         pieces, last = [], 0
         for m, (old, new) in zip(matches, renames):
@@ -640,12 +641,13 @@ def _renamed_manifest(text: str, renames: list[tuple[str, str]]) -> str:
             last = m.end("value")
         else:
             edited = "".join(pieces) + text[last:]
-            if [e["file"] for e in tomllib.loads(edited).get("sweep", [])] == [new for _, new in renames]:
+            entries = [e for e in tomllib.loads(edited).get("sweep", []) if key in e]
+            if [e[key] for e in entries] == [new for _, new in renames]:
                 return edited
     doc = tomllib.loads(text)
-    for entry, (_, new) in zip(doc.get("sweep", []), renames):
-        entry["file"] = new
-    return _toml_document(doc, "rewritten by rfmeas: the sweep files are named as kept in the history store")
+    for entry, (_, new) in zip([e for e in doc.get("sweep", []) if key in e], renames):
+        entry[key] = new
+    return _toml_document(doc, "rewritten by rfmeas: the files are named as kept in the history store")
 
 
 def _manifest_for_files(measurement, names: list[str]) -> str:
@@ -710,7 +712,70 @@ def record_sources(measurement) -> tuple[str | None, list[tuple[str, bytes]]]:
         manifest_text = _manifest_for_files(measurement, [names[key(s)] for s in sweeps])
     elif base is not None:
         manifest_text = _renamed_manifest(manifest_text, _manifest_renames(manifest_text, base, names))
+        manifest_text = _with_fixtures(manifest_text, base, taken, out)
     return manifest_text, [(FALLBACK_MANIFEST_NAME, manifest_text.encode("utf-8"))] + out
+
+
+def _fixture_files(toml_path: Path) -> list[Path] | None:
+    """A jig definition and the standard files it names, when they all lie in its folder (else None)."""
+    import tomllib
+
+    folder = toml_path.parent.resolve()
+    try:
+        doc = tomllib.loads(toml_path.read_text(encoding="utf-8"))
+    except (OSError, UnicodeDecodeError, tomllib.TOMLDecodeError):
+        return None
+    standards = doc.get("standards") if isinstance(doc.get("standards"), dict) else {}
+    files = [toml_path.resolve()]
+    for value in standards.values():
+        if isinstance(value, str):
+            path = (folder / value).resolve()
+            if not path.is_relative_to(folder) or not path.is_file():
+                return None
+            files.append(path)
+    return files
+
+
+def _with_fixtures(text: str, base: Path, taken: set[str], out: list) -> str:
+    """Keep the test jigs a manifest's sweeps name (definition and standards) with the record.
+
+    A jig inside the manifest's folder keeps its path; one from elsewhere goes to
+    'fixtures/NAME/' and the kept manifest is rewritten to point at it. A jig whose
+    standards lie outside its own folder is not kept (logged).
+    """
+    import tomllib
+
+    renames, kept = [], {}
+    for entry in tomllib.loads(text).get("sweep", []):
+        old = entry.get("fixture")
+        if not isinstance(old, str):
+            continue
+        toml_path = base / old
+        toml_path = toml_path / "fixture.toml" if toml_path.is_dir() else toml_path
+        files = _fixture_files(toml_path) if toml_path.is_file() else None
+        if files is None:
+            log.info("test jig '%s' is not kept with the record (not found, or its standards lie elsewhere)", old)
+            renames.append((old, old))
+            continue
+        folder = files[0].parent
+        if str(folder) not in kept:
+            if folder.is_relative_to(base):
+                prefix = folder.relative_to(base).as_posix()
+            else:
+                prefix, n = f"fixtures/{folder.name}", 2
+                while any(t == prefix or t.startswith(prefix + "/") for t in taken):
+                    prefix, n = f"fixtures/{folder.name}-{n}", n + 1
+            for path in files:
+                name = f"{prefix}/{path.relative_to(folder).as_posix()}" if prefix != "." else \
+                    path.relative_to(folder).as_posix()
+                if name not in taken:
+                    taken.add(name)
+                    out.append((name, path.read_bytes()))
+            kept[str(folder)] = prefix
+        prefix = kept[str(folder)]
+        new = f"{prefix}/{files[0].name}" if prefix != "." else files[0].name
+        renames.append((old, old if folder.is_relative_to(base) else new))
+    return _renamed_manifest(text, renames, key="fixture")
 
 
 def _manifest_renames(text: str, base: Path, names: dict[str, str]) -> list[tuple[str, str]]:

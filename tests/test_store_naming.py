@@ -104,3 +104,28 @@ def test_manifest_written_anew_when_its_file_lines_cannot_be_matched():
     doc = tomllib.loads(out)
     assert doc["sweep"] == [{"file": "external/a.s1p", "port1": "primary", "termination": "open"}]
     assert doc["transformer"] == {"name": "x"}
+
+
+def test_test_jigs_from_elsewhere_are_kept_with_the_record(tmp_path):
+    unit = tmp_path / "unit"
+    shutil.copytree(SAMPLE, unit)
+    shutil.copytree(ROOT / "fixtures" / "clip-leads", tmp_path / "jigs" / "clip-leads")
+    shutil.copytree(ROOT / "fixtures" / "clip-leads", tmp_path / "other" / "clip-leads")  # same folder name
+    (tmp_path / "other" / "clip-leads" / "fixture.toml").write_text(
+        (tmp_path / "other" / "clip-leads" / "fixture.toml").read_text().replace("49.9", "50.1"))
+    text = (unit / "manifest.toml").read_text()
+    text = text.replace('termination = "open"\n', 'termination = "open"\nfixture = "../jigs/clip-leads"\n', 1)
+    text = text.replace('termination = "short"\n', 'termination = "short"\nfixture = "../other/clip-leads/fixture.toml"\n', 1)
+    (unit / "manifest.toml").write_text(text)
+    db = tmp_path / "h.sqlite3"
+    original = parameters(run("analyze", unit, "--json", "--db", db))
+    with HistoryStore(db) as store:
+        rec = store.latest()
+    names = {f.path for f in rec.files}
+    assert {"fixtures/clip-leads/fixture.toml", "fixtures/clip-leads/open.s1p",
+            "fixtures/clip-leads-2/fixture.toml", "fixtures/clip-leads-2/load.s1p"} <= names
+    res = run("history", "--export", rec.id, tmp_path / "redo", "--db", db)
+    assert res.exit_code == 0, res.output
+    assert "50.1" in (tmp_path / "redo" / "fixtures" / "clip-leads-2" / "fixture.toml").read_text()
+    again = parameters(run("analyze", tmp_path / "redo", "--json", "--no-record"))
+    assert again == original
