@@ -8,8 +8,8 @@ message and never stops the others.
 Interrupts: workers ignore Ctrl-C; the parent catches it, kills its workers
 and raises KeyboardInterrupt from a safe point (never from inside the pool's
 locks). Workers die with their parent, even one killed with SIGKILL: on Linux
-the kernel signals them (PR_SET_PDEATHSIG), elsewhere a watchdog thread in
-each worker notices that its parent is gone.
+the kernel signals them (PR_SET_PDEATHSIG); on every POSIX system a watchdog
+thread in each worker also notices that it was re-parented.
 """
 
 from __future__ import annotations

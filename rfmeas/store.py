@@ -461,7 +461,12 @@ class HistoryStore:
 
     def latest(self, unit: str | None = None) -> Record | None:
         """The newest record of `unit` (of any unit when None); None if there is none."""
-        return self._readable(r.id for r in self.list(unit, limit=None))
+        sql, args = "SELECT id FROM records ORDER BY id DESC", ()
+        if unit is not None:
+            sql, args = "SELECT id FROM records WHERE unit = ? ORDER BY id DESC", (unit,)
+        with self._sqlite_errors():
+            ids = [r[0] for r in self._connect().execute(sql, args)]
+        return self._readable(ids)
 
     def resolve(self, ref: str, *, other_unit: str | None = None, other_id: int | None = None) -> Record:
         """The record a reference like '@12', '@12~', '@latest:UNIT' or '@prev' names.
