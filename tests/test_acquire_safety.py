@@ -166,3 +166,22 @@ def test_analysis_of_a_set_with_a_partial_sweep_warns_and_names_the_file(app, tm
 
     flags = {Path(s.path).name: s.partial for s in load_manifest(tmp_path / "unit").sweeps}
     assert flags == {"pri_open.s1p": False, "pri_short.s1p": True, "sec_open.s1p": False, "thru.s2p": False}
+
+
+def test_ctrl_c_during_a_guided_sweep_names_the_partial_file(app, tmp_path, monkeypatch):
+    import tomllib
+
+    calls = []
+
+    def second_sweep_interrupted(f_Hz):
+        calls.append(f_Hz)
+        return len(calls) == 5  # the 2nd reading of the 2nd sweep (3 points a sweep)
+
+    interrupt_at(monkeypatch, "measure_impedance", when=second_sweep_interrupted)
+    keys = ["u\n", "\n", "\n", "\n", "\n"]
+    result = guided(app, tmp_path / "set.toml", keys)
+    assert result.exit_code == 130, result.stderr
+    kept = tmp_path / "pri_short.partial.s1p"
+    assert str(kept) in result.stderr.replace("\n", "") and kept.exists()
+    assert len(rf.Network(str(kept)).f) == 1
+    assert [s["file"] for s in tomllib.loads((tmp_path / "set.toml").read_text())["sweep"]] == ["pri_open.s1p"]

@@ -244,7 +244,10 @@ def _walk(steps, measure, kind: str, err):
                     answer = typer.prompt("r to retry, s to skip, q to stop", default="r", err=True).strip().lower()
             if answer == "q":
                 break
-    except (KeyboardInterrupt, typer.Abort):
+    except (KeyboardInterrupt, typer.Abort) as exc:
+        kept = getattr(exc, "kept", None)
+        if kept is not None:
+            err.print(f"the readings of the interrupted sweep are in {kept}", markup=False)
         return taken, last_error, True
     return taken, last_error, False
 
