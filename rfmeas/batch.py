@@ -4,6 +4,12 @@ Each worker process returns only a small summary of its unit (names, values,
 standard errors, status), never arrays, so memory stays flat however many
 units there are. A unit that cannot be analysed is reported with its error
 message and never stops the others.
+
+Interrupts: workers ignore Ctrl-C; the parent catches it, kills its workers
+and raises KeyboardInterrupt from a safe point (never from inside the pool's
+locks). Workers die with their parent, even one killed with SIGKILL: on Linux
+the kernel signals them (PR_SET_PDEATHSIG); on every POSIX system a watchdog
+thread in each worker also notices that it was re-parented.
 """
 
 from __future__ import annotations
@@ -15,9 +21,13 @@ import json
 import logging
 import multiprocessing
 import os
+import signal
 import statistics
+import sys
+import threading
+import time
 from collections.abc import Callable, Iterable
-from concurrent.futures import ProcessPoolExecutor, as_completed
+from concurrent.futures import FIRST_COMPLETED, ProcessPoolExecutor, wait
 from concurrent.futures.process import BrokenProcessPool
 from dataclasses import dataclass
 from pathlib import Path
@@ -29,6 +39,8 @@ from .store import design_status
 log = logging.getLogger(__name__)
 
 STATUSES = ("pass", "fail", "not judged", "no design", "error")
+WATCHDOG_PERIOD_S = 0.5  # how often a worker checks that its parent is still there
+POLL_S = 0.1             # how often the parent looks for a Ctrl-C while units run
 
 
 def analyse_manifest(path: str) -> dict:
@@ -177,6 +189,57 @@ def spread_of(units: Iterable[UnitOutcome]) -> dict[str, Spread]:
             for key, v in sorted(columns.items())}
 
 
+def _worker_start(parent_pid: int) -> None:
+    """Worker initializer: leave Ctrl-C to the parent, and die with the parent."""
+    signal.signal(signal.SIGINT, signal.SIG_IGN)
+    if sys.platform.startswith("linux"):
+        try:
+            import ctypes
+
+            PR_SET_PDEATHSIG = 1
+            ctypes.CDLL(None, use_errno=True).prctl(PR_SET_PDEATHSIG, int(signal.SIGKILL))
+        except (OSError, AttributeError):  # no prctl: the watchdog below still works
+            pass
+    if os.getppid() != parent_pid:  # the parent died before the kernel could be told
+        os._exit(1)
+
+    def watchdog() -> None:
+        while True:
+            time.sleep(WATCHDOG_PERIOD_S)
+            if os.getppid() != parent_pid:  # re-parented: the batch process is gone
+                os._exit(1)
+
+    threading.Thread(target=watchdog, name="parent-watchdog", daemon=True).start()
+
+
+class _CtrlC:
+    """While active (main thread only), Ctrl-C sets a flag instead of raising inside the pool's code."""
+
+    def __init__(self):
+        self.pressed = threading.Event()
+        self._previous = None
+
+    def __enter__(self) -> "_CtrlC":
+        if threading.current_thread() is threading.main_thread():
+            self._previous = signal.signal(signal.SIGINT, lambda signum, frame: self.pressed.set())
+        return self
+
+    def __exit__(self, *exc) -> None:
+        if self._previous is not None:
+            signal.signal(signal.SIGINT, self._previous)
+
+
+def _stop_workers(pool: ProcessPoolExecutor) -> None:
+    """Cancel what has not started and kill the workers (their units are lost anyway)."""
+    processes = list((getattr(pool, "_processes", None) or {}).values())
+    pool.shutdown(wait=False, cancel_futures=True)
+    for process in processes:
+        if process.is_alive():
+            process.kill()
+    for process in processes:
+        process.join(timeout=5)
+
+
 def run_batch(manifest_paths: Iterable[str | Path], workers: int | None = None,
               progress: Callable[[int, int, UnitOutcome], None] | None = None,
               analyse: Callable[[str], dict] = analyse_manifest) -> BatchResult:
@@ -184,6 +247,7 @@ def run_batch(manifest_paths: Iterable[str | Path], workers: int | None = None,
 
     `analyse` must be picklable (a module-level function); workers=1 runs in
     this process. `progress(done, total, outcome)` is called as each unit ends.
+    Ctrl-C stops every worker at once and raises KeyboardInterrupt.
     """
     paths = [str(p) for p in manifest_paths]
     if workers is not None and workers < 1:
@@ -201,20 +265,29 @@ def run_batch(manifest_paths: Iterable[str | Path], workers: int | None = None,
         for i, path in enumerate(paths):
             finished(i, _run_one(analyse, path))
     else:
-        # Not a plain fork: the progress bar's thread is running in this process.
-        method = "forkserver" if "forkserver" in multiprocessing.get_all_start_methods() else None
-        pool = ProcessPoolExecutor(max_workers=workers, mp_context=multiprocessing.get_context(method))
-        try:
-            futures = {pool.submit(_run_one, analyse, path): i for i, path in enumerate(paths)}
-            for future in as_completed(futures):
-                i = futures[future]
-                try:
-                    outcome = future.result()
-                except BrokenProcessPool:
-                    outcome = _failed(paths[i], f"{paths[i]}: the worker process died (out of memory?)")
-                finished(i, outcome)
-        finally:  # on Ctrl-C, drop the units not started instead of waiting for them all
-            pool.shutdown(wait=True, cancel_futures=True)
+        # Workers are direct children started afresh (not a plain fork: the progress bar's thread
+        # is running here), so that they can be tied to this process's life.
+        pool = ProcessPoolExecutor(max_workers=workers, mp_context=multiprocessing.get_context("spawn"),
+                                   initializer=_worker_start, initargs=(os.getpid(),))
+        with _CtrlC() as ctrl_c:
+            try:
+                futures = {pool.submit(_run_one, analyse, path): i for i, path in enumerate(paths)}
+                pending = set(futures)
+                while pending:
+                    if ctrl_c.pressed.is_set():
+                        raise KeyboardInterrupt
+                    done, pending = wait(pending, timeout=POLL_S, return_when=FIRST_COMPLETED)
+                    for future in sorted(done, key=futures.get):
+                        i = futures[future]
+                        try:
+                            outcome = future.result()
+                        except BrokenProcessPool:
+                            outcome = _failed(paths[i], f"{paths[i]}: the worker process died (out of memory?)")
+                        finished(i, outcome)
+            except BaseException:
+                _stop_workers(pool)
+                raise
+        pool.shutdown(wait=True)
     units = tuple(outcomes[i] for i in range(total))
     return BatchResult(units=units, spread=spread_of(units))
 

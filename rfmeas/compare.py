@@ -94,13 +94,18 @@ def judge(before: float | None, after: float | None, before_stderr: float | None
     return Change(group, before, after, before_stderr, after_stderr, change_percent, significant)
 
 
+def _section(result: dict, name: str) -> dict:
+    """A section of a result; {} when it is missing or not a table (a damaged stored record)."""
+    section = result.get(name)
+    return section if isinstance(section, dict) else {}
+
+
 def _ratio_error(result: dict, design_ratio: float | None) -> tuple[float | None, float | None] | None:
     """Turns-ratio error in percent: from design_check, else from the fitted ratio and the design."""
-    check = result.get("design_check") or {}
-    stated = _quantity(check.get("ratio_error_percent")) if isinstance(check, dict) else None
+    stated = _quantity(_section(result, "design_check").get("ratio_error_percent"))
     if stated is not None:
         return stated
-    fitted = _quantity((result.get("parameters") or {}).get("effective_turns_ratio"))
+    fitted = _quantity(_section(result, "parameters").get("effective_turns_ratio"))
     if fitted is None or fitted[0] is None or not design_ratio:
         return None
     value, stderr = fitted
@@ -147,7 +152,7 @@ def compare_results(before: dict, after: dict, design: dict | None = None) -> Co
     targets = _design_targets(design, after)
     changes: dict[str, Change] = {}
     for group, section in (("parameter", "parameters"), ("figure", "figures")):
-        b_section, a_section = before.get(section) or {}, after.get(section) or {}
+        b_section, a_section = _section(before, section), _section(after, section)
         for key in a_section:
             if key not in b_section:
                 continue

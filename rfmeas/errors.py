@@ -8,6 +8,7 @@ EXIT_OK = 0
 EXIT_DESIGN_FAILED = 1
 EXIT_BAD_INPUT = 2
 EXIT_INSTRUMENT = 3
+EXIT_INTERRUPTED = 130  # stopped by Ctrl-C: 128 + SIGINT (common practice)
 
 
 class RfmeasError(Exception):

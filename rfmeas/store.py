@@ -6,7 +6,13 @@ result JSON and the rfmeas version that produced it. File contents are stored
 once per distinct sha256, so re-analysing the same sweeps costs no space.
 
 Writes are one transaction per record in WAL mode, so a crash or Ctrl-C in the
-middle of a write leaves the store as it was before that record.
+middle of a write leaves the store as it was before that record. Creating and
+migrating the schema is one `BEGIN IMMEDIATE` transaction that re-reads the
+schema version under the lock, so any number of processes may create the
+store at once; a busy store is waited for (BUSY_TIMEOUT_S), never an error.
+A store that cannot be written (a read-only file or folder) is still read.
+A damaged record (a result that is not a JSON object, a file whose content is
+missing or does not match its sha256) is skipped with a note in `notes`.
 
 Store references (used by ``rfmeas compare``):
 
@@ -29,9 +35,10 @@ import os
 import re
 import sqlite3
 import sys
+import time
 from dataclasses import dataclass, field
 from datetime import datetime, timezone
-from pathlib import Path
+from pathlib import Path, PurePosixPath
 
 from .errors import InputError
 
@@ -40,6 +47,12 @@ log = logging.getLogger(__name__)
 DB_ENV_VAR = "RFMEAS_DB"
 DEFAULT_LIST_LIMIT = 50
 FALLBACK_MANIFEST_NAME = "manifest.toml"
+BUSY_TIMEOUT_S = 60.0  # how long a writer waits for another one before giving up
+EXTERNAL_FOLDER = "external"  # where sweeps from outside the manifest's folder are kept
+
+
+class DamagedRecord(InputError):
+    """A stored record that cannot be read back (bad result JSON, missing or altered file)."""
 
 
 def default_db_path() -> Path:
@@ -58,7 +71,8 @@ def default_db_path() -> Path:
 
 # --- schema -------------------------------------------------------------------------------
 # Each step takes the database from version i to i+1 (PRAGMA user_version); a new
-# database runs them all. Never edit a released step: append a new one.
+# database runs them all, in one transaction. Never change what a released step
+# does: append a new one.
 
 def _run_statements(conn: sqlite3.Connection, script: str) -> None:
     """Run ';'-separated statements inside the open transaction (executescript would commit it)."""
@@ -69,7 +83,7 @@ def _run_statements(conn: sqlite3.Connection, script: str) -> None:
 
 def _migrate_to_1(conn: sqlite3.Connection) -> None:
     _run_statements(conn, """
-        CREATE TABLE records (
+        CREATE TABLE IF NOT EXISTS records (
             id INTEGER PRIMARY KEY AUTOINCREMENT,
             unit TEXT NOT NULL,
             recorded_utc TEXT NOT NULL,
@@ -77,28 +91,28 @@ def _migrate_to_1(conn: sqlite3.Connection) -> None:
             result_json TEXT NOT NULL,
             software_version TEXT NOT NULL
         );
-        CREATE TABLE files (
+        CREATE TABLE IF NOT EXISTS files (
             record_id INTEGER NOT NULL REFERENCES records(id) ON DELETE CASCADE,
             rel_path TEXT NOT NULL,
             sha256 TEXT NOT NULL,
             content BLOB NOT NULL,
             PRIMARY KEY (record_id, rel_path)
         );
-        CREATE INDEX records_unit ON records (unit, id);
+        CREATE INDEX IF NOT EXISTS records_unit ON records (unit, id);
     """)
 
 
 def _migrate_to_2(conn: sqlite3.Connection) -> None:
     """Move file contents into a table keyed by sha256 so identical files are kept once."""
     _run_statements(conn, """
-        CREATE TABLE blobs (
+        CREATE TABLE IF NOT EXISTS blobs (
             sha256 TEXT PRIMARY KEY,
             size_bytes INTEGER NOT NULL,
             content BLOB NOT NULL
         );
         INSERT OR IGNORE INTO blobs (sha256, size_bytes, content)
             SELECT sha256, length(content), content FROM files;
-        CREATE TABLE files_v2 (
+        CREATE TABLE IF NOT EXISTS files_v2 (
             record_id INTEGER NOT NULL REFERENCES records(id) ON DELETE CASCADE,
             rel_path TEXT NOT NULL,
             sha256 TEXT NOT NULL REFERENCES blobs(sha256),
@@ -196,46 +210,103 @@ def is_reference(text: str) -> bool:
 # --- the store ----------------------------------------------------------------------------
 
 class HistoryStore:
-    """The history database at `path` (default: default_db_path()). Opened on first use."""
+    """The history database at `path` (default: default_db_path()). Opened on first use.
+
+    `read_only` is True once opened on a store this process may not write;
+    `notes` collects one sentence per damaged record skipped while reading.
+    """
 
     def __init__(self, path: str | Path | None = None):
         self.path = Path(path).expanduser() if path is not None else default_db_path()
         self._conn: sqlite3.Connection | None = None
+        self.read_only = False
+        self.notes: list[str] = []
 
     # connection and schema
     def _connect(self) -> sqlite3.Connection:
         if self._conn is not None:
             return self._conn
+        with self._sqlite_errors():
+            conn = self._open()
         try:
-            self.path.parent.mkdir(parents=True, exist_ok=True)
-            conn = sqlite3.connect(self.path, timeout=30, isolation_level=None)
-        except (OSError, sqlite3.Error) as exc:
-            raise InputError(f"cannot open the history store: {exc}", path=self.path) from exc
-        try:
-            version = conn.execute("PRAGMA user_version").fetchone()[0]
-            if version > SCHEMA_VERSION:
-                raise InputError(
-                    f"the history store has schema version {version}, newer than this rfmeas "
-                    f"understands ({SCHEMA_VERSION}); upgrade rfmeas to read it", path=self.path)
-            conn.execute("PRAGMA journal_mode=WAL")
-            conn.execute("PRAGMA synchronous=FULL")
-            conn.execute("PRAGMA foreign_keys=ON")
-            self._migrate(conn, version)
-        except sqlite3.DatabaseError as exc:
-            conn.close()
-            raise InputError(f"not a readable history store: {exc}", path=self.path) from exc
+            with self._sqlite_errors():
+                self._prepare(conn)
         except BaseException:
             conn.close()
             raise
         self._conn = conn
         return conn
 
-    def _migrate(self, conn: sqlite3.Connection, version: int) -> None:
-        for step, migrate in enumerate(MIGRATIONS[version:], start=version + 1):
-            log.info("history store %s: migrating to schema version %d", self.path, step)
-            with self._transaction(conn):
+    def _open(self) -> sqlite3.Connection:
+        """A connection: read-write when this process may write the file and its folder, else read-only."""
+        try:
+            if not self.path.exists():
+                self.path.parent.mkdir(parents=True, exist_ok=True)
+            elif self.path.is_dir():
+                raise InputError("is a folder, not a history store file", path=self.path)
+            elif not self.path.is_file():  # a FIFO or device would block or never be a store
+                raise InputError("is not a regular file, so not a history store", path=self.path)
+            elif not _looks_like_sqlite(self.path):  # SQLite would take a tiny file over as a new store
+                raise InputError("not a readable history store: the file is not an SQLite database",
+                                 path=self.path)
+            writable = not self.path.exists() or (os.access(self.path, os.W_OK)
+                                                   and os.access(self.path.parent, os.W_OK))
+        except OSError as exc:
+            raise InputError(f"cannot open the history store: {exc.strerror or exc}", path=self.path) from exc
+        if writable:
+            return sqlite3.connect(self.path, timeout=BUSY_TIMEOUT_S, isolation_level=None)
+        self.read_only = True
+        log.info("history store %s is not writable: opened read-only", self.path)
+        return _open_read_only(self.path)
+
+    def _prepare(self, conn: sqlite3.Connection) -> None:
+        conn.execute(f"PRAGMA busy_timeout = {int(BUSY_TIMEOUT_S * 1000)}")
+        version = self._checked_version(conn)
+        if self.read_only:
+            if version < SCHEMA_VERSION:
+                raise InputError(f"the history store is read-only and has the older schema version {version}; "
+                                 "open it once with write access to upgrade it", path=self.path)
+            conn.execute("PRAGMA query_only = ON")
+            return
+        _wait_for_wal(conn)
+        conn.execute("PRAGMA synchronous=FULL")
+        conn.execute("PRAGMA foreign_keys=ON")
+        if version < SCHEMA_VERSION:
+            self._migrate(conn)
+
+    def _checked_version(self, conn: sqlite3.Connection) -> int:
+        version = conn.execute("PRAGMA user_version").fetchone()[0]
+        if version > SCHEMA_VERSION:
+            raise InputError(
+                f"the history store has schema version {version}, newer than this rfmeas "
+                f"understands ({SCHEMA_VERSION}); upgrade rfmeas to read it", path=self.path)
+        return version
+
+    def _migrate(self, conn: sqlite3.Connection) -> None:
+        """Create or upgrade the schema in one write transaction; the version is re-read under its lock,
+        so a process that waited for another's creation finds nothing left to do."""
+        with self._transaction(conn):
+            version = self._checked_version(conn)
+            for step, migrate in enumerate(MIGRATIONS[version:], start=version + 1):
+                log.info("history store %s: migrating to schema version %d", self.path, step)
                 migrate(conn)
-                conn.execute(f"PRAGMA user_version = {step}")
+            if version < SCHEMA_VERSION:
+                conn.execute(f"PRAGMA user_version = {SCHEMA_VERSION}")
+
+    @contextlib.contextmanager
+    def _sqlite_errors(self):
+        """Turn SQLite's errors into one plain sentence about the store (InputError, exit code 2)."""
+        try:
+            yield
+        except sqlite3.DatabaseError as exc:
+            text = str(exc)
+            if "readonly" in text or "read-only" in text:
+                message = f"the history store cannot be written ({text})"
+            elif "locked" in text or "busy" in text:
+                message = f"the history store stayed busy for {BUSY_TIMEOUT_S:g} s ({text}); try again"
+            else:
+                message = f"not a readable history store: {text}"
+            raise InputError(message, path=self.path) from exc
 
     @staticmethod
     @contextlib.contextmanager
@@ -245,7 +316,8 @@ class HistoryStore:
         try:
             yield conn
         except BaseException:
-            conn.execute("ROLLBACK")
+            if conn.in_transaction:
+                conn.execute("ROLLBACK")
             raise
         conn.execute("COMMIT")
 
@@ -262,7 +334,13 @@ class HistoryStore:
 
     @property
     def schema_version(self) -> int:
-        return self._connect().execute("PRAGMA user_version").fetchone()[0]
+        with self._sqlite_errors():
+            return self._connect().execute("PRAGMA user_version").fetchone()[0]
+
+    def _note(self, text: str) -> None:
+        if text not in self.notes:
+            log.warning("%s: %s", self.path, text)
+            self.notes.append(text)
 
     # writing
     def record(self, name: str, manifest_text: str | None, sources: list[tuple[str, bytes]],
@@ -277,7 +355,10 @@ class HistoryStore:
         rows = _checked_sources(sources)
         result_json = dumps_json(result)
         conn = self._connect()
-        with self._transaction(conn):
+        if self.read_only:
+            raise InputError("the history store is read-only (no write permission on the file or its "
+                             "folder)", path=self.path)
+        with self._sqlite_errors(), self._transaction(conn):
             return self._insert(conn, name, manifest_text, rows, result_json, __version__)
 
     @staticmethod
@@ -296,20 +377,48 @@ class HistoryStore:
 
     # reading
     def get(self, record_id: int) -> Record:
-        conn = self._connect()
-        row = conn.execute("SELECT id, unit, recorded_utc, manifest_text, result_json, software_version "
-                           "FROM records WHERE id = ?", (record_id,)).fetchone()
-        if row is None:
-            raise InputError(f"no record {record_id} in the history store", path=self.path)
-        files = tuple(
-            StoredFile(rel_path, digest, bytes(content)) for rel_path, digest, content in conn.execute(
-                "SELECT f.rel_path, f.sha256, b.content FROM files f JOIN blobs b ON b.sha256 = f.sha256 "
-                "WHERE f.record_id = ? ORDER BY f.rowid", (record_id,)))
-        return Record(id=row[0], unit=row[1], recorded_utc=row[2], manifest_text=row[3],
-                      files=files, result=json.loads(row[4]), software_version=row[5])
+        """One record; DamagedRecord when it cannot be read back whole."""
+        with self._sqlite_errors():
+            conn = self._connect()
+            row = conn.execute("SELECT id, unit, recorded_utc, manifest_text, result_json, software_version "
+                               "FROM records WHERE id = ?", (record_id,)).fetchone()
+            if row is None:
+                raise InputError(f"no record {record_id} in the history store", path=self.path)
+            file_rows = conn.execute(
+                "SELECT f.rel_path, f.sha256, b.content FROM files f LEFT JOIN blobs b ON b.sha256 = f.sha256 "
+                "WHERE f.record_id = ? ORDER BY f.rowid", (record_id,)).fetchall()
+        result = self._result_of(record_id, row[4])
+        files = []
+        for rel_path, digest, content in file_rows:
+            if not isinstance(content, bytes) or _sha256(content) != digest:
+                what = "is missing" if content is None else "does not match its sha256"
+                raise DamagedRecord(f"record {record_id} is damaged: the content of '{rel_path}' {what}",
+                                    path=self.path)
+            files.append(StoredFile(str(rel_path), digest, content))
+        if not isinstance(row[1], str):
+            raise DamagedRecord(f"record {record_id} is damaged: its unit name is not text", path=self.path)
+        return Record(id=row[0], unit=row[1], recorded_utc=str(row[2]),
+                      manifest_text=row[3] if isinstance(row[3], str) else None,
+                      files=tuple(files), result=result, software_version=str(row[5]))
+
+    def _result_of(self, record_id: int, text) -> dict:
+        try:
+            result = json.loads(text)
+        except (TypeError, ValueError, RecursionError):
+            result = None
+            why = "its result is not valid JSON"
+        else:
+            kind = {list: "list", str: "string", int: "number", float: "number", bool: "true/false"}
+            why = f"its result is a JSON {kind.get(type(result), 'null')}, not an object"
+        if not isinstance(result, dict):
+            raise DamagedRecord(f"record {record_id} is damaged: {why}", path=self.path)
+        return result
 
     def list(self, unit: str | None = None, limit: int | None = DEFAULT_LIST_LIMIT) -> list[RecordSummary]:
-        """Records newest first, of one unit or all; at most `limit` (None: all)."""
+        """Records newest first, of one unit or all; at most `limit` (None: all).
+
+        Damaged records are left out, each with a sentence in `notes`.
+        """
         sql = ("SELECT r.id, r.unit, r.recorded_utc, r.software_version, r.result_json, "
                "(SELECT count(*) FROM files f WHERE f.record_id = r.id) FROM records r")
         args: list = []
@@ -317,25 +426,47 @@ class HistoryStore:
             sql += " WHERE r.unit = ?"
             args.append(unit)
         sql += " ORDER BY r.id DESC"
-        if limit is not None:
-            sql += " LIMIT ?"
-            args.append(int(limit))
-        return [RecordSummary(id=i, unit=u, recorded_utc=t, software_version=v, file_count=n,
-                              design_status=design_status(result), fit_grade=fit_grade(result))
-                for i, u, t, v, result, n in ((i, u, t, v, json.loads(res), n)
-                                              for i, u, t, v, res, n in self._connect().execute(sql, args))]
+        out: list[RecordSummary] = []
+        with self._sqlite_errors():
+            cursor = self._connect().execute(sql, args)
+            for i, u, t, v, res, n in cursor:
+                if limit is not None and len(out) >= int(limit):
+                    break
+                try:
+                    result = self._result_of(i, res)
+                except DamagedRecord as exc:
+                    self._note(f"{exc.message}; skipped")
+                    continue
+                out.append(RecordSummary(id=i, unit=str(u), recorded_utc=str(t), software_version=str(v),
+                                         file_count=n, design_status=design_status(result),
+                                         fit_grade=fit_grade(result)))
+        return out
+
+    def _readable(self, ids) -> Record | None:
+        """The first of `ids` that reads back whole; damaged ones are noted and passed over."""
+        for record_id in ids:
+            try:
+                return self.get(record_id)
+            except DamagedRecord as exc:
+                self._note(f"{exc.message}; skipped")
+        return None
 
     def previous(self, record_id: int) -> Record | None:
         """The record of the same unit stored just before `record_id` (None if it is the first)."""
         unit = self.get(record_id).unit
-        row = self._connect().execute("SELECT max(id) FROM records WHERE unit = ? AND id < ?",
-                                      (unit, record_id)).fetchone()
-        return None if row[0] is None else self.get(row[0])
+        with self._sqlite_errors():
+            ids = [r[0] for r in self._connect().execute(
+                "SELECT id FROM records WHERE unit = ? AND id < ? ORDER BY id DESC", (unit, record_id))]
+        return self._readable(ids)
 
     def latest(self, unit: str | None = None) -> Record | None:
         """The newest record of `unit` (of any unit when None); None if there is none."""
-        rows = self.list(unit, limit=1)
-        return self.get(rows[0].id) if rows else None
+        sql, args = "SELECT id FROM records ORDER BY id DESC", ()
+        if unit is not None:
+            sql, args = "SELECT id FROM records WHERE unit = ? ORDER BY id DESC", (unit,)
+        with self._sqlite_errors():
+            ids = [r[0] for r in self._connect().execute(sql, args)]
+        return self._readable(ids)
 
     def resolve(self, ref: str, *, other_unit: str | None = None, other_id: int | None = None) -> Record:
         """The record a reference like '@12', '@12~', '@latest:UNIT' or '@prev' names.
@@ -416,14 +547,268 @@ def _checked_sources(sources) -> list[tuple[str, str, bytes]]:
     return rows
 
 
+def _looks_like_sqlite(path: Path) -> bool:
+    """An empty file (a store being created) or one that starts with SQLite's header."""
+    with open(path, "rb") as handle:
+        head = handle.read(16)
+    return head == b"" or head == b"SQLite format 3\x00"
+
+
+def _open_read_only(path: Path) -> sqlite3.Connection:
+    """Open a store this process may not write. A store in WAL mode needs its shared-memory file,
+    which a read-only folder may lack; then it is read as an immutable file."""
+    from urllib.parse import quote
+
+    uri = "file:" + quote(str(path.resolve()))
+    conn = sqlite3.connect(f"{uri}?mode=ro", uri=True, timeout=BUSY_TIMEOUT_S, isolation_level=None)
+    try:
+        conn.execute("SELECT count(*) FROM sqlite_master").fetchone()
+        return conn
+    except sqlite3.OperationalError as exc:
+        conn.close()
+        log.info("history store %s: read-only open failed (%s); reading it as immutable", path, exc)
+    return sqlite3.connect(f"{uri}?immutable=1", uri=True, isolation_level=None)
+
+
+def _wait_for_wal(conn: sqlite3.Connection) -> None:
+    """Switch the store to WAL mode. Changing the journal mode of a new file that another process is
+    creating can answer 'locked' at once, without SQLite's busy wait, so wait here."""
+    deadline = time.monotonic() + BUSY_TIMEOUT_S
+    delay_s = 0.005
+    while True:
+        try:
+            conn.execute("PRAGMA journal_mode=WAL").fetchone()
+            return
+        except sqlite3.OperationalError as exc:
+            if "locked" not in str(exc) and "busy" not in str(exc) or time.monotonic() > deadline:
+                raise
+        time.sleep(delay_s)
+        delay_s = min(delay_s * 2, 0.2)
+
+
+# --- what a record keeps of an analysis ------------------------------------------------------
+
+def _unique_name(preferred: str, taken: set[str]) -> str:
+    """`preferred`, or 'stem-2.ext', 'stem-3.ext', ... when that name is taken."""
+    if preferred not in taken:
+        return preferred
+    folder, _, base = preferred.rpartition("/")
+    stem, dot, ext = base.partition(".")
+    for n in range(2, 10_000):
+        candidate = f"{folder + '/' if folder else ''}{stem}-{n}{dot}{ext}"
+        if candidate not in taken:
+            return candidate
+    raise InputError(f"too many sweep files named '{preferred}'")
+
+
+def _toml_value(value) -> str:
+    if isinstance(value, bool):
+        return "true" if value else "false"
+    if isinstance(value, (int, float)):
+        return repr(value)
+    return json.dumps(str(value), ensure_ascii=False)  # a TOML basic string is a JSON string here
+
+
+def _toml_document(doc: dict, comment: str) -> str:
+    """TOML text of a manifest-shaped document: tables of scalars and an array of [[sweep]] tables."""
+    lines = [f"# {comment}"]
+    for table, content in doc.items():
+        if table == "sweep":
+            continue
+        lines += ["", f"[{table}]"] + [f"{k} = {_toml_value(v)}" for k, v in content.items()]
+    for entry in doc.get("sweep", []):
+        lines += ["", "[[sweep]]"] + [f"{k} = {_toml_value(v)}" for k, v in entry.items()]
+    return "\n".join(lines) + "\n"
+
+
+def _key_line(key: str) -> re.Pattern:
+    return re.compile(rf"""^(?P<head>[ \t]*{key}[ \t]*=[ \t]*)(?P<value>"(?:[^"\\\n]|\\.)*"|'[^'\n]*')""",
+                      re.MULTILINE)
+
+
+def _renamed_manifest(text: str, renames: list[tuple[str, str]], key: str = "file") -> str:
+    """The manifest with `key` of each [[sweep]] entry that has it replaced (renames: (old, new) in order).
+
+    The text is edited in place when its `key = "..."` lines can be matched to the
+    entries one by one, so comments and layout stay; otherwise it is written anew.
+    """
+    import tomllib
+
+    if all(old == new for old, new in renames):
+        return text
+    matches = list(_key_line(key).finditer(text))
+    if len(matches) == len(renames):
+        pieces, last = [], 0
+        for m, (old, new) in zip(matches, renames):
+            if tomllib.loads("v = " + m["value"])["v"] != old:
+                break
+            pieces += [text[last:m.start("value")], _toml_value(new)]
+            last = m.end("value")
+        else:
+            edited = "".join(pieces) + text[last:]
+            entries = [e for e in tomllib.loads(edited).get("sweep", []) if key in e]
+            if [e[key] for e in entries] == [new for _, new in renames]:
+                return edited
+    doc = tomllib.loads(text)
+    for entry, (_, new) in zip([e for e in doc.get("sweep", []) if key in e], renames):
+        entry[key] = new
+    return _toml_document(doc, "rewritten by rfmeas: the files are named as kept in the history store")
+
+
+def _manifest_for_files(measurement, names: list[str]) -> str:
+    """A manifest for sweeps given without one, so that an exported record can be analysed again."""
+    doc: dict = {"transformer": {"name": measurement.name}}
+    for key in ("primary_turns", "secondary_turns"):
+        if getattr(measurement, key, None) is not None:
+            doc["transformer"][key] = getattr(measurement, key)
+    design = getattr(measurement, "design", None)
+    if design is not None:
+        doc["design"] = {k: v for k, v in design.to_dict().items() if v is not None and k != "target_turns_ratio"}
+    doc["sweep"] = []
+    for sweep, name in zip(measurement.sweeps, names):
+        entry = {"file": name, "port1": sweep.port1}
+        if sweep.port2 is not None and not sweep.is_through_method:
+            entry["port2"] = sweep.port2
+        else:
+            entry["termination"] = sweep.termination
+        if sweep.is_through_method:
+            entry["method"] = sweep.method
+        doc["sweep"].append(entry)
+    return _toml_document(doc, "written by rfmeas for sweep files given without a manifest")
+
+
+def record_sources(measurement) -> tuple[str | None, list[tuple[str, bytes]]]:
+    """(manifest text, [(name, bytes)]) to keep for a MeasurementSet, so that an export can be analysed.
+
+    Sweeps inside the manifest's folder keep the path the manifest names them by;
+    sweeps from elsewhere go to 'external/NAME' (NAME-2, ... when names clash) and
+    the kept manifest is rewritten to point at them. The same file listed twice is
+    kept once. Sweeps given without a manifest get a manifest written for them.
+    """
+    sweeps = [s for s in measurement.sweeps if s.raw_bytes is not None]
+    manifest_text = getattr(measurement, "manifest_text", None)
+    manifest_path = getattr(measurement, "manifest_path", None)
+    base = Path(manifest_path).resolve().parent if manifest_text is not None and manifest_path else None
+
+    def key(sweep) -> str:
+        return str(Path(sweep.path).resolve()) if sweep.path else f"label:{sweep.label}"
+
+    inside, outside = {}, {}
+    for sweep in sweeps:
+        if base is not None and sweep.path:
+            try:
+                inside.setdefault(key(sweep), Path(sweep.path).resolve().relative_to(base).as_posix())
+                continue
+            except ValueError:
+                pass
+        bare = Path(sweep.path).name if sweep.path else (sweep.label or "sweep.s1p")
+        outside.setdefault(key(sweep), f"{EXTERNAL_FOLDER}/{bare}" if base is not None else bare)
+    taken = {FALLBACK_MANIFEST_NAME, *inside.values()}
+    names = dict(inside)
+    for k, preferred in outside.items():
+        names[k] = _unique_name(preferred, taken)
+        taken.add(names[k])
+    out, seen = [], set()
+    for sweep in sweeps:
+        if key(sweep) not in seen:
+            seen.add(key(sweep))
+            out.append((names[key(sweep)], sweep.raw_bytes))
+    if manifest_text is None:
+        manifest_text = _manifest_for_files(measurement, [names[key(s)] for s in sweeps])
+    elif base is not None:
+        manifest_text = _renamed_manifest(manifest_text, _manifest_renames(manifest_text, base, names))
+        manifest_text = _with_fixtures(manifest_text, base, taken, out)
+    return manifest_text, [(FALLBACK_MANIFEST_NAME, manifest_text.encode("utf-8"))] + out
+
+
+def _fixture_files(toml_path: Path) -> list[Path] | None:
+    """A jig definition and the standard files it names, when they all lie in its folder (else None)."""
+    import tomllib
+
+    folder = toml_path.parent.resolve()
+    try:
+        doc = tomllib.loads(toml_path.read_text(encoding="utf-8"))
+    except (OSError, UnicodeDecodeError, tomllib.TOMLDecodeError):
+        return None
+    standards = doc.get("standards") if isinstance(doc.get("standards"), dict) else {}
+    files = [toml_path.resolve()]
+    for value in standards.values():
+        if isinstance(value, str):
+            path = (folder / value).resolve()
+            if not path.is_relative_to(folder) or not path.is_file():
+                return None
+            files.append(path)
+    return files
+
+
+def _with_fixtures(text: str, base: Path, taken: set[str], out: list) -> str:
+    """Keep the test jigs a manifest's sweeps name (definition and standards) with the record.
+
+    A jig inside the manifest's folder keeps its path; one from elsewhere goes to
+    'fixtures/NAME/' and the kept manifest is rewritten to point at it. A jig whose
+    standards lie outside its own folder is not kept (logged).
+    """
+    import tomllib
+
+    renames, kept = [], {}
+    for entry in tomllib.loads(text).get("sweep", []):
+        old = entry.get("fixture")
+        if not isinstance(old, str):
+            continue
+        toml_path = base / old
+        toml_path = toml_path / "fixture.toml" if toml_path.is_dir() else toml_path
+        files = _fixture_files(toml_path) if toml_path.is_file() else None
+        if files is None:
+            log.info("test jig '%s' is not kept with the record (not found, or its standards lie elsewhere)", old)
+            renames.append((old, old))
+            continue
+        folder = files[0].parent
+        if str(folder) not in kept:
+            if folder.is_relative_to(base):
+                prefix = folder.relative_to(base).as_posix()
+            else:
+                prefix, n = f"fixtures/{folder.name}", 2
+                while any(t == prefix or t.startswith(prefix + "/") for t in taken):
+                    prefix, n = f"fixtures/{folder.name}-{n}", n + 1
+            for path in files:
+                name = f"{prefix}/{path.relative_to(folder).as_posix()}" if prefix != "." else \
+                    path.relative_to(folder).as_posix()
+                if name not in taken:
+                    taken.add(name)
+                    out.append((name, path.read_bytes()))
+            kept[str(folder)] = prefix
+        prefix = kept[str(folder)]
+        new = f"{prefix}/{files[0].name}" if prefix != "." else files[0].name
+        renames.append((old, old if folder.is_relative_to(base) else new))
+    return _renamed_manifest(text, renames, key="fixture")
+
+
+def _manifest_renames(text: str, base: Path, names: dict[str, str]) -> list[tuple[str, str]]:
+    """(file as the manifest names it, name it is kept under) for each [[sweep]] entry."""
+    import tomllib
+
+    renames = []
+    for entry in tomllib.loads(text).get("sweep", []):
+        old = entry.get("file")
+        new = names.get(str((base / old).resolve()), old)
+        same = PurePosixPath(old.replace("\\", "/")).as_posix() == new  # 'x.s1p' named as './x.s1p'
+        renames.append((old, old if same else new))
+    return renames
+
+
 def record_analysis(store: HistoryStore, analysis) -> int:
     """Store an Analysis (anything with `.to_dict()` and `.sources`); returns the record id.
 
-    The manifest text is taken from the first .toml file among the sources (None
-    when the analysis came from bare sweep files).
+    The files kept are those of `record_sources` (an exported record can be
+    analysed again); an object without a measurement set gives its `sources`,
+    and the manifest text is then the first .toml file among them.
     """
     result = analysis.to_dict()
-    sources = list(analysis.sources)
-    manifest_text = next((content.decode("utf-8", errors="replace") for rel_path, content in sources
-                          if str(rel_path).lower().endswith(".toml")), None)
+    measurement = getattr(analysis, "recorded", None) or getattr(analysis, "measurement", None)
+    if measurement is not None and hasattr(measurement, "sweeps"):
+        manifest_text, sources = record_sources(measurement)
+    else:
+        sources = list(analysis.sources)
+        manifest_text = next((content.decode("utf-8", errors="replace") for rel_path, content in sources
+                              if str(rel_path).lower().endswith(".toml")), None)
     return store.record(result.get("name") or "unnamed", manifest_text, sources, result)

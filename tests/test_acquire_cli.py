@@ -25,7 +25,8 @@ def app():
     return real_app
 
 
-SIM = ["--resource", "sim", "--timeout", "30"]
+SIM = ["--resource", "sim", "--timeout", "5000"]  # see sim_acquire in test_instruments
+SHORT_TIMEOUT = ["--timeout", "30"]  # where a staged silence makes one wait for it
 
 
 def test_acquire_lcr_full_sweep(app, tmp_path):
@@ -56,7 +57,7 @@ def test_acquire_vna_two_port_with_secondary_on_port1(app, tmp_path):
 def test_acquire_timeout_mid_sweep(app, tmp_path):
     out = tmp_path / "pri_open.s1p"
     result = runner.invoke(app, ["acquire", *SIM, "-p", "lcr-scpi-generic", "--sweep", "100k:30M:31", "--log",
-                                 "-o", str(out), "--retries", "1", "--sim-fault", "silent@12"])
+                                 "-o", str(out), "--retries", "1", "--sim-fault", "silent@12", *SHORT_TIMEOUT])
     assert result.exit_code == 3
     assert "no reply to 'FETC?'" in result.stderr and "gave up after 2 tries" in result.stderr
     assert "pri_open.partial.s1p" in result.stderr
@@ -184,7 +185,7 @@ def test_guided_session_retry_and_stop_after_fault(app, tmp_path, monkeypatch):
     manifest = tmp_path / "set.toml"
     keys = ["u\n", "\n", "\n", "\n", "\n", "r\n", "\n", "q\n"]
     result = guided(app, manifest, keys, "-p", "lcr-scpi-generic", "--sweep", "1M:2M:3", "--retries", "0",
-                    "--no-analyze")
+                    "--no-analyze", *SHORT_TIMEOUT)
     assert result.exit_code == 3
     assert result.stderr.count("measurement failed") == 2
     data = tomllib.loads(manifest.read_text())

@@ -7,10 +7,8 @@ from typing import Optional
 
 import typer
 
-from ..errors import EXIT_INSTRUMENT, InputError, InstrumentError
+from ..errors import EXIT_INSTRUMENT, EXIT_INTERRUPTED, InputError, InstrumentError
 from ._common import handles_errors, print_json, stderr_console
-
-EXIT_INTERRUPTED = 130  # common practice for a program stopped by Ctrl-C (128 + SIGINT)
 
 # Options both commands take (typer reads these definitions; it does not change them)
 _SWEEP = typer.Option("100k:30M:201", "--sweep", help="START:STOP:POINTS, e.g. 100k:30M:201.")
@@ -50,7 +48,8 @@ def _connector(resource: str, backend: str, profile, timeout_ms: Optional[int], 
                                              profile.read_termination, profile.write_termination)
 
 
-def _measure(connect, profile, plan, wiring, output: Path, retries: Optional[int], label: str):
+def _measure(connect, profile, plan, wiring, output: Path, retries: Optional[int], label: str,
+             overwrite: bool = False):
     """One sweep with a progress bar on stderr; returns the AcquisitionResult."""
     from rich.progress import BarColumn, MofNCompleteColumn, Progress, TextColumn, TimeRemainingColumn
 
@@ -63,7 +62,7 @@ def _measure(connect, profile, plan, wiring, output: Path, retries: Optional[int
             task = progress.add_task(label, total=None)
             return acquire(Instrument(session, profile, retries), plan, output,
                            on_progress=lambda done, total: progress.update(task, completed=done, total=total),
-                           comments=[f"resource: {session.resource_name}"])
+                           comments=[f"resource: {session.resource_name}"], overwrite=overwrite)
     finally:
         session.close()
 
@@ -108,6 +107,8 @@ def register(app: typer.Typer) -> None:
                                             help="Simulation: the other winding open, short or a resistance in ohms."),
         sim_fault: Optional[str] = typer.Option(None, "--sim-fault",
                                                 help="Simulation: stage a fault, silent@N or garbage@N."),
+        overwrite: bool = typer.Option(False, "--overwrite", help="Measure anew into an existing file; the "
+                                       "earlier one is kept as NAME.previous-TIME.s1p."),
         as_json: bool = typer.Option(False, "--json", help="Print the result as JSON on stdout."),
     ):
         """Take one sweep from an LCR meter or VNA and write it to Touchstone as it goes."""
@@ -120,23 +121,27 @@ def register(app: typer.Typer) -> None:
             raise InputError(f"acquire needs {', '.join(missing)} (or --list)")
         from ..instruments import load_profile, parse_sweep
         from ..instruments.simulation import Wiring
-        from ..instruments.touchstone_stream import ports_for
+        from ..instruments.touchstone_stream import check_free, ports_for
 
         profile = load_profile(profile_name, profiles_dir)
         plan = parse_sweep(sweep, log_spacing)
         wiring = Wiring(sim_port1, sim_termination, ports_for(output))
         connect = _connector(resource, backend, profile, timeout_ms, sim_fault)
+        check_free(output, overwrite)
         try:
-            result = _measure(connect, profile, plan, wiring, output, retries, output.name)
-        except KeyboardInterrupt:
-            from ..instruments import partial_path
-
-            stderr_console().print(f"interrupted; the rows taken so far are in {partial_path(output)}")
+            result = _measure(connect, profile, plan, wiring, output, retries, output.name, overwrite)
+        except KeyboardInterrupt as exc:
+            kept = getattr(exc, "kept", None)
+            stderr_console().print("interrupted; " + (f"the readings taken so far are in {kept}" if kept else
+                                                      "no reading was taken, so no data were written"),
+                                   markup=False)
             raise typer.Exit(EXIT_INTERRUPTED) from None
         if as_json:
             print_json(result)
         else:
-            stderr_console().print(f"wrote {result.path} ({result.points} points from {result.identity})")
+            kept = f"; the earlier file is kept as {result.previous}" if result.previous else ""
+            stderr_console().print(f"wrote {result.path} ({result.points} points from {result.identity}){kept}",
+                                   markup=False)
 
     @app.command("acquire-set")
     @handles_errors
@@ -151,7 +156,8 @@ def register(app: typer.Typer) -> None:
         timeout_ms: Optional[int] = _TIMEOUT,
         retries: Optional[int] = _RETRIES,
         profiles_dir: Optional[Path] = _PROFILES_DIR,
-        overwrite: bool = typer.Option(False, "--overwrite", help="Replace an existing manifest and its files."),
+        overwrite: bool = typer.Option(False, "--overwrite", help="Measure anew over an existing manifest and its "
+                                       "sweeps; the earlier files are kept as NAME.previous-TIME.EXT."),
         analyze: Optional[bool] = typer.Option(None, "--analyze/--no-analyze",
                                                help="Analyse at the end without asking (default: ask)."),
         as_json: bool = typer.Option(False, "--json", help="Print the session summary as JSON on stdout."),
@@ -163,8 +169,14 @@ def register(app: typer.Typer) -> None:
         if manifest.suffix.lower() != ".toml":
             raise InputError("the manifest must be a .toml file", path=manifest)
         if manifest.exists() and not overwrite:
-            raise InputError("already exists; pass --overwrite to replace it", path=manifest)
+            raise InputError("already exists; pass --overwrite to measure anew (the earlier files are then "
+                             "kept as NAME.previous-TIME.EXT)", path=manifest)
         profile = load_profile(profile_name, profiles_dir)
+        existing = [step.file for step in default_plan(profile.kind) if (manifest.parent / step.file).exists()]
+        if existing and not overwrite:
+            raise InputError(f"the folder holds sweeps already ({', '.join(existing)}); pass --overwrite to "
+                             "measure anew (the earlier files are then kept as NAME.previous-TIME.EXT)",
+                             path=manifest.parent)
         plan = parse_sweep(sweep, log_spacing)
         connect = _connector(resource, backend, profile, timeout_ms, None)
         folder = manifest.parent
@@ -177,7 +189,8 @@ def register(app: typer.Typer) -> None:
         steps = default_plan(profile.kind)
         err.print(f"{len(steps)} sweeps, {plan.describe()}. Keep the leads short and the same for every sweep.")
         taken, last_error, interrupted = _walk(steps, lambda step: _measure(
-            connect, profile, plan, step.wiring, folder / step.file, retries, step.file), profile.kind, err)
+            connect, profile, plan, step.wiring, folder / step.file, retries, step.file, overwrite),
+            profile.kind, err)
 
         if not taken:
             if interrupted:
@@ -185,8 +198,10 @@ def register(app: typer.Typer) -> None:
             if last_error is not None:
                 raise last_error
             raise InputError("no sweep was taken; nothing written", path=manifest)
+        from ..instruments.touchstone_stream import keep_aside
         from ..io.atomic import atomic_write_text
 
+        keep_aside(manifest, leave_in_place=True)
         atomic_write_text(manifest, manifest_text(name, taken, *turns, comment=f"written by rfmeas "
                                                   f"acquire-set ({profile.name})"))
         err.print(f"\nwrote {manifest} with {len(taken)} of {len(steps)} sweeps", markup=False)
@@ -229,7 +244,10 @@ def _walk(steps, measure, kind: str, err):
                     answer = typer.prompt("r to retry, s to skip, q to stop", default="r", err=True).strip().lower()
             if answer == "q":
                 break
-    except (KeyboardInterrupt, typer.Abort):
+    except (KeyboardInterrupt, typer.Abort) as exc:
+        kept = getattr(exc, "kept", None)
+        if kept is not None:
+            err.print(f"the readings of the interrupted sweep are in {kept}", markup=False)
         return taken, last_error, True
     return taken, last_error, False
 

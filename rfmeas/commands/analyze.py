@@ -75,12 +75,16 @@ def analyze_command(
     from ..errors import EXIT_DESIGN_FAILED
 
     analysis = run_analysis(inputs, turns, termination, port1, plan, return_loss)
-    record_id = None
+    record_id, not_kept = None, None
     if record:
+        from ..errors import RfmeasError
         from ..store import HistoryStore, record_analysis
 
-        with HistoryStore(db) as store:
-            record_id = record_analysis(store, analysis)
+        try:
+            with HistoryStore(db) as store:
+                record_id = record_analysis(store, analysis)
+        except RfmeasError as exc:  # the analysis is still shown; the store's problem ends the run
+            not_kept = exc
     if json_output:
         print_json(analysis.to_dict())
     else:
@@ -95,6 +99,11 @@ def analyze_command(
         from .report import tell, write_outputs
 
         tell(write_outputs(analysis, report, plots_dir), stderr_console() if json_output else stdout_console())
+    if not_kept is not None:
+        from ._common import report_error
+
+        report_error(f"{not_kept}; this analysis was not kept in the history (--no-record skips keeping it)")
+        raise typer.Exit(not_kept.exit_code)
     from ..design import design_fails
 
     if design_fails(analysis.design_status):  # failed, or could not be judged

@@ -8,6 +8,7 @@ from typing import List, Optional
 import typer
 from rich.markup import escape
 
+from ..errors import EXIT_INTERRUPTED
 from ._common import handles_errors, print_json, report_error, stderr_console, stdout_console
 
 
@@ -28,11 +29,21 @@ def register(app: typer.Typer) -> None:
 
         paths = batch_module.find_manifests(targets)
         columns = (TextColumn("analysing"), BarColumn(), MofNCompleteColumn(), TimeElapsedColumn())
-        with Progress(*columns, console=stderr_console()) as bar:
-            task = bar.add_task("analysing", total=len(paths))
-            result = batch_module.run_batch(paths, workers=workers,
-                                            progress=lambda done, total, outcome: bar.update(task, completed=done),
-                                            analyse=batch_module.analyse_manifest)
+        finished = [0]
+
+        def progress(done, total, outcome):
+            finished[0] = done
+            bar.update(task, completed=done)
+
+        try:
+            with Progress(*columns, console=stderr_console()) as bar:
+                task = bar.add_task("analysing", total=len(paths))
+                result = batch_module.run_batch(paths, workers=workers, progress=progress,
+                                                analyse=batch_module.analyse_manifest)
+        except KeyboardInterrupt:
+            stderr_console().print(f"interrupted after {finished[0]} of {len(paths)} units; the workers are "
+                                   "stopped and nothing was written", markup=False)
+            raise typer.Exit(EXIT_INTERRUPTED) from None
         for unit in result.units:
             if unit.error:
                 report_error(unit.error)

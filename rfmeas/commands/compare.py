@@ -11,7 +11,7 @@ from rich.markup import escape
 
 from ..errors import InputError
 from ._common import handles_errors, print_json, stdout_console
-from .history import db_option
+from .history import db_option, print_notes
 
 _SWEEP_SUFFIX = re.compile(r"^\.s\d+p$", re.IGNORECASE)
 
@@ -58,6 +58,8 @@ def register(app: typer.Typer) -> None:
             after_result, after_label, after_id, after_analysis = load_side(after, store)
             before_result, before_label, _, before_analysis = load_side(
                 before, store, other_unit=after_result.get("name"), other_id=after_id)
+            notes = list(store.notes)
+        print_notes(notes)
         comparison = compare_results(before_result, after_result)
         if plot is not None:
             if before_analysis is None or after_analysis is None:
@@ -66,7 +68,7 @@ def register(app: typer.Typer) -> None:
 
             plot_comparison(before_analysis, after_analysis, plot)
         if json_out:
-            print_json({"before": before_label, "after": after_label, **comparison.to_dict()})
+            print_json({"before": before_label, "after": after_label, **comparison.to_dict(), "notes": notes})
             return
         _print_comparison(comparison, before_label, after_label)
 

@@ -8,7 +8,7 @@ from typing import Optional, Tuple
 import typer
 from rich.markup import escape
 
-from ._common import handles_errors, print_json, stdout_console
+from ._common import handles_errors, print_json, stderr_console, stdout_console
 
 DB_HELP = "History store file (default: $RFMEAS_DB, else rfmeas/history.sqlite3 in the user's data folder)."
 
@@ -43,9 +43,18 @@ def register(app: typer.Typer) -> None:
                 return
             rows = store.list(unit, limit=limit)
             if json_out:
-                print_json({"db": str(store.path), "records": [r.to_dict() for r in rows]})
+                print_json({"db": str(store.path), "records": [r.to_dict() for r in rows],
+                            "notes": list(store.notes)})
                 return
+            print_notes(store.notes)
             _print_table(rows, store.path, unit)
+
+
+def print_notes(notes) -> None:
+    """The store's notes (damaged records passed over), one line each on stderr."""
+    console = stderr_console()
+    for note in notes:
+        console.print(f"note: {note}", markup=False)
 
 
 def _print_table(rows, path, unit) -> None:

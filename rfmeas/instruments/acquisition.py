@@ -18,7 +18,7 @@ from .profiles import Profile
 from .replies import parse_point, parse_trace
 from .session import InstrumentTimeout, Session
 from .sweep import SweepPlan
-from .touchstone_stream import TouchstoneStream, ports_for
+from .touchstone_stream import TouchstoneStream, check_free, ports_for
 
 log = logging.getLogger(__name__)
 
@@ -162,44 +162,98 @@ class AcquisitionResult:
     profile: str
     sweep: SweepPlan
     parameters: tuple[str, ...] = field(default=ONE_PORT)
+    previous: str | None = None  # where the file this one replaced was kept
 
     def to_dict(self) -> dict:
         return {"path": self.path, "points": self.points, "ports": self.ports, "identity": self.identity,
-                "profile": self.profile, "sweep": self.sweep.to_dict(), "parameters": list(self.parameters)}
+                "profile": self.profile, "sweep": self.sweep.to_dict(), "parameters": list(self.parameters),
+                "previous": self.previous}
+
+
+class AcquisitionInterrupted(KeyboardInterrupt):
+    """Ctrl-C during an acquisition; `kept` is the partial file holding data (None: nothing was measured)."""
+
+    def __init__(self, kept: Path | None):
+        super().__init__()
+        self.kept = kept
 
 
 def _reflection(z_ohm: complex) -> complex:
     return (z_ohm - Z0_OHM) / (z_ohm + Z0_OHM)
 
 
-def _with_partial_note(exc: InstrumentError, stream: TouchstoneStream, total: int) -> InstrumentError:
-    note = (f"; partial data ({stream.rows} of {total} points) kept in {stream.partial}"
-            if stream.rows else f"; no data taken ({stream.partial} holds the header only)")
+def _with_partial_note(exc: InstrumentError, stream: TouchstoneStream, total: int,
+                       kept: Path | None = None) -> InstrumentError:
+    if kept is not None:
+        note = f"; the traces read before the fault are kept in {kept}"
+    elif stream.rows:
+        note = f"; partial data ({stream.rows} of {total} points) kept in {stream.partial}"
+    else:
+        note = f"; no data taken ({stream.partial} holds the header only)"
     return type(exc)(exc.message + note, path=exc.path)
+
+
+def _keep_traces(stream: TouchstoneStream, f_Hz, traces: dict, reason: str, comments) -> Path | None:
+    """Write the two-port traces read before a fault or Ctrl-C; returns the file that holds them.
+
+    With S11 and S21 the rows go to the partial .s2p as a forward-only sweep
+    (S12 and S22 written as 0, the convention for "not measured"; an S12 read
+    without S22 is left out); with S11 alone to a partial .s1p beside it.
+    None when no trace was read.
+    """
+    if "S21" in traces:
+        zero = np.zeros(len(f_Hz), dtype=complex)
+        if "S22" not in traces:
+            stream._write("! forward only: S12 and S22 were not read before the sweep stopped\n")
+        for i, f in enumerate(f_Hz):
+            s12 = traces["S12"][i] if "S22" in traces else zero[i]
+            s22 = traces["S22"][i] if "S22" in traces else zero[i]
+            stream.write_row(f, np.array([[traces["S11"][i], s12], [traces["S21"][i], s22]]))
+        stream.abandon(reason)
+        return stream.partial
+    if "S11" in traces:
+        one_port = TouchstoneStream(stream.path.with_suffix(".s1p"), 1, stream.z0_ohm,
+                                    [*comments, "S11 of a two-port sweep that stopped before S21 was read"],
+                                    overwrite=True).open()
+        for i, f in enumerate(f_Hz):
+            one_port.write_row(f, traces["S11"][i])
+        one_port.abandon(reason)
+        stream.abandon(reason)
+        stream.partial.unlink()  # it held the header only; the data are in the one-port file
+        return one_port.partial
+    return None
 
 
 def acquire(instrument: Instrument, plan: SweepPlan, output: str | Path,
             on_progress: Callable[[int, int], None] | None = None,
-            comments=()) -> AcquisitionResult:
+            comments=(), overwrite: bool = False) -> AcquisitionResult:
     """Identify, configure, sweep and write `output` (.s1p or .s2p) as the rows arrive.
 
     On an instrument fault, a lost connection or Ctrl-C the rows taken so far
-    stay in the partial file (see touchstone_stream) and the error is re-raised.
+    stay in the partial file (see touchstone_stream) and the error is re-raised;
+    a VNA's two-port traces read before the fault are written there too
+    (_keep_traces). An existing `output` is refused unless `overwrite`, which
+    keeps it beside the new file.
     """
     output = Path(output)
     ports = ports_for(output)
     profile = instrument.profile
     if profile.kind == "lcr" and ports != 1:
         raise InputError("an LCR meter gives one-port readings; write a .s1p file", path=output)
+    check_free(output, overwrite)
     parameters = ONE_PORT if ports == 1 else TWO_PORT
     progress = on_progress or (lambda done, total: None)
 
-    identity = instrument.identify()
-    instrument.configure()
+    try:
+        identity = instrument.identify()
+        instrument.configure()
+    except KeyboardInterrupt:
+        raise AcquisitionInterrupted(None) from None
     f_Hz = plan.frequencies_Hz()
     header = [f"rfmeas acquire, profile {profile.name}", f"instrument: {identity}",
               f"sweep: {plan.describe()}", *comments]
-    stream = TouchstoneStream(output, ports, Z0_OHM, header).open()
+    stream = TouchstoneStream(output, ports, Z0_OHM, header, overwrite=overwrite).open()
+    traces: dict[str, np.ndarray] = {}
     try:
         if profile.kind == "lcr":
             progress(0, plan.points)
@@ -211,7 +265,6 @@ def acquire(instrument: Instrument, plan: SweepPlan, output: str | Path,
             progress(0, len(parameters))
             instrument.set_sweep(plan)
             instrument.sweep_once()
-            traces = {}
             for index, name in enumerate(parameters):
                 traces[name] = instrument.read_trace(name, plan.points)
                 progress(index + 1, len(parameters))
@@ -220,13 +273,18 @@ def acquire(instrument: Instrument, plan: SweepPlan, output: str | Path,
                      np.array([[traces["S11"][i], traces["S12"][i]], [traces["S21"][i], traces["S22"][i]]]))
                 stream.write_row(f, s)
     except InstrumentError as exc:
+        kept = _keep_traces(stream, f_Hz, traces, exc.message, header) if ports == 2 and not stream.rows else None
         stream.abandon(exc.message)
-        raise _with_partial_note(exc, stream, plan.points) from exc
+        raise _with_partial_note(exc, stream, plan.points, kept) from exc
     except KeyboardInterrupt:
+        kept = (_keep_traces(stream, f_Hz, traces, "interrupted by the user (Ctrl-C)", header)
+                if ports == 2 and not stream.rows else None)
         stream.abandon("interrupted by the user (Ctrl-C)")
-        raise
+        raise AcquisitionInterrupted(kept or (stream.partial if stream.rows else None)) from None
     except BaseException as exc:
         stream.abandon(f"{type(exc).__name__}: {exc}")
         raise
     path = stream.finish()
-    return AcquisitionResult(str(path), plan.points, ports, identity, profile.name, plan, parameters)
+    return AcquisitionResult(str(path), plan.points, ports, identity, profile.name, plan, parameters,
+                             None if stream.previous is None else str(stream.previous))
+

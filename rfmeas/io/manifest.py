@@ -64,6 +64,7 @@ def load_sweep(file_path: Path, port1: str, termination=None, port2: str | None 
     data = read_touchstone(file_path)
     label = label or file_path.name
     warnings = list(data.warnings)
+    partial = _partial_sweep(data.raw_bytes, file_path, warnings)
     where_path = manifest_path or file_path
     if method != "reflection":
         if data.port_count != 2 or port2 is not None or termination is None:
@@ -78,7 +79,7 @@ def load_sweep(file_path: Path, port1: str, termination=None, port2: str | None 
             raise InputError(f"{where}: jig compensation applies to reflection sweeps only", where_path)
         return Sweep(network=data.network, port1=port1, termination=termination, label=label,
                      path=str(file_path), warnings=tuple(warnings), raw_bytes=data.raw_bytes,
-                     sha256=data.sha256, method=method)
+                     sha256=data.sha256, method=method, partial=partial)
     if port2 is not None:
         if data.port_count != 2:
             raise InputError(f"{where} says port2 = '{port2}' but {file_path.name} is a one-port file",
@@ -108,7 +109,18 @@ def load_sweep(file_path: Path, port1: str, termination=None, port2: str | None 
     return Sweep(network=network, port1=port1, termination=termination, port2=port2,
                  forward_only=forward_only, label=label, path=str(file_path),
                  warnings=tuple(warnings), raw_bytes=data.raw_bytes, sha256=data.sha256,
-                 fixture=fixture_name)
+                 fixture=fixture_name, partial=partial)
+
+
+def _partial_sweep(raw_bytes: bytes, file_path: Path, warnings: list[str]) -> bool:
+    """True (with a warning naming the file) when the file is marked as an incomplete sweep."""
+    from .incomplete import marked_incomplete
+
+    if not marked_incomplete(raw_bytes):
+        return False
+    warnings.append(f"{file_path.name} is marked as an incomplete sweep (its acquisition was interrupted): "
+                    "its data are used, but no design verdict may rest on it")
+    return True
 
 
 def _compensate(network, fixture_path: Path):
