@@ -63,7 +63,9 @@ def test_bare_files_of_the_same_name_are_kept_and_can_be_analysed_again(tmp_path
     (tmp_path / "a").mkdir()
     (tmp_path / "b").mkdir()
     shutil.copy(SAMPLE / "pri_open.s1p", tmp_path / "a" / "open.s1p")
-    (tmp_path / "b" / "open.s1p").write_bytes(b"! second reading\n" + (SAMPLE / "pri_open.s1p").read_bytes())
+    # a second, different reading under the same name (identical data would be refused as a repeat)
+    (tmp_path / "b" / "open.s1p").write_bytes(b"! second reading\n" + (SAMPLE.parent / "coupler-after" /
+                                                                        "pri_open.s1p").read_bytes())
     shutil.copy(SAMPLE / "thru.s2p", tmp_path / "b" / "thru.s2p")
     db = tmp_path / "h.sqlite3"
     files = [tmp_path / "a" / "open.s1p", tmp_path / "b" / "open.s1p", tmp_path / "b" / "thru.s2p"]
