@@ -6,6 +6,7 @@ from dataclasses import dataclass, field, replace
 from pathlib import Path
 
 from . import __version__
+from .jsonio import SCHEMA_VERSION
 from .results import FitResult
 from .sweep import MeasurementSet
 
@@ -52,6 +53,7 @@ class Analysis:
     def to_dict(self) -> dict:
         fit = self.fit.to_dict()
         return {
+            "schema_version": SCHEMA_VERSION,
             "name": self.name,
             "parameters": fit["parameters"],
             "figures": self.figures,

@@ -206,6 +206,7 @@ class CoreAnalysis:
         fr_in_band = band is not None and band["start_Hz"] <= self.relaxation_frequency_Hz <= band["stop_Hz"]
         material = None if self.material_class is None else self.material_class.to_dict()
         return {
+            "schema_version": __import__("rfmeas.jsonio").jsonio.SCHEMA_VERSION,
             "turns": int(self.turns),
             "core": self.geometry.to_dict(),
             "method": self.method,

@@ -5,6 +5,9 @@ from __future__ import annotations
 import json
 import math
 
+SCHEMA_VERSION = 1
+"""Version of the JSON contract (docs/DESIGN.md): keys are only added within a version."""
+
 
 def _json_default(value):
     try:
