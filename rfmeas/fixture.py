@@ -143,6 +143,12 @@ class StandardsCompensation:
         return cls(f, e00, e11, delta, float(z0_ohm), load_s11 is not None,
                    None if load_ohm is None else float(load_ohm))
 
+    def to_dict(self) -> dict:
+        """A summary (the error terms themselves stay inside)."""
+        return {"with_load": self.with_load, "load_ohm": self.load_ohm, "z0_ohm": self.z0_ohm,
+                "start_Hz": float(self.frequency_Hz[0]), "stop_Hz": float(self.frequency_Hz[-1]),
+                "points": int(self.frequency_Hz.size)}
+
     def _terms_on(self, f_Hz, path=None):
         f = np.asarray(f_Hz, dtype=float)
         lo, hi = self.frequency_Hz[0], self.frequency_Hz[-1]
@@ -233,11 +239,7 @@ class Fixture:
         if self.extension is not None:
             out["extension"] = self.extension.to_dict()
         if self.standards is not None:
-            st = self.standards
-            out["standards"] = {"files": dict(self.standard_files), "with_load": st.with_load,
-                                "load_ohm": st.load_ohm, "z0_ohm": st.z0_ohm,
-                                "start_Hz": float(st.frequency_Hz[0]), "stop_Hz": float(st.frequency_Hz[-1]),
-                                "points": int(st.frequency_Hz.size)}
+            out["standards"] = {"files": dict(self.standard_files), **self.standards.to_dict()}
         return out
 
 
