@@ -89,3 +89,23 @@ def test_every_public_frozen_result_has_to_dict():
     lacking = [name for name, cls in _frozen_dataclasses().items()
                if name not in NOT_RESULTS and not callable(getattr(cls, "to_dict", None))]
     assert lacking == [], f"frozen results without to_dict(): {lacking}"
+
+
+def test_jig_standards_summary_matches_the_standard_files():
+    """Fixture.to_dict() carries the standards' summary; checked against the open standard's own
+    grid as scikit-rf reads it."""
+    from pathlib import Path
+
+    import skrf
+
+    from rfmeas.fixture import load_fixture
+
+    folder = Path(__file__).resolve().parents[1] / "fixtures" / "clip-leads"
+    fixture = load_fixture(folder / "fixture.toml")
+    open_standard = skrf.Network(str(folder / "open.s1p"))
+    summary = fixture.to_dict()["standards"]
+    assert summary == {"files": dict(fixture.standard_files), **fixture.standards.to_dict()}
+    assert summary["points"] == len(open_standard.f)
+    assert summary["start_Hz"] == pytest.approx(open_standard.f[0])
+    assert summary["stop_Hz"] == pytest.approx(open_standard.f[-1])
+    assert summary["with_load"] is True
