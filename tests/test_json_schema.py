@@ -49,9 +49,11 @@ def test_sample_sets_validate(folder):
     assert isinstance(data["design_check"], dict)  # both sets carry a [design]
 
 
-def test_set_without_design_or_turns_validates():
-    """design_check is null and the turn-dependent figures are empty: still the contract."""
-    data = json.loads(dumps_json(analyze_files([SAMPLE / "coupler-before" / "thru.s2p"]).to_dict()))
+@pytest.mark.parametrize("file", ["thru.s2p", "pri_open.s1p"])
+def test_set_without_design_or_turns_validates(file):
+    """design_check is null, turn-dependent figures have no value, and (from one open sweep) several
+    parameters are not determined: still the contract."""
+    data = json.loads(dumps_json(analyze_files([SAMPLE / "coupler-before" / file]).to_dict()))
     assert data["design_check"] is None
     assert _errors(_validator("analysis"), data) == []
 
