@@ -250,7 +250,7 @@ def _combined_key(prefix: str, primary_known: bool, secondary_known: bool, held:
 
 
 def compute_figures(measurement, result, cannot_judge: tuple[str, ...] = ()) -> tuple[dict, dict | None, list[str]]:
-    """(figures, design_check, warnings) for a fitted measurement set; see DESIGN.md 'JSON contract'.
+    """(figures, design_check, warnings) for a fitted measurement set; see docs/DESIGN.md 'JSON contract'.
 
     With reasons in `cannot_judge` (rfmeas.sanity.review_fit) the design check is not judged.
     """

@@ -1,4 +1,4 @@
-"""Strict manifest validation (DESIGN.md, "Measurement set manifest"): every mistake is an
+"""Strict manifest validation (docs/DESIGN.md, "Measurement set manifest"): every mistake is an
 InputError that names the offending key and the manifest file."""
 
 from __future__ import annotations

@@ -1,4 +1,4 @@
-"""Measurement-set manifests (TOML, see DESIGN.md): strict validation, paths relative to the file."""
+"""Measurement-set manifests (TOML, see docs/DESIGN.md): strict validation, paths relative to the file."""
 
 from __future__ import annotations
 
