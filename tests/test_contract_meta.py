@@ -29,7 +29,7 @@ NOT_RESULTS = {
 }
 
 
-def _commands() -> dict:
+def _commands(typer_app=app) -> dict:
     """name -> click command, sub-groups flattened ('group sub')."""
     found = {}
 
@@ -40,8 +40,17 @@ def _commands() -> dict:
             else:
                 found[prefix + name] = command
 
-    walk(typer.main.get_command(app))
+    walk(typer.main.get_command(typer_app))
     return found
+
+
+def _has_json(command) -> bool:
+    return any("--json" in p.opts for p in command.params)
+
+
+def _lacking_to_dict(classes: dict) -> list[str]:
+    return [name for name, cls in classes.items()
+            if name not in NOT_RESULTS and not callable(getattr(cls, "to_dict", None))]
 
 
 def _frozen_dataclasses() -> dict:
@@ -64,7 +73,7 @@ def test_every_command_module_registers_a_command():
 @pytest.mark.parametrize("name", sorted(_commands()))
 def test_every_result_command_offers_json(name):
     command = _commands()[name]
-    has_json = any("--json" in p.opts for p in command.params)
+    has_json = _has_json(command)
     if name in NO_JSON:
         assert not has_json, f"'{name}' now offers --json: remove it from NO_JSON"
     else:
@@ -86,9 +95,37 @@ def test_the_package_has_results_to_check():
 
 
 def test_every_public_frozen_result_has_to_dict():
-    lacking = [name for name, cls in _frozen_dataclasses().items()
-               if name not in NOT_RESULTS and not callable(getattr(cls, "to_dict", None))]
+    lacking = _lacking_to_dict(_frozen_dataclasses())
     assert lacking == [], f"frozen results without to_dict(): {lacking}"
+
+
+def test_the_checks_can_fail():
+    """A command without --json and a frozen result without to_dict() are both caught."""
+    probe = typer.Typer()
+
+    @probe.command("with-json")
+    def _with(json_output: bool = typer.Option(False, "--json")):
+        pass
+
+    @probe.command("without-json")
+    def _without(out: str = typer.Option(".", "--out")):
+        pass
+
+    found = _commands(probe)
+    assert {name: _has_json(c) for name, c in found.items()} == {"with-json": True, "without-json": False}
+
+    @dataclasses.dataclass(frozen=True)
+    class Bare:
+        value: float
+
+    @dataclasses.dataclass(frozen=True)
+    class WithDict:
+        value: float
+
+        def to_dict(self) -> dict:
+            return {"value": self.value}
+
+    assert _lacking_to_dict({"probe.Bare": Bare, "probe.WithDict": WithDict}) == ["probe.Bare"]
 
 
 def test_jig_standards_summary_matches_the_standard_files():
