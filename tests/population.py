@@ -39,7 +39,7 @@ from rfmeas.model.params import TransformerParams
 from reference.spice import _num, run_ngspice
 
 Z0_OHM = 50.0
-GENERATOR_VERSION = 1   # bump when the same spec would give other files
+GENERATOR_VERSION = 2   # bump when the same spec would give other files
 SWEEP_KINDS = ("pri_open", "pri_short", "sec_open", "thru")
 # The sweep subsets a user may bring; the value lists the sweeps in each.
 SUBSETS = {
@@ -418,13 +418,15 @@ def _apply_calibration(cal: Calibration, f_Hz, s, two_port: bool):
     return out
 
 
-def _pair(value: complex, fmt: str) -> str:
+def format_pair(value: complex, fmt: str, digits: int = 9) -> str:
+    """One complex value as the two numbers of a Touchstone RI, MA or DB column (angle in degrees)."""
+    value = complex(value)
     if fmt == "RI":
-        return f"{value.real:.9g} {value.imag:.9g}"
+        return f"{value.real:.{digits}g} {value.imag:.{digits}g}"
     angle = math.degrees(math.atan2(value.imag, value.real))
     if fmt == "MA":
-        return f"{abs(value):.9g} {angle:.7g}"
-    return f"{20 * math.log10(abs(value)):.9g} {angle:.7g}"
+        return f"{abs(value):.{digits}g} {angle:.{digits}g}"
+    return f"{20 * math.log10(abs(value)):.{digits}g} {angle:.{digits}g}"
 
 
 def touchstone_text(spec: UnitSpec, kind: str, f_text: list[str], s, repeat=None) -> str:
@@ -448,9 +450,9 @@ def touchstone_text(spec: UnitSpec, kind: str, f_text: list[str], s, repeat=None
     fmt = spec.file_format
     for f_str, value in rows:
         if not two_port:
-            lines.append(f"{f_str} {_pair(complex(value), fmt)}")
+            lines.append(f"{f_str} {format_pair(value, fmt)}")
             continue
-        s11, s21, s12, s22 = (_pair(complex(value[i, j]), fmt) for i, j in ((0, 0), (1, 0), (0, 1), (1, 1)))
+        s11, s21, s12, s22 = (format_pair(value[i, j], fmt) for i, j in ((0, 0), (1, 0), (0, 1), (1, 1)))
         if spec.forward_only:
             s12 = s22 = spec.unmeasured
         cols = (s11, s12, s21, s22) if order_12_21 else (s11, s21, s12, s22)
@@ -705,6 +707,6 @@ def with_noise_seed(spec: UnitSpec, noise_seed: int) -> UnitSpec:
 __all__ = [
     "SUBSETS", "DETERMINED_BY", "CORE_LOSS_PLACEMENTS", "UnitSpec", "Truth", "Calibration",
     "draw_unit", "draw_population", "make_unit", "write_unit", "load_truth", "simulate_unit",
-    "frequency_grid", "with_noise_seed", "information_limit", "KEY_QUANTITIES",
+    "frequency_grid", "format_pair", "with_noise_seed", "information_limit", "KEY_QUANTITIES",
     "TOLERANCES", "Verdict", "judge", "refused", "true_value",
 ]

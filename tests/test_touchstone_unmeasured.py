@@ -10,11 +10,10 @@ S21 S12 S22) and 2.0 ([Two-Port Data Order] 12_21 or 21_12).
 
 from __future__ import annotations
 
-import math
-
 import numpy as np
 import pytest
 
+from population import format_pair
 from rfmeas.errors import InputError
 from rfmeas.io.manifest import load_manifest
 from rfmeas.io.touchstone import UNMEASURED_BELOW, read_touchstone_bytes
@@ -25,12 +24,7 @@ S21 = (0.7 - 0.1j, 0.65 - 0.15j, 0.6 - 0.2j, 0.5 - 0.3j)
 
 
 def pair(z: complex, fmt: str) -> str:
-    if fmt == "RI":
-        return f"{z.real!r} {z.imag!r}"
-    angle = math.degrees(math.atan2(z.imag, z.real))
-    if fmt == "MA":
-        return f"{abs(z)!r} {angle!r}"
-    return f"{20 * math.log10(abs(z))!r} {angle!r}"
+    return format_pair(z, fmt, digits=17)
 
 
 def two_port(fmt: str, s12: list[str], s22: list[str], version: int = 1, order: str = "21_12") -> bytes:
