@@ -39,7 +39,7 @@ from rfmeas.model.params import TransformerParams
 from reference.spice import _num, run_ngspice
 
 Z0_OHM = 50.0
-GENERATOR_VERSION = 2   # bump when the same spec would give other files
+GENERATOR_VERSION = 3   # bump when the same spec would give other files
 SWEEP_KINDS = ("pri_open", "pri_short", "sec_open", "thru")
 # The sweep subsets a user may bring; the value lists the sweeps in each.
 SUBSETS = {
@@ -235,7 +235,7 @@ def draw_unit(rng: np.random.Generator, name: str = "unit", **overrides) -> Unit
         "version": 2 if rng.uniform() < 0.15 else 1,
         "forward_only": bool(rng.uniform() < 0.75),
         "unmeasured_choice": int(rng.integers(3)),
-        "calibration": draw_calibration(rng) if rng.uniform() < 0.35 else None,
+        "calibration": draw_calibration(rng) if rng.uniform() < 0.25 else None,
         "stitch": rng.uniform() < 0.2,
         "stitch_fraction": float(rng.uniform(0.3, 0.7)),
         "odd_options": rng.uniform() < 0.2,
@@ -478,7 +478,8 @@ def _manifest(spec: UnitSpec) -> str:
 
 
 def write_unit(spec: UnitSpec, folder, clean: dict | None = None) -> Truth:
-    """Simulate `spec` and write its folder (Touchstone files, manifest.toml, truth.json).
+    """Simulate `spec` and write its folder (Touchstone files, manifest.toml, truth.json, and
+    clean.npz: the noise-free sweeps before any calibration residue, see `load_clean`).
 
     `clean` may pass noise-free sweeps from an earlier `simulate_unit` call of the
     same spec (to redraw only the noise)."""
@@ -507,6 +508,7 @@ def write_unit(spec: UnitSpec, folder, clean: dict | None = None) -> Truth:
         ext = "s2p" if kind == "thru" else "s1p"
         (folder / f"{kind}.{ext}").write_text(touchstone_text(spec, kind, f_text, s, repeat))
     (folder / "manifest.toml").write_text(_manifest(spec))
+    np.savez(folder / "clean.npz", **clean)
     truth = Truth(name=spec.name, params=spec.params, core_loss=spec.core_loss, subset=spec.subset,
                   sweeps=spec.sweeps, noise=spec.noise, folder=str(folder), spec=spec.to_dict())
     (folder / "truth.json").write_text(json.dumps(truth.to_dict(), indent=1))
@@ -699,6 +701,57 @@ def refused(message: str) -> Verdict:
                    polarity_ok=None, details={}, refused=message)
 
 
+def load_clean(folder) -> dict:
+    """The noise-free sweeps `write_unit` saved in `folder` ({"f_Hz": ..., kind: S})."""
+    with np.load(Path(folder) / "clean.npz") as data:
+        return {key: data[key] for key in data.files}
+
+
+def _rows_of(spec: UnitSpec, sweeps: dict) -> np.ndarray:
+    """Real and imaginary parts of every fitted S element, in `_model_rows` order."""
+    parts = []
+    for kind in spec.sweeps:
+        s = sweeps[kind]
+        if kind == "thru":
+            parts += [s[:, 0, 0], s[:, 1, 0]] + ([] if spec.forward_only else [s[:, 0, 1], s[:, 1, 1]])
+        else:
+            parts.append(s)
+    z = np.concatenate(parts)
+    return np.concatenate([z.real, z.imag])
+
+
+def model_limit(spec: UnitSpec, clean: dict) -> dict[str, float]:
+    """Relative error of each key quantity at the model's best fit to the noise-free data.
+
+    The data are what the files hold without noise (calibration residue
+    included); the fit starts at the truth and is local, in the coordinates of
+    `information_limit`, with the same weak prior. It is the systematic error no
+    fit of the model can avoid: zero for the model's own core-loss placement
+    without calibration residue, not for the other placement or with a residue.
+    """
+    from scipy.optimize import least_squares
+
+    p = spec.params
+    f_Hz = clean["f_Hz"]
+    measured = {kind: clean[kind] for kind in spec.sweeps}
+    if spec.calibration is not None:
+        measured = {kind: _apply_calibration(spec.calibration, f_Hz, s, s.ndim == 3) for kind, s in measured.items()}
+    data = _rows_of(spec, measured)
+    x0 = np.log([p.L1_H, p.L2_H, 1.0 - p.k, p.R1_ohm, p.R2_ohm, p.Rc_ohm, p.C1_F, p.C2_F, p.C12_F])
+
+    def residual(x):
+        with np.errstate(all="ignore"):
+            model = _model_rows(_params_from_log(np.clip(x, -60.0, 30.0), p.polarity), f_Hz, spec.sweeps,
+                                spec.forward_only)
+        out = np.concatenate([(model - data) / spec.noise, (x - x0) / PRIOR_LOG_SD])
+        return np.where(np.isfinite(out), out, 1e12)
+
+    x0_safe = x0.copy()
+    x0_safe[2] = min(x0_safe[2], math.log(0.5))
+    best = least_squares(residual, x0_safe, method="lm", x_scale=1.0)
+    return {name: float(math.exp(_log_of(name, best.x) - _log_of(name, x0)) - 1.0) for name in KEY_QUANTITIES}
+
+
 def with_noise_seed(spec: UnitSpec, noise_seed: int) -> UnitSpec:
     """The same unit measured again: only the noise differs."""
     return replace(spec, noise_seed=int(noise_seed))
@@ -707,6 +760,6 @@ def with_noise_seed(spec: UnitSpec, noise_seed: int) -> UnitSpec:
 __all__ = [
     "SUBSETS", "DETERMINED_BY", "CORE_LOSS_PLACEMENTS", "UnitSpec", "Truth", "Calibration",
     "draw_unit", "draw_population", "make_unit", "write_unit", "load_truth", "simulate_unit",
-    "frequency_grid", "format_pair", "with_noise_seed", "information_limit", "KEY_QUANTITIES",
+    "frequency_grid", "format_pair", "with_noise_seed", "information_limit", "model_limit", "load_clean", "KEY_QUANTITIES",
     "TOLERANCES", "Verdict", "judge", "refused", "true_value",
 ]
