@@ -6,9 +6,11 @@ small-VNA noise, sometimes a calibration residue, and written as a measurement
 folder: Touchstone files in RI, MA or DB, in Hz, kHz or MHz, v1 or v2, most
 thrus forward-only with their unmeasured columns written the way exporters do
 (-300 or -600 dB, tiny magnitudes or exact zeros), plus manifest.toml and
-truth.json. The sweeps come from ngspice, never from rfmeas's model; only
-`information_limit` (the Cramer-Rao bound) uses the model, whose closed form
-matches ngspice to 1e-12 (tests/test_model_reference.py).
+truth.json. The sweeps come from ngspice, never from rfmeas's model; only the
+yardsticks `information_limit` (the Cramer-Rao bound) and `model_limit` (the
+model's best fit to the noise-free data) use the model, whose closed form
+matches ngspice to 1e-12 (tests/test_model_reference.py). `judge` compares an
+analysis's JSON with the truth.
 
 Two core-loss placements:
 - "magnetizing": Rc across the magnetising inductance Lm = k L1 (the model's
@@ -190,8 +192,9 @@ class Truth:
 
     def to_dict(self) -> dict:
         return {
-            "generator_version": GENERATOR_VERSION, "name": self.name, "core_loss": self.core_loss, "subset": self.subset,
-            "sweeps": list(self.sweeps), "noise": self.noise, "params": self.params.to_dict(),
+            "generator_version": GENERATOR_VERSION, "name": self.name, "core_loss": self.core_loss,
+            "subset": self.subset, "sweeps": list(self.sweeps), "noise": self.noise,
+            "params": self.params.to_dict(),
             "leakage_inductance_H": self.leakage_H, "effective_turns_ratio": self.ratio,
             "spec": self.spec,
         }
@@ -735,7 +738,8 @@ def model_limit(spec: UnitSpec, clean: dict) -> dict[str, float]:
     f_Hz = clean["f_Hz"]
     measured = {kind: clean[kind] for kind in spec.sweeps}
     if spec.calibration is not None:
-        measured = {kind: _apply_calibration(spec.calibration, f_Hz, s, s.ndim == 3) for kind, s in measured.items()}
+        measured = {kind: _apply_calibration(spec.calibration, f_Hz, s, s.ndim == 3)
+                    for kind, s in measured.items()}
     data = _rows_of(spec, measured)
     x0 = np.log([p.L1_H, p.L2_H, 1.0 - p.k, p.R1_ohm, p.R2_ohm, p.Rc_ohm, p.C1_F, p.C2_F, p.C12_F])
 
@@ -760,6 +764,7 @@ def with_noise_seed(spec: UnitSpec, noise_seed: int) -> UnitSpec:
 __all__ = [
     "SUBSETS", "DETERMINED_BY", "CORE_LOSS_PLACEMENTS", "UnitSpec", "Truth", "Calibration",
     "draw_unit", "draw_population", "make_unit", "write_unit", "load_truth", "simulate_unit",
-    "frequency_grid", "format_pair", "with_noise_seed", "information_limit", "model_limit", "load_clean", "KEY_QUANTITIES",
+    "frequency_grid", "format_pair", "with_noise_seed", "information_limit", "model_limit", "load_clean",
+    "KEY_QUANTITIES",
     "TOLERANCES", "Verdict", "judge", "refused", "true_value",
 ]

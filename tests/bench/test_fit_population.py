@@ -98,7 +98,8 @@ def _drawn(spec: pop.UnitSpec) -> str:
             f"R1 {p.R1_ohm:.2g}, R2 {p.R2_ohm:.2g} ohm, corner {p.Rc_ohm / (2 * math.pi * across) / 1e6:.2g} MHz, "
             f"C1 {p.C1_F * 1e12:.2g} C2 {p.C2_F * 1e12:.2g} C12 {p.C12_F * 1e12:.2g} pF, pol {p.polarity:+d}; "
             f"Rc across {spec.core_loss}, {spec.subset}, {spec.start_Hz / 1e3:g} kHz-{spec.stop_Hz / 1e6:g} MHz "
-            f"{spec.points} {spec.spacing}, noise {spec.noise:.1e}, {spec.file_format}/{spec.file_unit}/v{spec.version}"
+            f"{spec.points} {spec.spacing}, noise {spec.noise:.1e}, "
+            f"{spec.file_format}/{spec.file_unit}/v{spec.version}"
             f"{', fwd-only' if spec.forward_only and 'thru' in spec.sweeps else ''}"
             f"{', cal residue' if spec.calibration else ''}{', stitched' if spec.stitch_at is not None else ''}")
 
@@ -184,9 +185,11 @@ def test_fit_population(population_root):
         })
         records[-1]["reachable"] = records[-1]["informative"] and records[-1]["representable"]
 
+    import rfmeas
+
     n = len(records)
     lines = ["", f"Fit population: {UNITS} units (seed {SEED}), simulated/loaded in {t_sim:.0f} s; "
-             f"{n} analysed, {len(crashes)} crashed",
+             f"{n} analysed, {len(crashes)} crashed; rfmeas from {Path(rfmeas.__file__).parent}",
              "Recovery: L1, L2 within 1 %, leakage within 3 %, ratio within 0.5 % (those the sweeps "
              "determine; the others not determined or right); target >= 99 %"]
     lines.append(_group_line("all", records))
