@@ -26,12 +26,19 @@ import skrf as rf
 
 from .. import __version__
 from ..errors import InputError
+from ..limits import FREQUENCY_RANGE_HZ
+from . import files
 from .atomic import atomic_write_text
 
 log = logging.getLogger(__name__)
 
-MAX_FILE_BYTES = 64 * 1024 * 1024
+MAX_FILE_BYTES = files.MAX_TOUCHSTONE_BYTES
 MIN_POINTS = 3
+MAX_POINTS = 200_001
+"""More points than any sweep a VNA takes (common practice: 10,001 to 100,001 at most);
+a longer file is refused while it is parsed, before the work grows with it."""
+MAX_S_MAGNITUDE = 1e3
+"""|S| of a passive device is at most about 1; above 1000 (60 dB of gain) a value is not a measurement."""
 # A column whose |S| never rises above this (-200 dB) was not measured: exporters of
 # forward-only sweeps write -300 or -600 dB, 1e-15 or exact zeros there.
 UNMEASURED_BELOW = 1e-10
@@ -102,25 +109,7 @@ class TouchstoneData:
 def read_touchstone(path: str | os.PathLike) -> TouchstoneData:
     """Read a .s1p/.s2p file; any problem raises InputError naming the file."""
     name = str(path)
-    target = Path(path)
-    try:
-        info = target.stat()
-    except FileNotFoundError as exc:
-        raise InputError("file not found", path=name) from exc
-    except OSError as exc:
-        raise InputError(f"cannot read the file: {exc.strerror or exc}", path=name) from exc
-    except ValueError as exc:  # e.g. a NUL character in the name
-        raise InputError(f"not a usable file name ({exc})", path=name) from exc
-    if target.is_dir():
-        raise InputError("is a folder, not a Touchstone file", path=name)
-    if info.st_size > MAX_FILE_BYTES:
-        raise InputError(_too_large(info.st_size), path=name)
-    try:
-        with open(target, "rb") as handle:
-            data = handle.read(MAX_FILE_BYTES + 1)
-    except OSError as exc:
-        raise InputError(f"cannot read the file: {exc.strerror or exc}", path=name) from exc
-    return read_touchstone_bytes(data, name)
+    return read_touchstone_bytes(files.read_regular_file(path, "Touchstone file", MAX_FILE_BYTES), name)
 
 
 def read_touchstone_bytes(data: bytes, name: str) -> TouchstoneData:
@@ -135,6 +124,7 @@ def read_touchstone_bytes(data: bytes, name: str) -> TouchstoneData:
     notes = list(parsed.notes)
     rows = _clean(parsed, notes, name)
     network = _to_network(parsed, rows, name)
+    _refuse_extreme_values(network, name)
     unmeasured = _unmeasured_columns(network, name)
     forward_only = parsed.ports == 2 and unmeasured == ("S12", "S22")
     if unmeasured and not forward_only:
@@ -177,8 +167,7 @@ def _join(names) -> str:
 
 
 def _too_large(size: int) -> str:
-    return (f"the file is {size / 2**20:.0f} MB, larger than the {MAX_FILE_BYTES // 2**20} MB "
-            "rfmeas accepts for a Touchstone file")
+    return files.too_large(size, MAX_FILE_BYTES, "Touchstone file")
 
 
 def _decode(data: bytes, name: str) -> str:
@@ -487,6 +476,7 @@ class _Parser:
         if len(self.pending) == width:
             out.rows.append((self.pending_line, tuple(self.pending)))
             self.pending = []
+            _refuse_too_many_points(len(out.rows), self.pending_line, self.name)
 
     def noise_line(self, values: list[float], lineno: int) -> None:
         if len(values) != _NOISE_WIDTH:
@@ -568,6 +558,26 @@ def _clean(parsed: _Parsed, notes: list[str], name: str) -> np.ndarray:
     if not (np.all(np.isfinite(f_Hz)) and np.all(np.diff(f_Hz) > 0) and f_Hz[0] > 0):
         raise InputError("the frequencies are out of range once converted to hertz", path=name)
     return rows
+
+
+def _refuse_too_many_points(count: int, lineno: int, name: str) -> None:
+    if count > MAX_POINTS:
+        raise InputError(f"line {lineno}: more than {MAX_POINTS:,} frequency points; rfmeas reads sweeps of "
+                         f"up to {MAX_POINTS:,} points (take fewer points, or split the sweep)", path=name)
+
+
+def _refuse_extreme_values(network: rf.Network, name: str) -> None:
+    """Frequencies or S-parameters no instrument can have measured (they would only overflow later)."""
+    f_Hz = network.f
+    low, high = FREQUENCY_RANGE_HZ
+    if f_Hz[0] < low or f_Hz[-1] > high:
+        raise InputError(f"a frequency of {f_Hz[0] if f_Hz[0] < low else f_Hz[-1]:.3g} Hz is outside "
+                         f"{low:g} Hz to {high:g} Hz: is the unit in the option line right?", path=name)
+    with np.errstate(over="ignore", invalid="ignore"):
+        peak = float(np.max(np.abs(network.s)))
+    if not peak <= MAX_S_MAGNITUDE:
+        raise InputError(f"an S-parameter of magnitude {peak:.3g} is not a measurement of a passive device "
+                         f"(|S| is at most about 1; rfmeas refuses values above {MAX_S_MAGNITUDE:g})", path=name)
 
 
 def _points(count: int) -> str:
