@@ -23,7 +23,9 @@ class Sweep:
     termination  for a one-port sweep, what the other winding sees: "open",
                  "short" or a resistance in ohms (float); None for a two-port sweep
     port2        for a two-port sweep, the winding on port 2; else None
-    forward_only a two-port file whose S12/S22 were not measured (all zeros)
+    forward_only a two-port file whose S12/S22 were not measured
+    unmeasured   S elements the file holds but did not measure (|S| <= -200 dB at
+                 every point, rfmeas.io.touchstone); never fitted
     method       how the `port1` winding's impedance was measured: "reflection"
                  (S11 at port 1), or "series-through" / "shunt-through" (the
                  winding as the series or shunt element between two ports, S21)
@@ -45,6 +47,7 @@ class Sweep:
     method: str = "reflection"
     fixture: str | None = None
     partial: bool = False
+    unmeasured: tuple[str, ...] = ()
 
     @property
     def f_Hz(self) -> np.ndarray:
@@ -72,7 +75,8 @@ class Sweep:
             return ("S21",)
         if not self.is_two_port:
             return ("S11",)
-        return ("S11", "S21") if self.forward_only else ("S11", "S21", "S12", "S22")
+        measured = ("S11", "S21") if self.forward_only else ("S11", "S21", "S12", "S22")
+        return tuple(e for e in measured if e not in self.unmeasured)
 
     def measured(self) -> np.ndarray:
         """Measured S elements, shape (F, len(elements)), complex."""
@@ -124,6 +128,7 @@ class Sweep:
             "port2": self.port2,
             "termination": self.termination,
             "forward_only": self.forward_only,
+            "unmeasured": list(self.unmeasured),
             "method": self.method,
             "fixture": self.fixture,
             "points": int(f.size),

@@ -77,6 +77,9 @@ def load_sweep(file_path: Path, port1: str, termination=None, port2: str | None 
                              where_path)
         if fixture_path is not None:
             raise InputError(f"{where}: jig compensation applies to reflection sweeps only", where_path)
+        if "S21" in data.unmeasured:
+            raise InputError(f"{where}: a {method} sweep needs S21, and {file_path.name} did not measure it",
+                             where_path)
         return Sweep(network=data.network, port1=port1, termination=termination, label=label,
                      path=str(file_path), warnings=tuple(warnings), raw_bytes=data.raw_bytes,
                      sha256=data.sha256, method=method, partial=partial)
@@ -89,6 +92,7 @@ def load_sweep(file_path: Path, port1: str, termination=None, port2: str | None 
                              manifest_path or file_path)
         network = data.network
         forward_only = data.forward_only
+        unmeasured = data.unmeasured
     else:
         if termination is None:
             raise InputError(f"{where}: say what the other winding sees: termination = \"open\", "
@@ -96,6 +100,10 @@ def load_sweep(file_path: Path, port1: str, termination=None, port2: str | None 
                              manifest_path or file_path)
         network = data.network
         forward_only = False
+        unmeasured = ()
+        if "S11" in data.unmeasured:
+            raise InputError(f"{where}: a one-port sweep needs S11, and {file_path.name} did not measure it",
+                             where_path)
         if data.port_count == 2:
             warnings.append("two-port file used as a one-port sweep: only S11 is fitted")
             network = network.s11
@@ -107,7 +115,7 @@ def load_sweep(file_path: Path, port1: str, termination=None, port2: str | None 
         network, fixture_name = _compensate(network, fixture_path)
         warnings.append(f"compensated for the test jig '{fixture_name}'")
     return Sweep(network=network, port1=port1, termination=termination, port2=port2,
-                 forward_only=forward_only, label=label, path=str(file_path),
+                 forward_only=forward_only, unmeasured=unmeasured, label=label, path=str(file_path),
                  warnings=tuple(warnings), raw_bytes=data.raw_bytes, sha256=data.sha256,
                  fixture=fixture_name, partial=partial)
 

@@ -39,6 +39,10 @@ MAX_POINTS = 200_001
 a longer file is refused while it is parsed, before the work grows with it."""
 MAX_S_MAGNITUDE = 1e3
 """|S| of a passive device is at most about 1; above 1000 (60 dB of gain) a value is not a measurement."""
+# A column whose |S| never rises above this (-200 dB) was not measured: exporters of
+# forward-only sweeps write -300 or -600 dB, 1e-15 or exact zeros there.
+UNMEASURED_BELOW = 1e-10
+_ELEMENTS = {1: (("S11", 0, 0),), 2: (("S11", 0, 0), ("S21", 1, 0), ("S12", 0, 1), ("S22", 1, 1))}
 
 UNIT_SCALE = {"HZ": 1.0, "KHZ": 1e3, "MHZ": 1e6, "GHZ": 1e9}
 FORMATS = ("RI", "MA", "DB")
@@ -62,10 +66,13 @@ class TouchstoneData:
     """One Touchstone file as read: the network, how it was cleaned, and the file itself.
 
     `network` has strictly increasing frequencies, all above 0 Hz, and finite
-    values. `forward_only` is True for a two-port file whose S12 and S22
-    columns are all exactly zero (only S11 and S21 were measured); those
-    columns stay zero. `warnings` are sentences for the user, one per repair.
-    `raw_bytes` is the file exactly as read and `sha256` its hex digest.
+    values. `unmeasured` names the S columns whose magnitude stays at or below
+    UNMEASURED_BELOW (-200 dB) at every point: not measured, whatever the
+    format wrote there (-300 or -600 dB, 1e-15, zeros); they are set to exactly
+    zero in `network` and must never be fitted. `forward_only` is True for a
+    two-port file whose S12 and S22 were not measured (only S11 and S21).
+    `warnings` are sentences for the user, one per repair. `raw_bytes` is the
+    file exactly as read and `sha256` its hex digest.
     """
 
     network: rf.Network
@@ -75,6 +82,7 @@ class TouchstoneData:
     warnings: tuple[str, ...]
     sha256: str
     raw_bytes: bytes = field(repr=False)
+    unmeasured: tuple[str, ...] = ()
 
     def to_dict(self) -> dict:
         """Plain metadata (no arrays): file, size, digest, ports, frequency span, warnings."""
@@ -86,6 +94,7 @@ class TouchstoneData:
             "sha256": self.sha256,
             "port_count": self.port_count,
             "forward_only": self.forward_only,
+            "unmeasured": list(self.unmeasured),
             "points": int(f_Hz.size),
             "start_frequency_Hz": float(f_Hz[0]),
             "stop_frequency_Hz": float(f_Hz[-1]),
@@ -116,7 +125,11 @@ def read_touchstone_bytes(data: bytes, name: str) -> TouchstoneData:
     rows = _clean(parsed, notes, name)
     network = _to_network(parsed, rows, name)
     _refuse_extreme_values(network, name)
-    forward_only = parsed.ports == 2 and bool(np.all(network.s[:, 0, 1] == 0) and np.all(network.s[:, 1, 1] == 0))
+    unmeasured = _unmeasured_columns(network, name)
+    forward_only = parsed.ports == 2 and unmeasured == ("S12", "S22")
+    if unmeasured and not forward_only:
+        notes.append(f"{_join(unmeasured)} {'stays' if len(unmeasured) == 1 else 'stay'} at or below "
+                     "-200 dB at every point: taken as not measured and left out of the fit.")
     for note in notes:
         log.info("%s: %s", name, note)
     return TouchstoneData(
@@ -127,7 +140,30 @@ def read_touchstone_bytes(data: bytes, name: str) -> TouchstoneData:
         warnings=tuple(notes),
         sha256=hashlib.sha256(data).hexdigest(),
         raw_bytes=data,
+        unmeasured=unmeasured,
     )
+
+
+def _unmeasured_columns(network: rf.Network, name: str) -> tuple[str, ...]:
+    """Names of the S columns never above UNMEASURED_BELOW; they are zeroed in `network` (in place)."""
+    s = network.s
+    # a hair of slack so that exactly -200 dB, which converts to 1e-10 give or take a rounding, counts
+    limit = UNMEASURED_BELOW * (1.0 + 1e-9)
+    elements = _ELEMENTS[network.nports]
+    out = tuple(e for e, i, j in elements if np.all(np.abs(s[:, i, j]) <= limit))
+    if len(out) == len(elements):
+        raise InputError(f"holds no measured values: {_join(out)} {'stays' if len(out) == 1 else 'stay'} "
+                         "at or below -200 dB at every point", path=name)
+    for e, i, j in elements:
+        if e in out:
+            s[:, i, j] = 0.0
+    network.s = s
+    return out
+
+
+def _join(names) -> str:
+    names = list(names)
+    return names[0] if len(names) == 1 else ", ".join(names[:-1]) + " and " + names[-1]
 
 
 def _too_large(size: int) -> str:

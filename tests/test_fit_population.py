@@ -1,0 +1,109 @@
+"""A dozen random transformers from the seeded population (tests/population.py), fitted end to end.
+
+Each unit is simulated with ngspice, written as a small VNA would write it and
+analysed with `analyze_manifest`. The fit must recover L1 and L2 within 1 %,
+leakage within 3 % and ratio within 0.5 % (the tolerances of the fit's
+acceptance criteria), and must never be silently wrong: no key quantity more
+than 5 standard errors from the truth unless the fit grades itself "poor".
+The full population runs in tests/bench/test_fit_population.py.
+"""
+
+from __future__ import annotations
+
+import numpy as np
+import pytest
+
+import population as pop
+from reference.spice import spice_available
+from rfmeas.analysis import analyze_manifest
+
+SEED = 31
+NOT_YET = pytest.mark.xfail(strict=False, reason="issue 12: fit not yet robust")
+
+# (unit index, overrides, expectation). "recover": the tolerances are within reach (Cramer-Rao
+# bound and the model's best fit to the noise-free data well inside them), so the fit must
+# recover every quantity the sweeps determine. "flag": the model cannot represent the unit
+# within tolerance (a calibration residue, or the core loss across all of L1 with a low
+# corner), so the fit may miss, but must not be silently wrong.
+CASES = [
+    (0, dict(sweeps="four", core_loss="magnetizing"), "recover"),
+    (1, dict(sweeps="four", core_loss="magnetizing"), "recover"),
+    (3, dict(sweeps="four", core_loss="magnetizing"), "recover"),
+    (6, dict(sweeps="four", core_loss="primary"), "recover"),
+    (7, dict(sweeps="four", core_loss="primary"), "recover"),
+    (10, dict(sweeps="four", core_loss="primary"), "recover"),
+    (0, dict(sweeps="three", core_loss="primary"), "recover"),
+    (1, dict(sweeps="three-oneport", core_loss="magnetizing"), "recover"),
+    (0, dict(sweeps="two", core_loss="magnetizing"), "recover"),
+    (1, dict(sweeps="thru", core_loss="magnetizing"), "recover"),
+    (2, dict(sweeps="four", core_loss="magnetizing"), "flag"),
+    (9, dict(sweeps="four", core_loss="primary"), "flag"),
+]
+# cases the fit of today gets wrong or silently off (issue 12); the integrator removes the marks
+FAILING_TODAY = {"unit0-four-magnetizing", "unit6-four-primary", "unit7-four-primary", "unit0-three-primary",
+                 "unit1-three-oneport-magnetizing"}
+
+pytestmark = [pytest.mark.spice, pytest.mark.skipif(not spice_available(), reason="ngspice not installed")]
+
+
+def _params(cases):
+    for index, overrides, expect in cases:
+        name = f"unit{index}-{overrides['sweeps']}-{overrides['core_loss']}"
+        yield pytest.param(index, overrides, expect, id=name,
+                           marks=[NOT_YET] if name in FAILING_TODAY else [])
+
+
+@pytest.mark.parametrize("index,overrides,expect", list(_params(CASES)))
+def test_random_unit_is_recovered_or_flagged(tmp_path, index, overrides, expect):
+    spec = pop.draw_unit(np.random.default_rng([SEED, index]), name=f"unit {index}", **overrides)
+    truth = pop.write_unit(spec, tmp_path / "unit")
+    determined = pop.DETERMINED_BY[spec.subset]
+    # the case is what it claims: the noise leaves the tolerances well within reach, and the
+    # model's best fit to the noise-free data does (recover) or does not (flag) meet them
+    bound = pop.information_limit(spec)
+    assert all(bound[q] <= pop.TOLERANCES[q] / 3 for q in determined), bound
+    limit = pop.model_limit(spec, pop.load_clean(truth.folder))
+    representable = all(abs(limit[q]) <= pop.TOLERANCES[q] / 2 for q in determined)
+    assert representable == (expect == "recover"), limit
+
+    verdict = pop.judge(truth, analyze_manifest(truth.manifest).to_dict())
+    assert not verdict.silent, verdict.describe()
+    if expect == "recover":
+        assert verdict.recovered, verdict.describe()
+
+
+def test_the_generator_matches_the_model_where_the_model_is_exact():
+    # ngspice (tests/reference/spice.py runs it) against rfmeas.model's closed form, no noise:
+    # the model's own core-loss placement agrees to rounding, the other placement does not.
+    from reference import four_sweeps, model_response
+
+    spec = pop.draw_unit(np.random.default_rng([SEED, 0]), sweeps="four", core_loss="magnetizing", polarity=-1)
+    f_Hz = pop.frequency_grid(spec)
+    clean = pop.simulate_unit(spec.params, "magnetizing", f_Hz)
+    other = pop.simulate_unit(spec.params, "primary", f_Hz)
+    for kind, sweep in four_sweeps().items():
+        model = model_response(spec.params, clean["f_Hz"], sweep)
+        assert np.max(np.abs(clean[kind] - model)) < 1e-9
+        assert np.max(np.abs(other[kind] - model)) > 1e-4
+
+
+def test_written_unit_reads_back_as_simulated(tmp_path):
+    # A forward-only DB thru with -600 dB fillers, a stitched repeat and an odd option line:
+    # the reader gives back the simulated values (within the file's 9 digits) and drops the repeat.
+    from rfmeas.io.manifest import load_manifest
+
+    spec = pop.draw_unit(np.random.default_rng([SEED, 1]), sweeps="four", file_format="DB", file_unit="kHz",
+                         forward_only=True, calibration=None, noise=3e-4, unmeasured="-600 0", stitch_at=100,
+                         option_order=("S", "R 50", "DB", "KHZ"))
+    truth = pop.write_unit(spec, tmp_path / "unit")
+    measurement = load_manifest(truth.manifest)
+    thru = next(s for s in measurement.sweeps if s.is_two_port)
+    assert thru.forward_only and thru.elements == ("S11", "S21")
+    f_Hz = pop.frequency_grid(spec)
+    assert thru.f_Hz.size == f_Hz.size
+    np.testing.assert_allclose(thru.f_Hz, f_Hz, rtol=1e-8)
+    assert any("repeated a frequency" in w for w in thru.warnings)
+    clean = pop.simulate_unit(spec.params, spec.core_loss, f_Hz, ("thru",))["thru"]
+    residual = thru.network.s[:, 1, 0] - clean[:, 1, 0]
+    # noise of 3e-4 per component: the rms difference is the noise, not a layout error
+    assert 2e-4 < np.sqrt(np.mean(np.abs(residual) ** 2) / 2) < 4.5e-4
