@@ -121,9 +121,23 @@ def log_grid(start_Hz: float, stop_Hz: float, points_per_decade: int = POINTS_PE
 
 
 def refine_crossing(func, f_a_Hz: float, f_b_Hz: float) -> float:
-    """The frequency between f_a and f_b where the scalar function `func(f)` changes sign."""
-    return 10.0 ** brentq(lambda u: float(func(10.0 ** u)), math.log10(f_a_Hz), math.log10(f_b_Hz),
-                          xtol=_ROOT_XTOL, rtol=4 * np.finfo(float).eps)
+    """The frequency between f_a and f_b where the scalar function `func(f)` changes sign.
+
+    Where the ends do not bracket a sign change (a value that cannot be evaluated,
+    or one that lies exactly on the crossing), the crossing is known only to the
+    grid: the geometric midpoint of the two points is returned.
+    """
+    with np.errstate(all="ignore"):
+        value_a, value_b = float(func(f_a_Hz)), float(func(f_b_Hz))
+    if value_a == 0.0:
+        return float(f_a_Hz)
+    if value_b == 0.0:
+        return float(f_b_Hz)
+    if not (math.isfinite(value_a) and math.isfinite(value_b)) or (value_a > 0) == (value_b > 0):
+        return math.sqrt(f_a_Hz * f_b_Hz)
+    with np.errstate(all="ignore"):
+        return 10.0 ** brentq(lambda u: float(func(10.0 ** u)), math.log10(f_a_Hz), math.log10(f_b_Hz),
+                              xtol=_ROOT_XTOL, rtol=4 * np.finfo(float).eps)
 
 
 def edge_from(f_Hz: np.ndarray, values: np.ndarray, start: int, direction: int) -> int | None:

@@ -243,3 +243,14 @@ def test_sample_after_meets_the_ratio():
     # 4·50/(2π·11.3975 µH) = 2.7929 MHz, below the 3.5 MHz asked for
     assert checks["low_frequency_limit"]["passed"] is True
     assert checks["low_frequency_limit"]["value"] == pytest.approx(2.7929e6, rel=0.02)
+
+
+def test_a_crossing_the_ends_do_not_bracket_is_known_to_the_grid_and_never_raises():
+    # a band edge found on the grid whose refinement meets a value that cannot be evaluated
+    # (NaN) or two ends of one sign must not end the analysis with a root finder's error
+    f_a, f_b = 1e6, 2e6
+    assert response.refine_crossing(lambda f: np.nan if f == f_a else 1.0, f_a, f_b) == pytest.approx(
+        math.sqrt(f_a * f_b))
+    assert response.refine_crossing(lambda f: 1.0, f_a, f_b) == pytest.approx(math.sqrt(f_a * f_b))
+    # a real sign change is still refined: f − 1.5 MHz crosses at 1.5 MHz
+    assert response.refine_crossing(lambda f: f - 1.5e6, f_a, f_b) == pytest.approx(1.5e6, rel=1e-9)
