@@ -72,6 +72,8 @@ AGREEMENT_TOLERANCE = {"primary_inductance_H": 0.01, "secondary_inductance_H": 0
 """Two starts ending this close in the key quantities found the same solution."""
 COMPETITIVE_DELTA_CHI2 = 25.0
 """A start whose χ² is within this of the best (after scaling by the reduced χ²) fits about as well."""
+PLACEMENT_DELTA_CHI2 = 10.0
+"""The core loss is placed across the whole primary only when that lowers −2 log-likelihood by this."""
 ROBUST_ROUNDS = 3
 """Re-weighting rounds of the robust sweep weights (see _reweight_sweeps)."""
 _HOLD_ORDER = ("C12_F", "C2_F", "C1_F", "Rc_ohm", "R2_ohm", "R1_ohm", "k", "L2_H", "L1_H")
@@ -138,6 +140,7 @@ class SweepProblem:
         self.index = [_subset_index(s.f_Hz, subset) for s in sweeps]
         self.measured = [s.measured()[i] for s, i in zip(sweeps, self.index)]
         self.sweep_weights = np.ones(len(sweeps))  # robust down-weighting of a sweep the model misses
+        self.core_loss = "magnetizing"
         # sweeps sharing a frequency grid share one evaluation of the network
         self._grids: dict[bytes, int] = {}
         self.grid_of_sweep = []
@@ -158,7 +161,8 @@ class SweepProblem:
     def predict(self, values: np.ndarray) -> list[np.ndarray]:
         """Model S elements per sweep for parameter rows `values` (m, 9): list of (m, F, E)."""
         cols = [values[:, i, None] for i in range(values.shape[1])]
-        ys = [y_elements(f[None, :], *cols, polarity=self.polarity) for f in self.grids]
+        ys = [y_elements(f[None, :], *cols, polarity=self.polarity, core_loss=self.core_loss)
+              for f in self.grids]
         out = []
         for sweep, g in zip(self.sweeps, self.grid_of_sweep):
             y11, y12, y22 = ys[g]
@@ -372,13 +376,26 @@ def fit_sweeps(sweeps: list[Sweep]) -> FitOutcome:
         res, obj, score, evaluations = _robust_solve(coarse, free, fixed, X0[i], START_BUDGET, ROBUST_ROUNDS)
         total_evals += evaluations
         runs.append((res, obj, score))
-    res, obj, _ = min(runs, key=lambda r: r[2])
+    res, obj, score = min(runs, key=lambda r: r[2])
     agreement, disagree, spread = _start_agreement(runs, res, obj, coarse)
+    if "Rc_ohm" in free:
+        # The other place the core loss may sit: taken only when the sweeps clearly prefer it.
+        coarse.core_loss = "primary"
+        res2, obj2, score2, evaluations = _robust_solve(coarse, free, fixed, res.x, START_BUDGET, ROBUST_ROUNDS)
+        total_evals += evaluations
+        if score2 < score - PLACEMENT_DELTA_CHI2:
+            res, obj = res2, obj2
+            problem.core_loss = "primary"
+            referred["Rc_ohm"] = ("across the whole primary inductance: these sweeps show the core loss "
+                                  "outside the leakage, not across the magnetising branch alone")
+        else:
+            coarse.core_loss = "magnetizing"
 
     # Local stage on every point, then hold what the data do not determine and refit.
     x = res.x
+    probed: set[str] = set()
     while True:
-        res, obj, _, evaluations = _robust_solve(problem, free, fixed, x, 200, ROBUST_ROUNDS)
+        res, obj, score, evaluations = _robust_solve(problem, free, fixed, x, 200, ROBUST_ROUNDS)
         total_evals += evaluations
         dof = max(points - len(free), 1)
         values = obj.values(res.x[None, :])[0]
@@ -389,10 +406,21 @@ def fit_sweeps(sweeps: list[Sweep]) -> FitOutcome:
         name, edge = _worst_undetermined(free, res.x, cov)
         if name is None:
             break
+        j = free.index(name)
+        if edge and name not in probed:
+            # In log coordinates a value driven towards zero cannot come back (its gradient
+            # vanishes with it): restart it from its reading before calling it too small.
+            probed.add(name)
+            x_try = res.x.copy()
+            x_try[j] = to_internal(name, starts[0][name])
+            res2, obj2, score2, evaluations = _robust_solve(problem, free, fixed, x_try, 200, ROBUST_ROUNDS)
+            total_evals += evaluations
+            if score2 < score - 1e-9 * abs(score):
+                x = res2.x
+                continue
         values = obj.values(res.x[None, :])[0]
         reason = ("pressed against the edge of its range: too small (or too large) to show in these sweeps"
                   if edge else "the sweeps do not constrain it")
-        j = free.index(name)
         held[name] = (NEUTRAL.get(name, float(values[PARAMETER_NAMES.index(name)])), reason)
         fixed[name] = held[name][0]
         free.pop(j)
@@ -401,7 +429,7 @@ def fit_sweeps(sweeps: list[Sweep]) -> FitOutcome:
             raise FitError("nothing left to fit: the sweeps determine no parameter")
 
     final_values = obj.values(res.x[None, :])[0]
-    params = _to_params(final_values, polarity)
+    params = _to_params(final_values, polarity, problem.core_loss)
     residuals = problem.complex_residuals(final_values)
     log.debug("fit: chi2/dof %.3g, %d starts, agreement %.2f", chi2, len(runs), agreement)
     return FitOutcome(
@@ -492,7 +520,7 @@ def _start_agreement(runs, best_res, best_obj, problem) -> tuple[float, bool, di
     return agree / max(len(runs), 1), disagree, spread
 
 
-def _to_params(values: np.ndarray, polarity: int) -> TransformerParams:
+def _to_params(values: np.ndarray, polarity: int, core_loss: str = "magnetizing") -> TransformerParams:
     d = dict(zip(PARAMETER_NAMES, (float(v) for v in values)))
     d["k"] = min(max(d["k"], 1e-9), 1 - 1e-12)
-    return TransformerParams(**d, polarity=polarity)
+    return TransformerParams(**d, polarity=polarity, core_loss=core_loss)

@@ -29,6 +29,15 @@ def inductance_at_low_frequency(f_Hz, z_ohm) -> float | None:
     return float(np.median(x)) if x.size else None
 
 
+def parallel_inductance_at_low_frequency(f_Hz, z_ohm) -> float | None:
+    """Median of −1/(ω·Im(1/Z)) over the lowest points: a winding loaded in parallel."""
+    band = _low_band(f_Hz, fraction=0.05, minimum=5)
+    with np.errstate(all="ignore"):
+        x = -1.0 / (2 * np.pi * f_Hz[band] * np.imag(1.0 / z_ohm[band]))
+    x = x[np.isfinite(x) & (x > 0)]
+    return float(np.median(x)) if x.size else None
+
+
 def first_resonance_Hz(f_Hz, z_ohm) -> float | None:
     """Frequency where the reactance first turns from inductive to capacitive (parallel resonance)."""
     x = np.imag(z_ohm)
@@ -71,6 +80,13 @@ def band_fit_LC(f_Hz, z_ohm, z0_ohm, short: bool = False) -> tuple[float | None,
     impedance), so the poorly resolved ends of a sweep do not pull the estimate.
     """
     ok = np.isfinite(z_ohm) & (f_Hz > 0) & _below_resonance(f_Hz, z_ohm)
+    if not short:
+        # where the core loss (or a load) takes over from the inductance, the parallel L-C
+        # reading no longer holds: keep the points whose susceptance is thrice the conductance
+        with np.errstate(all="ignore"):
+            y = 1.0 / z_ohm
+        inductive = ok & (-np.imag(y) > 3.0 * np.real(y))
+        ok = inductive if np.count_nonzero(inductive) >= 3 else ok
     f, z = f_Hz[ok], z_ohm[ok]
     if f.size < 3:
         return None, None
@@ -123,7 +139,9 @@ def _readings(sweeps: list[Sweep]) -> tuple[dict, int]:
             g = float(np.real(s[i, 0]))
             g = min(max(g, -0.999), 0.999)
             n_sq = (1.0 - g) / (1.0 + g) * (sweep.z0_ohm[1] / z0)
-            l_port1, _ = band_fit_LC(f, z, z0)
+            add(f"nsq_thru{side}", n_sq)
+            # low band: the winding's inductance in parallel with the other port's load
+            l_port1 = parallel_inductance_at_low_frequency(f, z)
             if l_port1:
                 add(f"Lthru{side}", l_port1)
                 add(f"Lthru{other}", l_port1 * (n_sq if side == "1" else 1.0 / n_sq))
@@ -188,6 +206,10 @@ def start_candidates(sweeps: list[Sweep]) -> tuple[list[dict], int]:
     L2 = pick("L2") or pick("Lthru2")
     if L1 is None and L2 is None:
         L1 = L2 = pick("Lload1") or pick("Lload2") or 1e-6
+    if pick("L1") and not pick("L2") and pick("nsq_thru1"):
+        L2 = L1 * pick("nsq_thru1")
+    if pick("L2") and not pick("L1") and pick("nsq_thru2"):
+        L1 = L2 * pick("nsq_thru2")
     if L1 is not None and L2 is None:
         nsq = pick("nsq1")
         L2 = L1 * nsq if nsq else L1

@@ -10,15 +10,15 @@ C12 0.5–20 pF; core-loss corner Rc/(2π·Lm) 0.3–30 MHz; sweeps from 10, 50 
 Two core-loss placements: "branch" (Rc across the magnetising branch, the
 fit's own model, evaluated with rfmeas.model, which agrees with ngspice to
 1e-12 in tests/test_model_reference.py) and "whole" (Rc across the whole
-primary inductance of the coupled pair, a model the fit does not contain,
-evaluated from the coupled-inductor Z matrix; checked against scikit-rf's
-circuit solver in tests/test_fit_robust.py).
+primary inductance of the coupled pair, which the fit's usual model cannot
+represent; evaluated by rfmeas.model with core_loss="primary", which agrees
+with ngspice in tests/test_fit_robust.py).
 """
 
 from __future__ import annotations
 
 import math
-from dataclasses import dataclass
+from dataclasses import dataclass, replace
 
 import numpy as np
 
@@ -65,45 +65,10 @@ def random_grid(rng) -> np.ndarray:
     return np.linspace(start, stop, points)
 
 
-def whole_primary_y(params: TransformerParams, f_Hz):
-    """Y elements with Rc across the whole primary inductance of the coupled pair.
-
-    Coupled inductors L1, L2, M (Z = jω[[L1, M], [M, L2]]), Rc from the inner
-    primary node to ground, R1 and R2 in series outside, C1, C2, C12 at the
-    terminals (topology as in rfmeas.model.circuit otherwise).
-    """
-    w = 2 * np.pi * np.asarray(f_Hz, float)
-    jw = 1j * w
-    L1, L2, k = params.L1_H, params.L2_H, params.k
-    M = params.polarity * k * math.sqrt(L1 * L2)
-    det = jw * jw * (L1 * L2 - M * M)
-    # inverse of the inductance Z matrix, plus Rc on the primary node
-    a11 = jw * L2 / det + 1.0 / params.Rc_ohm
-    a12 = -jw * M / det
-    a22 = jw * L1 / det
-    dy = a11 * a22 - a12 * a12
-    z11 = a22 / dy + params.R1_ohm
-    z22 = a11 / dy + params.R2_ohm
-    z12 = -a12 / dy
-    dz = z11 * z22 - z12 * z12
-    c1, c2, c12 = params.C1_F, params.C2_F, params.C12_F
-    y11 = z22 / dz + jw * (c1 + c12)
-    y22 = z11 / dz + jw * (c2 + c12)
-    y12 = -z12 / dz - jw * c12
-    return y11, y12, y22
-
-
 def whole_primary_response(params: TransformerParams, f_Hz, sweep) -> np.ndarray:
-    from rfmeas.model.circuit import (driving_point_admittance, pack_s, reflection_from_admittance,
-                                      s_from_y, termination_admittance)
-
-    y11, y12, y22 = whole_primary_y(params, f_Hz)
-    if sweep.port1 == "secondary":
-        y11, y22 = y22, y11
-    if isinstance(sweep, OnePort):
-        yin = driving_point_admittance(y11, y12, y22, termination_admittance(sweep.termination))
-        return reflection_from_admittance(yin, sweep.z0_ohm)
-    return pack_s(*s_from_y(y11, y12, y22, sweep.z0_port1_ohm, sweep.z0_port2_ohm))
+    """The sweep with Rc across the whole primary inductance (rfmeas.model's "primary"
+    placement, checked against ngspice in tests/test_fit_robust.py)."""
+    return model_response(replace(params, core_loss="primary"), f_Hz, sweep)
 
 
 def make_case(rng, placement: str = "branch", sweeps=None) -> Case:
@@ -117,6 +82,11 @@ def make_case(rng, placement: str = "branch", sweeps=None) -> Case:
         s = add_vna_noise(simulate(params, f, d), sigma, rng)
         out.append(sweep_from_s(name, d, f, s, forward_only=isinstance(d, TwoPort)))
     return Case(params, placement, f, sigma, MeasurementSet(name="random unit", sweeps=tuple(out)))
+
+
+def sweep_set(names) -> dict:
+    """A subset of the usual four sweeps by name."""
+    return {n: d for n, d in four_sweeps().items() if n in names}
 
 
 def population(seed: int, count: int, placement: str = "branch", sweeps=None) -> list[Case]:

@@ -48,6 +48,8 @@ _PORTS_FROM_EXT = re.compile(r"\.s(\d+)p", re.IGNORECASE)
 
 _ROW_WIDTH = {1: 3, 2: 9}
 _NOISE_WIDTH = 5
+UNMEASURED_BELOW = 1e-10
+"""|S| below this (−200 dB) over a whole column means the column was not measured."""
 
 
 @dataclass(frozen=True, eq=False)
@@ -56,8 +58,8 @@ class TouchstoneData:
 
     `network` has strictly increasing frequencies, all above 0 Hz, and finite
     values. `forward_only` is True for a two-port file whose S12 and S22
-    columns are all exactly zero (only S11 and S21 were measured); those
-    columns stay zero. `warnings` are sentences for the user, one per repair.
+    columns stay below UNMEASURED_BELOW in magnitude (only S11 and S21 were
+    measured); those columns are left as read and never fitted. `warnings` are sentences for the user, one per repair.
     `raw_bytes` is the file exactly as read and `sha256` its hex digest.
     """
 
@@ -126,7 +128,9 @@ def read_touchstone_bytes(data: bytes, name: str) -> TouchstoneData:
     notes = list(parsed.notes)
     rows = _clean(parsed, notes, name)
     network = _to_network(parsed, rows, name)
-    forward_only = parsed.ports == 2 and bool(np.all(network.s[:, 0, 1] == 0) and np.all(network.s[:, 1, 1] == 0))
+    # exporters write an unmeasured column as -300 or -600 dB, or a tiny magnitude, not only as 0
+    forward_only = parsed.ports == 2 and bool(np.all(np.abs(network.s[:, 0, 1]) < UNMEASURED_BELOW)
+                                              and np.all(np.abs(network.s[:, 1, 1]) < UNMEASURED_BELOW))
     for note in notes:
         log.info("%s: %s", name, note)
     return TouchstoneData(
