@@ -6,7 +6,9 @@ small-VNA noise, sometimes a calibration residue, and written as a measurement
 folder: Touchstone files in RI, MA or DB, in Hz, kHz or MHz, v1 or v2, most
 thrus forward-only with their unmeasured columns written the way exporters do
 (-300 or -600 dB, tiny magnitudes or exact zeros), plus manifest.toml and
-truth.json. Nothing here calls rfmeas's model: the sweeps come from ngspice.
+truth.json. The sweeps come from ngspice, never from rfmeas's model; only
+`information_limit` (the Cramer-Rao bound) uses the model, whose closed form
+matches ngspice to 1e-12 (tests/test_model_reference.py).
 
 Two core-loss placements:
 - "magnetizing": Rc across the magnetising inductance Lm = k L1 (the model's
@@ -37,6 +39,7 @@ from rfmeas.model.params import TransformerParams
 from reference.spice import _num, run_ngspice
 
 Z0_OHM = 50.0
+GENERATOR_VERSION = 1   # bump when the same spec would give other files
 SWEEP_KINDS = ("pri_open", "pri_short", "sec_open", "thru")
 # The sweep subsets a user may bring; the value lists the sweeps in each.
 SUBSETS = {
@@ -187,7 +190,7 @@ class Truth:
 
     def to_dict(self) -> dict:
         return {
-            "name": self.name, "core_loss": self.core_loss, "subset": self.subset,
+            "generator_version": GENERATOR_VERSION, "name": self.name, "core_loss": self.core_loss, "subset": self.subset,
             "sweeps": list(self.sweeps), "noise": self.noise, "params": self.params.to_dict(),
             "leakage_inductance_H": self.leakage_H, "effective_turns_ratio": self.ratio,
             "spec": self.spec,
@@ -321,10 +324,15 @@ _CIRCUITS = {
 
 
 def simulate_unit(params: TransformerParams, core_loss: str, f_Hz, sweeps=SWEEP_KINDS) -> dict:
-    """Noise-free sweeps from one ngspice run: {kind: S11 (F,) or S (F, 2, 2)}.
+    """Noise-free sweeps from one ngspice run: {kind: S11 (F,) or S (F, 2, 2)}, and "f_Hz".
 
-    Every frequency is its own one-point AC analysis (ngspice has no list
-    sweep); `destroy all` after each write keeps the run linear in points.
+    "f_Hz" holds the frequencies ngspice analysed: those asked for to 1e-8 (a
+    native sweep accumulates rounding); write them, not the ones asked for.
+
+    A linear grid, or a log grid with a whole number of points per decade, is
+    one AC analysis; otherwise every frequency is its own
+    one-point analysis (ngspice has no list sweep), and `destroy all` after each
+    write keeps the run linear in the number of points.
     """
     f = np.asarray(f_Hz, dtype=float)
     lines = ["* rfmeas population unit"] + _subcircuit(params, core_loss)
@@ -335,16 +343,24 @@ def simulate_unit(params: TransformerParams, core_loss: str, f_Hz, sweeps=SWEEP_
         nodes += saved
     saved = " ".join(f"v({n})" for n in nodes)
     lines += [".control", "set filetype=binary", "set appendwrite"]
-    for fi in f:
-        lines += [f"ac lin 1 {_num(fi)} {_num(fi)}", f"write out.raw {saved}", "destroy all"]
+    native = _native_sweep(f)
+    if native:  # one analysis; its frequencies differ from f by rounding only
+        # a stop a hair above the last point, so rounding cannot drop it
+        stop = f[-1] * (1 + 1e-9) if native.startswith("dec") else f[-1]
+        lines += [f"ac {native} {_num(f[0])} {_num(stop)}", f"write out.raw {saved}"]
+    else:
+        for fi in f:
+            lines += [f"ac lin 1 {_num(fi)} {_num(fi)}", f"write out.raw {saved}", "destroy all"]
     lines += ["quit", ".endc", ".end", ""]
     plots = run_ngspice("\n".join(lines), timeout_s=120.0)
-    if len(plots) != f.size:
+    if len(plots) != (1 if native else f.size):
         raise RuntimeError(f"ngspice returned {len(plots)} analyses for {f.size} frequencies")
     data = {name: np.concatenate([p[name] for p in plots]) for name in plots[0]}
-    if not np.allclose(data["frequency"].real, f, rtol=1e-12, atol=0):
-        raise RuntimeError("ngspice analysed other frequencies than asked")
-    out = {}
+    got = data["frequency"].real
+    if got.size != f.size or not np.allclose(got, f, rtol=1e-8, atol=0):
+        raise RuntimeError(f"ngspice analysed other frequencies than asked ({got.size} for {f.size}, "
+                           f"{got[0]:.12g}..{got[-1]:.12g} Hz for {f[0]:.12g}..{f[-1]:.12g} Hz)")
+    out = {"f_Hz": got}
     for kind in sweeps:
         v = [data[f"v({n})"] for n in _CIRCUITS[kind][1]]
         if kind == "thru":
@@ -356,15 +372,33 @@ def simulate_unit(params: TransformerParams, core_loss: str, f_Hz, sweeps=SWEEP_
     return out
 
 
-def frequency_grid(spec: UnitSpec) -> tuple[np.ndarray, list[str]]:
-    """The sweep's frequencies in Hz and as written in the file (so both agree exactly)."""
+def _native_sweep(f: np.ndarray) -> str | None:
+    """'lin N' or 'dec N' when ngspice's own sweep gives the grid `f`, else None."""
+    if f.size < 3:
+        return None
+    step = np.diff(f)
+    if np.allclose(step, step.mean(), rtol=1e-8, atol=0):
+        return f"lin {f.size}"
+    nd = round((f.size - 1) / math.log10(f[-1] / f[0]))
+    if nd >= 1 and np.allclose(f[0] * 10.0 ** (np.arange(f.size) / nd), f, rtol=1e-9, atol=0):
+        return f"dec {nd}"
+    return None
+
+
+def frequency_grid(spec: UnitSpec) -> np.ndarray:
+    """The sweep's frequencies in Hz (ngspice analyses them to 1e-8, see `simulate_unit`).
+
+    A log grid has a whole number of points per decade (as many VNAs define a
+    log sweep), close to `points` in all, and ends at its last point not above
+    the stop frequency (within one step of it)."""
     if spec.spacing == "linear":
         f = np.linspace(spec.start_Hz, spec.stop_Hz, spec.points)
     else:
-        f = np.geomspace(spec.start_Hz, spec.stop_Hz, spec.points)
-    scale = FILE_UNITS[spec.file_unit]
-    text = [f"{x / scale:.10g}" for x in f]
-    return np.array([float(t) for t in text]) * scale, text
+        decades = math.log10(spec.stop_Hz / spec.start_Hz)
+        per_decade = max(1, round((spec.points - 1) / decades))
+        count = int(math.floor(per_decade * decades + 1e-9)) + 1
+        f = spec.start_Hz * 10.0 ** (np.arange(count) / per_decade)
+    return f
 
 
 def _apply_calibration(cal: Calibration, f_Hz, s, two_port: bool):
@@ -448,9 +482,13 @@ def write_unit(spec: UnitSpec, folder, clean: dict | None = None) -> Truth:
     same spec (to redraw only the noise)."""
     folder = Path(folder)
     folder.mkdir(parents=True, exist_ok=True)
-    f_Hz, f_text = frequency_grid(spec)
+    f_Hz = frequency_grid(spec)
     if clean is None:
         clean = simulate_unit(spec.params, spec.core_loss, f_Hz, spec.sweeps)
+    f_Hz = clean["f_Hz"]
+    scale = FILE_UNITS[spec.file_unit]
+    # 15 significant digits: a file frequency within 1e-14 of the one simulated
+    f_text = [f"{x / scale:.15g}" for x in f_Hz]
     rng = np.random.default_rng(spec.noise_seed)
 
     def noisy(s):
@@ -488,6 +526,177 @@ def load_truth(folder) -> Truth:
                  sweeps=tuple(d["sweeps"]), noise=d["noise"], folder=str(folder), spec=d["spec"])
 
 
+# --------------------------------------------------------------------------- Cramer-Rao bound
+
+_LOG_NAMES = ("L1_H", "L2_H", "one_minus_k", "R1_ohm", "R2_ohm", "Rc_ohm", "C1_F", "C2_F", "C12_F")
+KEY_QUANTITIES = ("L1", "L2", "leakage", "ratio", "C1", "C2", "C12")
+# prior spread (natural log) that keeps the information matrix invertible along directions the
+# sweeps do not see; a quantity with a bound near this size is not determined by the data
+PRIOR_LOG_SD = 10.0
+
+
+def _params_from_log(x: np.ndarray, polarity: int) -> TransformerParams:
+    v = dict(zip(_LOG_NAMES, np.exp(x)))
+    k = 1.0 - v.pop("one_minus_k")
+    return TransformerParams(k=k, polarity=polarity, **v)
+
+
+def _model_rows(params: TransformerParams, f_Hz, sweeps, forward_only: bool) -> np.ndarray:
+    from rfmeas.model import circuit
+
+    parts = []
+    for kind in sweeps:
+        if kind == "thru":
+            s = circuit.s_matrix(params, f_Hz, "primary", Z0_OHM, Z0_OHM)
+            parts += [s[:, 0, 0], s[:, 1, 0]] + ([] if forward_only else [s[:, 0, 1], s[:, 1, 1]])
+        else:
+            port1 = "secondary" if kind == "sec_open" else "primary"
+            parts.append(circuit.reflection(params, f_Hz, port1, "short" if kind == "pri_short" else "open",
+                                            Z0_OHM))
+    z = np.concatenate(parts)
+    return np.concatenate([z.real, z.imag])
+
+
+def _log_of(name: str, x: np.ndarray) -> float:
+    v = dict(zip(_LOG_NAMES, np.exp(x)))
+    k = 1.0 - v["one_minus_k"]
+    return math.log({"L1": v["L1_H"], "L2": v["L2_H"], "leakage": v["L1_H"] * (1 - k * k),
+                     "ratio": math.sqrt(v["L2_H"] / v["L1_H"]), "C1": v["C1_F"], "C2": v["C2_F"],
+                     "C12": v["C12_F"]}[name])
+
+
+def information_limit(spec: UnitSpec) -> dict[str, float]:
+    """Cramer-Rao bound: the relative standard deviation of each key quantity an unbiased fit can reach.
+
+    cov = sigma^2 (J^T J)^-1 with J the Jacobian of the model's measured values
+    (real and imaginary parts of every fitted S element) in log coordinates at the
+    truth, sigma the known noise. Exact for the model's core-loss placement
+    without calibration residue; an approximation otherwise.
+    """
+    p = spec.params
+    x0 = np.log([p.L1_H, p.L2_H, 1.0 - p.k, p.R1_ohm, p.R2_ohm, p.Rc_ohm, p.C1_F, p.C2_F, p.C12_F])
+    f_Hz = frequency_grid(spec)
+    step = 1e-6
+    cols = []
+    for j in range(x0.size):
+        dx = np.zeros_like(x0)
+        dx[j] = step
+        hi = _model_rows(_params_from_log(x0 + dx, p.polarity), f_Hz, spec.sweeps, spec.forward_only)
+        lo = _model_rows(_params_from_log(x0 - dx, p.polarity), f_Hz, spec.sweeps, spec.forward_only)
+        cols.append((hi - lo) / (2 * step))
+    jac = np.stack(cols, axis=1)
+    info = jac.T @ jac / spec.noise ** 2 + np.eye(x0.size) / PRIOR_LOG_SD ** 2
+    cov = np.linalg.inv(info)
+    out = {}
+    for name in KEY_QUANTITIES:
+        g = np.empty_like(x0)
+        for j in range(x0.size):
+            dx = np.zeros_like(x0)
+            dx[j] = step
+            g[j] = (_log_of(name, x0 + dx) - _log_of(name, x0 - dx)) / (2 * step)
+        out[name] = float(math.sqrt(max(g @ cov @ g, 0.0)))
+    return out
+
+
+# --------------------------------------------------------------------------- judging a fit
+
+# the issue's tolerances on the key quantities (relative), and on the capacitances
+TOLERANCES = {"L1": 0.01, "L2": 0.01, "leakage": 0.03, "ratio": 0.005}
+CAPACITANCE_TOLERANCE = 0.15
+SILENT_SIGMAS = 5.0
+JSON_KEYS = {"L1": "primary_inductance_H", "L2": "secondary_inductance_H",
+             "leakage": "leakage_inductance_H", "ratio": "effective_turns_ratio",
+             "C1": "primary_capacitance_F", "C2": "secondary_capacitance_F",
+             "C12": "interwinding_capacitance_F"}
+
+
+def true_value(truth: Truth, name: str) -> float:
+    p = truth.params
+    return {"L1": p.L1_H, "L2": p.L2_H, "leakage": p.leakage_inductance_H, "ratio": p.effective_turns_ratio,
+            "C1": p.C1_F, "C2": p.C2_F, "C12": p.C12_F}[name]
+
+
+@dataclass(frozen=True)
+class Verdict:
+    """How a fit's JSON compares with the truth.
+
+    recovered    every key quantity the sweeps determine (Truth.determined) is
+                 reported determined and within TOLERANCES, and no other one is
+                 reported determined outside them
+    silent       key quantities reported determined that are more than
+                 SILENT_SIGMAS standard errors from the truth (or wrong beyond
+                 tolerance with no or a zero standard error) while the fit's
+                 quality grade is not "poor" (a missing grade counts as not poor)
+    wrong        key quantities that spoil `recovered`, with the reason
+    capacitances_ok  C1, C2 and C12 all determined and within CAPACITANCE_TOLERANCE
+    """
+
+    recovered: bool
+    silent: tuple[str, ...]
+    wrong: tuple[str, ...]
+    capacitances_ok: bool
+    grade: str | None
+    polarity_ok: bool | None
+    details: dict
+    refused: str | None = None
+
+    def describe(self) -> str:
+        if self.refused:
+            return f"refused: {self.refused}"
+        parts = []
+        for name, d in self.details.items():
+            if name in self.wrong or name in self.silent:
+                if d["value"] is None:
+                    parts.append(f"{name} not determined")
+                    continue
+                z = "" if d["z"] is None else f", {d['z']:.0f} se"
+                parts.append(f"{name} {d['rel_err']:+.2%}{z}")
+        if self.polarity_ok is False:
+            parts.append("polarity wrong")
+        grade = self.grade or "no grade"
+        return (", ".join(parts) or "ok") + f" [{grade}]" + (" SILENT" if self.silent else "")
+
+
+def judge(truth: Truth, result: dict) -> Verdict:
+    """Compare `analysis.to_dict()` (or None with `refused` text) with the truth."""
+    grade = (result.get("fit", {}).get("quality") or {}).get("grade")
+    details, wrong, silent = {}, [], []
+    for name in KEY_QUANTITIES:
+        est = result["parameters"][JSON_KEYS[name]]
+        t = true_value(truth, name)
+        value, stderr = est.get("value"), est.get("stderr")
+        determined = bool(est.get("determined", value is not None)) and value is not None
+        rel = None if value is None else value / t - 1.0
+        z = None if (value is None or not stderr) else (value - t) / stderr
+        details[name] = {"truth": t, "value": value, "stderr": stderr, "determined": determined,
+                         "rel_err": rel, "z": z}
+        if name not in TOLERANCES:
+            continue
+        tol = TOLERANCES[name]
+        if determined:
+            if abs(rel) > tol:
+                wrong.append(name)
+            off = abs(rel) > tol if z is None else abs(z) > SILENT_SIGMAS
+            if off and grade != "poor":
+                silent.append(name)
+        elif name in truth.determined:
+            wrong.append(name)
+    caps = all(details[c]["determined"] and abs(details[c]["rel_err"]) <= CAPACITANCE_TOLERANCE
+               for c in ("C1", "C2", "C12"))
+    polarity_ok = None
+    if "thru" in truth.sweeps:
+        fitted = result.get("model", {}).get("polarity")
+        polarity_ok = fitted == truth.params.polarity
+    return Verdict(recovered=not wrong, silent=tuple(silent), wrong=tuple(wrong), capacitances_ok=caps,
+                   grade=grade, polarity_ok=polarity_ok, details=details)
+
+
+def refused(message: str) -> Verdict:
+    """The verdict when the tool declined to give numbers (an RfmeasError): not silent, not recovered."""
+    return Verdict(recovered=False, silent=(), wrong=(), capacitances_ok=False, grade=None,
+                   polarity_ok=None, details={}, refused=message)
+
+
 def with_noise_seed(spec: UnitSpec, noise_seed: int) -> UnitSpec:
     """The same unit measured again: only the noise differs."""
     return replace(spec, noise_seed=int(noise_seed))
@@ -496,5 +705,6 @@ def with_noise_seed(spec: UnitSpec, noise_seed: int) -> UnitSpec:
 __all__ = [
     "SUBSETS", "DETERMINED_BY", "CORE_LOSS_PLACEMENTS", "UnitSpec", "Truth", "Calibration",
     "draw_unit", "draw_population", "make_unit", "write_unit", "load_truth", "simulate_unit",
-    "frequency_grid", "with_noise_seed",
+    "frequency_grid", "with_noise_seed", "information_limit", "KEY_QUANTITIES",
+    "TOLERANCES", "Verdict", "judge", "refused", "true_value",
 ]

@@ -1,0 +1,97 @@
+"""A dozen random transformers from the seeded population (tests/population.py), fitted end to end.
+
+Each unit is simulated with ngspice, written as a small VNA would write it and
+analysed with `analyze_manifest`. The fit must recover L1 and L2 within 1 %,
+leakage within 3 % and ratio within 0.5 % (the tolerances of the fit's
+acceptance criteria), and must never be silently wrong: no key quantity more
+than 5 standard errors from the truth unless the fit grades itself "poor".
+The full population runs in tests/bench/test_fit_population.py.
+"""
+
+from __future__ import annotations
+
+import numpy as np
+import pytest
+
+import population as pop
+from reference.spice import spice_available
+from rfmeas.analysis import analyze_manifest
+
+SEED = 31
+NOT_YET = pytest.mark.xfail(strict=False, reason="issue 12: fit not yet robust")
+
+# (unit index, overrides): both core-loss placements, some fewer-sweep sets
+CASES = [
+    (0, dict(sweeps="four", core_loss="magnetizing")),
+    (1, dict(sweeps="four", core_loss="magnetizing")),
+    (2, dict(sweeps="four", core_loss="magnetizing")),
+    (3, dict(sweeps="four", core_loss="magnetizing")),
+    (12, dict(sweeps="four", core_loss="magnetizing")),
+    (5, dict(sweeps="four", core_loss="primary")),
+    (6, dict(sweeps="four", core_loss="primary")),
+    (7, dict(sweeps="four", core_loss="primary")),
+    (8, dict(sweeps="four", core_loss="primary")),
+    (9, dict(sweeps="three-oneport", core_loss="magnetizing")),
+    (10, dict(sweeps="three", core_loss="primary")),
+    (11, dict(sweeps="two", core_loss="magnetizing")),
+]
+# units the fit of today gets wrong or silently off (issue 12); the integrator removes the marks
+FAILING_TODAY = {0, 2, 5, 6, 7, 8, 11, 12}
+
+pytestmark = [pytest.mark.spice, pytest.mark.skipif(not spice_available(), reason="ngspice not installed")]
+
+
+def _params(cases):
+    for index, overrides in cases:
+        marks = [NOT_YET] if index in FAILING_TODAY else []
+        yield pytest.param(index, overrides, id=f"unit{index}-{overrides['sweeps']}-{overrides['core_loss']}",
+                           marks=marks)
+
+
+@pytest.mark.parametrize("index,overrides", list(_params(CASES)))
+def test_random_unit_is_recovered_or_flagged(tmp_path, index, overrides):
+    spec = pop.draw_unit(np.random.default_rng([SEED, index]), name=f"unit {index}", **overrides)
+    # the case must carry the information: the Cramer-Rao bound is well inside each tolerance
+    bound = pop.information_limit(spec)
+    assert all(bound[q] <= pop.TOLERANCES[q] / 3 for q in pop.DETERMINED_BY[spec.subset]), bound
+    truth = pop.write_unit(spec, tmp_path / "unit")
+    verdict = pop.judge(truth, analyze_manifest(truth.manifest).to_dict())
+    assert not verdict.silent, verdict.describe()
+    assert verdict.recovered, verdict.describe()
+
+
+def test_the_generator_matches_the_model_where_the_model_is_exact():
+    # ngspice (tests/reference/spice.py runs it) against rfmeas.model's closed form, no noise:
+    # the model's own core-loss placement agrees to rounding, the other placement does not.
+    from reference import four_sweeps, model_response
+
+    spec = pop.draw_unit(np.random.default_rng([SEED, 0]), sweeps="four", core_loss="magnetizing", polarity=-1)
+    f_Hz = pop.frequency_grid(spec)
+    clean = pop.simulate_unit(spec.params, "magnetizing", f_Hz)
+    other = pop.simulate_unit(spec.params, "primary", f_Hz)
+    for kind, sweep in four_sweeps().items():
+        model = model_response(spec.params, clean["f_Hz"], sweep)
+        assert np.max(np.abs(clean[kind] - model)) < 1e-9
+        assert np.max(np.abs(other[kind] - model)) > 1e-4
+
+
+def test_written_unit_reads_back_as_simulated(tmp_path):
+    # A forward-only DB thru with -600 dB fillers, a stitched repeat and an odd option line:
+    # the reader gives back the simulated values (within the file's 9 digits) and drops the repeat.
+    from rfmeas.io.manifest import load_manifest
+
+    spec = pop.draw_unit(np.random.default_rng([SEED, 1]), sweeps="four", file_format="DB", file_unit="kHz",
+                         forward_only=True, calibration=None, noise=3e-4, unmeasured="-600 0", stitch_at=100,
+                         option_order=("S", "R 50", "DB", "KHZ"))
+    truth = pop.write_unit(spec, tmp_path / "unit")
+    measurement = load_manifest(truth.manifest)
+    thru = next(s for s in measurement.sweeps if s.is_two_port)
+    assert thru.forward_only and thru.elements == ("S11", "S21")
+    f_Hz = pop.frequency_grid(spec)
+    assert thru.f_Hz.size == f_Hz.size
+    np.testing.assert_allclose(thru.f_Hz, f_Hz, rtol=1e-8)
+    assert any("repeated a frequency" in w for w in thru.warnings)
+    clean = pop.simulate_unit(spec.params, spec.core_loss, f_Hz, ("thru",))["thru"]
+    residual = thru.network.s[:, 1, 0] - clean[:, 1, 0]
+    # noise of 3e-4 per component: the rms difference is the noise, not a layout error
+    assert 2e-4 < np.sqrt(np.mean(np.abs(residual) ** 2) / 2) < 4.5e-4
