@@ -72,6 +72,11 @@ AGREEMENT_TOLERANCE = {"primary_inductance_H": 0.01, "secondary_inductance_H": 0
 """Two starts ending this close in the key quantities found the same solution."""
 COMPETITIVE_DELTA_CHI2 = 25.0
 """A start whose χ² is within this of the best (after scaling by the reduced χ²) fits about as well."""
+SMOOTH_DEGREE = 4
+"""Highest Legendre degree (in linear frequency) of the smooth systematic error model."""
+SMOOTH_SIGNIFICANCE = 3.0
+"""A sweep's misfit counts as systematic when χ² exceeds its noise expectation by this many
+standard deviations (sqrt(2/n) per residual)."""
 PLACEMENT_DELTA_CHI2 = 10.0
 """The core loss is placed across the whole primary only when that lowers −2 log-likelihood by this."""
 ROBUST_ROUNDS = 3
@@ -294,6 +299,78 @@ def _covariance(jac: np.ndarray, residual_variance: float) -> np.ndarray:
     return cov * residual_variance
 
 
+def _pseudo_inverse_normal(jac: np.ndarray) -> np.ndarray:
+    """(JᵀJ)⁺ with the directions that carry no information left out (scaled for conditioning)."""
+    jtj = jac.T @ jac
+    norm = np.sqrt(np.clip(np.diag(jtj), 0.0, np.inf))
+    scale = np.where(norm > 0, norm, 1.0)
+    w, v = np.linalg.eigh(jtj / np.outer(scale, scale))
+    tiny = w <= w[-1] * _TINY_EIGENVALUE if w.size else w
+    inv = np.where(tiny, 0.0, 1.0 / np.where(tiny, 1.0, w))
+    return (v * inv) @ v.T / np.outer(scale, scale)
+
+
+def _smooth_basis(f_Hz: np.ndarray) -> np.ndarray:
+    """Slowly varying functions of frequency, shape (F, K), each of unit rms: what a calibration
+    residue, a lead or a core slightly off the lumped model leaves on a sweep."""
+    f = np.asarray(f_Hz, float)
+    lin = 2.0 * (f - f[0]) / max(f[-1] - f[0], 1e-30) - 1.0
+    lg = np.log(f)
+    lg = 2.0 * (lg - lg[0]) / max(lg[-1] - lg[0], 1e-30) - 1.0
+    cols = [np.polynomial.legendre.legval(lin, np.eye(SMOOTH_DEGREE + 1)[k]) for k in range(SMOOTH_DEGREE + 1)]
+    cols += [np.polynomial.legendre.legval(lg, np.eye(3)[k]) for k in (1, 2)]
+    b = np.stack(cols, axis=1)
+    return b / np.sqrt(np.mean(b ** 2, axis=0))
+
+
+def _smooth_error_covariance(problem: SweepProblem, jac: np.ndarray, fun: np.ndarray) -> np.ndarray:
+    """Covariance the parameters owe to a smooth systematic error of the size the fit leaves unexplained.
+
+    White-noise standard errors describe the noise only. When a sweep's misfit
+    exceeds its noise (χ² per residual clearly above 1), the excess is a smooth
+    error the model cannot follow — and an unknown part of the same error was
+    absorbed by the parameters, unseen. Model that error as a random
+    combination of slowly varying functions (Legendre polynomials in linear and
+    log frequency, per S element and component); choose its size so that the
+    part the fit would NOT absorb equals the excess actually observed; and add
+    the scatter it would cause in the parameters (linearised:
+    δx = (JᵀJ)⁻¹Jᵀe). Zero when every sweep is fitted down to its noise.
+    """
+    p = jac.shape[1]
+    out = np.zeros((p, p))
+    if p == 0:
+        return out
+    pinv = _pseudo_inverse_normal(jac)
+    start = 0
+    for measured, sig, w, idx, sweep in zip(problem.measured, problem.sigma, problem.sweep_weights,
+                                            problem.index, problem.sweeps):
+        F, E = measured.shape
+        n = 2 * F * E
+        rows = slice(start, start + n)
+        start += n
+        power = float(np.sum(fun[rows] ** 2))
+        expected = n * w ** 2
+        if n < 2 or power <= expected * (1.0 + SMOOTH_SIGNIFICANCE * math.sqrt(2.0 / n)):
+            continue
+        excess = power - expected
+        basis = _smooth_basis(sweep.f_Hz[idx])                    # (F, K)
+        K = basis.shape[1]
+        B = np.zeros((jac.shape[0], 2 * E * K))
+        col = 0
+        for part in range(2):                                     # real, imaginary
+            for e in range(E):
+                block = np.zeros((F, E, K))
+                block[:, e, :] = basis * (w / sig[e])
+                B[start - n + part * F * E: start - n + (part + 1) * F * E, col:col + K] = block.reshape(F * E, K)
+                col += K
+        G = pinv @ (jac.T @ B)                                    # parameter shift per unit coefficient
+        unabsorbed = float(np.sum((B - jac @ G) ** 2))
+        if unabsorbed <= 0:
+            continue
+        out += (excess / unabsorbed) * (G @ G.T)
+    return out
+
+
 def _key_quantities(values: np.ndarray) -> dict:
     v = dict(zip(PARAMETER_NAMES, values))
     return {
@@ -403,6 +480,7 @@ def fit_sweeps(sweeps: list[Sweep]) -> FitOutcome:
         chi2 = float(np.sum(sweep_chi2 * [2 * m.size for m in problem.measured]) / dof)
         weighted_chi2 = float(2.0 * res.cost / dof)
         cov = _covariance(res.jac, max(1.0, weighted_chi2))
+        cov = cov + _smooth_error_covariance(problem, res.jac, res.fun)
         name, edge = _worst_undetermined(free, res.x, cov)
         if name is None:
             break
