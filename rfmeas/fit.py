@@ -80,7 +80,12 @@ standard deviations (sqrt(2/n) per residual)."""
 PLACEMENT_DELTA_CHI2 = 10.0
 """The core loss is placed across the whole primary only when that lowers −2 log-likelihood by this."""
 ROBUST_ROUNDS = 3
+ROBUST_STARTS = 2
+"""Starts carried on with robust sweep weights after the first descent."""
 """Re-weighting rounds of the robust sweep weights (see _reweight_sweeps)."""
+HELD_SPREAD_CAP = 10.0
+"""A held parameter's spread is capped at this many times its distance to the sweeps' reading."""
+_LINEAR_HOLDS = ("R1_ohm", "R2_ohm", "Rc_ohm", "C1_F", "C2_F", "C12_F")
 _HOLD_ORDER = ("C12_F", "C2_F", "C1_F", "Rc_ohm", "R2_ohm", "R1_ohm", "k", "L2_H", "L1_H")
 _BAD_RESIDUAL = 1e6
 _TINY_EIGENVALUE = 1e-14  # relative eigenvalue of the scaled normal matrix that carries no information
@@ -329,12 +334,14 @@ def _smooth_error_covariance(problem: SweepProblem, jac: np.ndarray, fun: np.nda
     White-noise standard errors describe the noise only. When a sweep's misfit
     exceeds its noise (χ² per residual clearly above 1), the excess is a smooth
     error the model cannot follow — and an unknown part of the same error was
-    absorbed by the parameters, unseen. Model that error as a random
-    combination of slowly varying functions (Legendre polynomials in linear and
-    log frequency, per S element and component); choose its size so that the
-    part the fit would NOT absorb equals the excess actually observed; and add
-    the scatter it would cause in the parameters (linearised:
-    δx = (JᵀJ)⁻¹Jᵀe). Zero when every sweep is fitted down to its noise.
+    absorbed by the parameters, unseen. For each slowly varying function
+    (Legendre polynomials in linear and log frequency, per S element and
+    component), take it as large as it could be if it alone left the excess
+    actually observed (the part the fit would not absorb equals the excess),
+    and add the shift it would cause in the parameters (linearised:
+    δx = (JᵀJ)⁻¹Jᵀe). The direction of the real error among them is unknown,
+    so the sum over the functions bounds it. Zero when every sweep is fitted
+    down to its noise.
     """
     p = jac.shape[1]
     out = np.zeros((p, p))
@@ -364,10 +371,57 @@ def _smooth_error_covariance(problem: SweepProblem, jac: np.ndarray, fun: np.nda
                 B[start - n + part * F * E: start - n + (part + 1) * F * E, col:col + K] = block.reshape(F * E, K)
                 col += K
         G = pinv @ (jac.T @ B)                                    # parameter shift per unit coefficient
-        unabsorbed = float(np.sum((B - jac @ G) ** 2))
-        if unabsorbed <= 0:
+        unabsorbed = np.sum((B - jac @ G) ** 2, axis=0)           # per function
+        ok = unabsorbed > 0
+        # each function alone, as large as the observed excess allows: a bound, since the
+        # error's direction among them is not known
+        out += (G[:, ok] * (excess / unabsorbed[ok])) @ G[:, ok].T
+    return out
+
+
+def _held_parameter_covariance(problem, obj, res, held: dict, readings: dict, scale: float) -> np.ndarray:
+    """What holding a parameter hides: the scatter its plausible values would cause in the free ones.
+
+    Holding a parameter the data barely see (a resistance pressed to zero, a
+    capacitance too small to show) fixes it at one value; the free parameters
+    correlated with it then look better known than they are. For each held
+    resistance, capacitance or core-loss conductance, in its linear coordinate
+    (where zero is an ordinary value), the data allow a spread of
+    σ_h = 1/‖(I − P)·j_h‖ (P the projection on the free parameters' columns),
+    capped at HELD_SPREAD_CAP times its distance to the sweeps' own reading; the free parameters
+    shift by G = (JᵀJ)⁺Jᵀ·j_h per unit, so σ_h²·G·Gᵀ is added to their
+    covariance — the Schur-complement form of leaving it free.
+    """
+    jac = res.jac
+    p = jac.shape[1]
+    out = np.zeros((p, p))
+    if p == 0:
+        return out
+    pinv = _pseudo_inverse_normal(jac)
+    base = obj.values(res.x[None, :])[0]
+    r0 = problem.residual_rows(base[None, :])[0]
+    for name, (value, reason) in held.items():
+        if name not in _LINEAR_HOLDS or value is None:
             continue
-        out += (excess / unabsorbed) * (G @ G.T)
+        i = PARAMETER_NAMES.index(name)
+        reading = readings.get(name, value)
+        if name == "Rc_ohm":   # linear in the conductance 1/Rc
+            plausible = abs(1.0 / reading - 1.0 / value)
+            step = max(plausible, 1e-9) * 1e-3
+            row = base.copy()
+            row[i] = 1.0 / (1.0 / value + step)
+        else:
+            plausible = abs(reading - value)
+            step = max(plausible, abs(value), 1e-18) * 1e-3
+            row = base.copy()
+            row[i] = value + step
+        if not plausible > 0:
+            continue
+        j_h = (problem.residual_rows(row[None, :])[0] - r0) / step
+        G = pinv @ (jac.T @ j_h)
+        perp = float(np.sum((j_h - jac @ G) ** 2))
+        spread_sq = min(scale / perp if perp > 0 else math.inf, (HELD_SPREAD_CAP * plausible) ** 2)
+        out += spread_sq * np.outer(G, G)
     return out
 
 
@@ -450,18 +504,25 @@ def fit_sweeps(sweeps: list[Sweep]) -> FitOutcome:
     total_evals += len(X0)
     runs = []
     for i in np.argsort(costs)[:MAX_STARTS]:
-        res, obj, score, evaluations = _robust_solve(coarse, free, fixed, X0[i], START_BUDGET, ROBUST_ROUNDS)
+        res, obj, score, evaluations, weights = _robust_solve(coarse, free, fixed, X0[i], START_BUDGET, 0)
         total_evals += evaluations
-        runs.append((res, obj, score))
-    res, obj, score = min(runs, key=lambda r: r[2])
+        runs.append((res, obj, score, weights))
+    # the most promising starts go on, re-weighted against sweeps the model misses
+    for j in sorted(range(len(runs)), key=lambda r: runs[r][2])[:ROBUST_STARTS]:
+        res, obj, score, evaluations, weights = _robust_solve(coarse, free, fixed, runs[j][0].x, START_BUDGET,
+                                                              ROBUST_ROUNDS)
+        total_evals += evaluations
+        runs[j] = (res, obj, score, weights)
+    res, obj, score, weights = min(runs, key=lambda r: r[2])
     agreement, disagree, spread = _start_agreement(runs, res, obj, coarse)
     if "Rc_ohm" in free:
         # The other place the core loss may sit: taken only when the sweeps clearly prefer it.
         coarse.core_loss = "primary"
-        res2, obj2, score2, evaluations = _robust_solve(coarse, free, fixed, res.x, START_BUDGET, ROBUST_ROUNDS)
+        res2, obj2, score2, evaluations, weights2 = _robust_solve(coarse, free, fixed, res.x, START_BUDGET,
+                                                                  ROBUST_ROUNDS, weights)
         total_evals += evaluations
         if score2 < score - PLACEMENT_DELTA_CHI2:
-            res, obj = res2, obj2
+            res, obj, weights = res2, obj2, weights2
             problem.core_loss = "primary"
             referred["Rc_ohm"] = ("across the whole primary inductance: these sweeps show the core loss "
                                   "outside the leakage, not across the magnetising branch alone")
@@ -472,7 +533,7 @@ def fit_sweeps(sweeps: list[Sweep]) -> FitOutcome:
     x = res.x
     probed: set[str] = set()
     while True:
-        res, obj, score, evaluations = _robust_solve(problem, free, fixed, x, 200, ROBUST_ROUNDS)
+        res, obj, score, evaluations, weights = _robust_solve(problem, free, fixed, x, 200, ROBUST_ROUNDS, weights)
         total_evals += evaluations
         dof = max(points - len(free), 1)
         values = obj.values(res.x[None, :])[0]
@@ -480,7 +541,6 @@ def fit_sweeps(sweeps: list[Sweep]) -> FitOutcome:
         chi2 = float(np.sum(sweep_chi2 * [2 * m.size for m in problem.measured]) / dof)
         weighted_chi2 = float(2.0 * res.cost / dof)
         cov = _covariance(res.jac, max(1.0, weighted_chi2))
-        cov = cov + _smooth_error_covariance(problem, res.jac, res.fun)
         name, edge = _worst_undetermined(free, res.x, cov)
         if name is None:
             break
@@ -491,10 +551,11 @@ def fit_sweeps(sweeps: list[Sweep]) -> FitOutcome:
             probed.add(name)
             x_try = res.x.copy()
             x_try[j] = to_internal(name, starts[0][name])
-            res2, obj2, score2, evaluations = _robust_solve(problem, free, fixed, x_try, 200, ROBUST_ROUNDS)
+            res2, obj2, score2, evaluations, weights2 = _robust_solve(problem, free, fixed, x_try, 200,
+                                                                      ROBUST_ROUNDS, weights)
             total_evals += evaluations
             if score2 < score - 1e-9 * abs(score):
-                x = res2.x
+                x, weights = res2.x, weights2
                 continue
         values = obj.values(res.x[None, :])[0]
         reason = ("pressed against the edge of its range: too small (or too large) to show in these sweeps"
@@ -506,6 +567,8 @@ def fit_sweeps(sweeps: list[Sweep]) -> FitOutcome:
         if not free:
             raise FitError("nothing left to fit: the sweeps determine no parameter")
 
+    cov = cov + _smooth_error_covariance(problem, res.jac, res.fun)
+    cov = cov + _held_parameter_covariance(problem, obj, res, held, starts[0], max(1.0, weighted_chi2))
     final_values = obj.values(res.x[None, :])[0]
     params = _to_params(final_values, polarity, problem.core_loss)
     residuals = problem.complex_residuals(final_values)
@@ -550,9 +613,13 @@ def _profile_score(problem: SweepProblem, values: np.ndarray) -> float:
     return float(np.sum(n * (np.log(np.maximum(per_sweep, 1.0)) + np.minimum(per_sweep, 1.0))))
 
 
-def _robust_solve(problem, free, fixed, x0, max_nfev, rounds):
-    """Levenberg–Marquardt from unit sweep weights, then re-weighted (see _reweight_sweeps)."""
-    problem.sweep_weights = np.ones(len(problem.sweeps))
+def _robust_solve(problem, free, fixed, x0, max_nfev, rounds, weights=None):
+    """Levenberg–Marquardt from the given sweep weights (default 1), re-weighted (see _reweight_sweeps).
+
+    Returns the solution, its objective, its profile score, the evaluations spent
+    and the sweep weights it ended with.
+    """
+    problem.sweep_weights = np.ones(len(problem.sweeps)) if weights is None else np.array(weights, float)
     res, obj = _solve(problem, free, fixed, x0, max_nfev=max_nfev)
     evaluations = obj.evaluations
     for _ in range(rounds):
@@ -561,7 +628,7 @@ def _robust_solve(problem, free, fixed, x0, max_nfev, rounds):
         res, obj = _solve(problem, free, fixed, res.x, max_nfev=max_nfev)
         evaluations += obj.evaluations
     score = _profile_score(problem, obj.values(res.x[None, :])[0])
-    return res, obj, score, evaluations
+    return res, obj, score, evaluations, problem.sweep_weights.copy()
 
 
 def _worst_undetermined(free: list[str], x: np.ndarray, cov: np.ndarray) -> tuple[str | None, bool]:
@@ -586,7 +653,7 @@ def _start_agreement(runs, best_res, best_obj, problem) -> tuple[float, bool, di
     best = _key_quantities(best_values)
     best_score = _profile_score(problem, best_values)
     agree, disagree, spread = 0, False, {}
-    for res, obj, score in runs:
+    for res, obj, score, _ in runs:
         keys = _key_quantities(obj.values(res.x[None, :])[0])
         dev = {k: abs(keys[k] / best[k] - 1.0) for k in best}
         same = all(dev[k] <= AGREEMENT_TOLERANCE[k] for k in dev)

@@ -49,7 +49,7 @@ _PORTS_FROM_EXT = re.compile(r"\.s(\d+)p", re.IGNORECASE)
 _ROW_WIDTH = {1: 3, 2: 9}
 _NOISE_WIDTH = 5
 UNMEASURED_BELOW = 1e-10
-"""|S| below this (−200 dB) over a whole column means the column was not measured."""
+"""|S| at or below this (−200 dB) over a whole column means the column was not measured."""
 
 
 @dataclass(frozen=True, eq=False)
@@ -129,8 +129,8 @@ def read_touchstone_bytes(data: bytes, name: str) -> TouchstoneData:
     rows = _clean(parsed, notes, name)
     network = _to_network(parsed, rows, name)
     # exporters write an unmeasured column as -300 or -600 dB, or a tiny magnitude, not only as 0
-    forward_only = parsed.ports == 2 and bool(np.all(np.abs(network.s[:, 0, 1]) < UNMEASURED_BELOW)
-                                              and np.all(np.abs(network.s[:, 1, 1]) < UNMEASURED_BELOW))
+    forward_only = parsed.ports == 2 and bool(np.all(np.abs(network.s[:, 0, 1]) <= UNMEASURED_BELOW)
+                                              and np.all(np.abs(network.s[:, 1, 1]) <= UNMEASURED_BELOW))
     for note in notes:
         log.info("%s: %s", name, note)
     return TouchstoneData(

@@ -16,13 +16,15 @@ def main(root, only=None, verbose=False, limit=None):
     if limit: folders = folders[:limit]
     stats = {"n": 0, "ok": 0, "caps": 0, "caps_n": 0, "silent": 0, "wrong_nd": 0, "errors": 0}
     by = {}
-    times = []; worst = []
+    times = []; worst = []; cpu = []
     for f in folders:
         t = pop.load_truth(f)
         if only and t.subset != only and t.core_loss != only: continue
         stats["n"] += 1
         try:
+            c0 = time.process_time()
             a = analyze_manifest(t.manifest)
+            cpu.append(time.process_time() - c0)
         except RfmeasError as e:
             stats["errors"] += 1; print(f.name, t.subset, t.core_loss, "ERROR", e); continue
         out = a.fit.outcome
@@ -51,12 +53,13 @@ def main(root, only=None, verbose=False, limit=None):
         if verbose or not good or silent:
             p = t.params
             print(f"{f.name} {t.subset:13s} {t.core_loss[:4]} {'OK ' if good else 'BAD'}{' SILENT' if silent else ''} ratio={ratio:7.3g} "
-                  f"t={out.elapsed_s*1e3:5.0f}ms agree={out.start_agreement:.2f}{'!' if out.starts_disagree else ''} held={','.join(out.held)} {' '.join(msg)} | "
+                  f"t={out.elapsed_s*1e3:5.0f}ms agree={getattr(out, 'start_agreement', float('nan')):.2f}{'!' if getattr(out, 'starts_disagree', False) else ''} held={','.join(out.held)} {' '.join(msg)} | "
                   f"L1={p.L1_H:.2e} n={p.effective_turns_ratio:.2f} 1-k={1-p.k:.1e} Rc={p.Rc_ohm:.3g} C={p.C1_F*1e12:.1f},{p.C2_F*1e12:.1f},{p.C12_F*1e12:.1f}p "
                   f"pol={p.polarity} cal={t.spec.get('calibration') is not None} f={t.spec['start_Hz']:.0e}-{t.spec['stop_Hz']:.0e}/{t.spec['points']}{t.spec['spacing'][:3]} noise={t.noise:.1e}")
     tt = np.array(times)
     print(f"{root}: n={stats['n']} key ok {stats['ok']} ({100*stats['ok']/max(stats['n'],1):.1f}%), caps ok {stats['caps']}/{stats['caps_n']}, "
-          f"silent {stats['silent']}, errors {stats['errors']}, fit time median {np.median(tt)*1e3:.0f} ms p95 {np.percentile(tt,95)*1e3:.0f} ms")
+          f"silent {stats['silent']}, errors {stats['errors']}, fit wall median {np.median(tt)*1e3:.0f} ms p95 {np.percentile(tt,95)*1e3:.0f} ms; "
+          f"analysis cpu median {np.median(cpu)*1e3:.0f} ms p95 {np.percentile(cpu,95)*1e3:.0f} ms")
     print("  by subset/placement:", {f"{k[0]}/{k[1][:4]}": f"{v[1]}/{v[0]}" for k, v in sorted(by.items())})
 
 if __name__ == "__main__":
