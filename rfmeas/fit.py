@@ -1,20 +1,52 @@
 """One joint least-squares fit of the equivalent circuit to every sweep of a transformer.
 
-The residual is the complex difference between modelled and measured S
-parameters (real and imaginary parts), weighted per sweep by its own noise
-level, which is estimated from a first pass. Working in S rather than Z
-weights each point by how well a 50-ohm instrument resolved it.
+Residuals and weights. The residual is the complex difference between
+modelled and measured S parameters (real and imaginary parts), each S element
+of each sweep divided by its error σ from the data alone
+(rfmeas.noise.error_sigma: trace noise from neighbouring points, with a
+systematic floor), never from the fit's own residuals. So the reduced χ²,
+2·cost/(N − p), is a real goodness-of-fit statistic (≈ 1 when the model
+describes the data down to its noise); it is reported as `reduced_chi2`.
 
-Parameters are fitted in internal coordinates: the logarithm of each positive
-value, and log(1 − k) for the coupling, so leakage of 0.1 % and 10 % are
-equally easy to reach. Standard errors come from the Jacobian,
-cov = s²·(JᵀJ)⁻¹ with s² the weighted residual variance per degree of freedom,
-and are carried to derived quantities by first-order propagation.
+Coordinates. Parameters are fitted as the logarithm of each positive value and
+log(1 − k) for the coupling, so leakage of 0.1 % and 10 % are equally easy to
+reach.
 
-A parameter the sweeps cannot pin down (relative standard error above
-`UNDETERMINED_LOG_STDERR` in log terms, or pressed against the edge of its
-range) is held at a neutral value — capacitances and winding resistances at
-zero, core-loss resistance at infinity — and reported as not determined.
+Method (global, then local):
+1. Readings (rfmeas.fit_start): L and C of each open winding from a weighted
+   straight-line fit of its inductive band, the short-circuit inductance
+   (hence k), the turns ratio from the thru's mid-band reflection and its
+   low-band inductance. What the sweeps cannot split — the open-circuit
+   capacitance C1 + n²·C2 + (n ∓ 1)²·C12 among the three, and the coupling
+   when nothing is shorted — is spread over several start points.
+2. Global stage on about COARSE_POINTS points per sweep (spread in log and
+   linear frequency): every start is screened by its cost in one stacked
+   evaluation, the MAX_STARTS best run Levenberg–Marquardt, the ROBUST_STARTS
+   most promising go on with robust sweep weights, and the lowest profile
+   score wins. Whether the other starts ended on the same key quantities is
+   recorded (`start_agreement`, `starts_disagree`, `start_spread`).
+3. Robust sweep weights: a sweep the model misses is weighted as if its noise
+   were max(σ, its misfit) — the maximum-likelihood weighting when each sweep
+   may carry an error of its own — so one mislabelled or unmodelled sweep
+   cannot drag what the others pin down. χ² is still reported against σ.
+4. Core-loss placement: the fit also tries Rc across the whole primary
+   inductance (outside the leakage) and keeps it only when the sweeps prefer
+   it clearly (PLACEMENT_DELTA_CHI2); Rc's note then says so.
+5. Local stage on every point from the winner. A parameter the sweeps cannot
+   pin down (log-space standard error above UNDETERMINED_LOG_STDERR, or
+   pressed against the edge of its range after one restart from its reading)
+   is held at a neutral value — capacitances and winding resistances at
+   zero, core-loss resistance at infinity — and reported as not determined.
+   Before anything, parameters are held (least observable first) until each
+   free one has MIN_RESIDUALS_PER_PARAMETER real residuals; fewer than that
+   for the inductance alone is a FitError naming the minimum.
+
+Standard errors: cov = (JᵀJ)⁻¹·max(1, χ²/dof) with J the weighted Jacobian,
+plus what the white-noise errors leave out: the shift a smooth systematic
+error of the size the fit leaves unexplained could cause
+(_smooth_error_covariance), and the spread of the held parameters, in their
+linear coordinates, carried into the free ones (_held_parameter_covariance).
+Derived quantities follow by first-order propagation (rfmeas.results).
 """
 
 from __future__ import annotations
