@@ -314,12 +314,22 @@ def _solve(problem, free, fixed, x0, max_nfev=200):
 
 
 def _covariance(jac: np.ndarray, residual_variance: float) -> np.ndarray:
-    """s²·(JᵀJ)⁻¹; directions with no information get an infinite variance.
+    """s²·(JᵀJ)⁻¹; directions with no information get an infinite variance."""
+    cov, unseen = _pseudo_inverse_normal(jac, with_unseen=True)
+    cov[unseen, :] = np.nan
+    cov[:, unseen] = np.nan
+    cov[unseen, unseen] = np.inf
+    return cov * residual_variance
+
+
+def _pseudo_inverse_normal(jac: np.ndarray, with_unseen: bool = False):
+    """(JᵀJ)⁺ with the directions that carry no information left out.
 
     Decomposes the small n×n normal matrix (columns scaled to unit norm, which
     keeps it well conditioned) rather than the tall N×n Jacobian: an SVD of the
     Jacobian goes through multi-threaded LAPACK, which on a busy two-core
-    machine can take longer than the whole fit.
+    machine can take longer than the whole fit. With `with_unseen`, also which
+    parameters move along a direction the data do not see.
     """
     jtj = jac.T @ jac
     norm = np.sqrt(np.clip(np.diag(jtj), 0.0, np.inf))
@@ -327,24 +337,11 @@ def _covariance(jac: np.ndarray, residual_variance: float) -> np.ndarray:
     w, v = np.linalg.eigh(jtj / np.outer(scale, scale))
     tiny = w <= w[-1] * _TINY_EIGENVALUE if w.size else w
     inv = np.where(tiny, 0.0, 1.0 / np.where(tiny, 1.0, w))
-    cov = (v * inv) @ v.T / np.outer(scale, scale)
-    # a parameter that moves along a direction the data do not see has no bounded variance
+    pinv = (v * inv) @ v.T / np.outer(scale, scale)
+    if not with_unseen:
+        return pinv
     unseen = np.any(np.abs(v[:, tiny]) > 1e-6, axis=1) if np.any(tiny) else np.zeros(len(w), bool)
-    cov[unseen, :] = np.nan
-    cov[:, unseen] = np.nan
-    cov[unseen, unseen] = np.inf
-    return cov * residual_variance
-
-
-def _pseudo_inverse_normal(jac: np.ndarray) -> np.ndarray:
-    """(JᵀJ)⁺ with the directions that carry no information left out (scaled for conditioning)."""
-    jtj = jac.T @ jac
-    norm = np.sqrt(np.clip(np.diag(jtj), 0.0, np.inf))
-    scale = np.where(norm > 0, norm, 1.0)
-    w, v = np.linalg.eigh(jtj / np.outer(scale, scale))
-    tiny = w <= w[-1] * _TINY_EIGENVALUE if w.size else w
-    inv = np.where(tiny, 0.0, 1.0 / np.where(tiny, 1.0, w))
-    return (v * inv) @ v.T / np.outer(scale, scale)
+    return pinv, unseen
 
 
 def _smooth_basis(f_Hz: np.ndarray) -> np.ndarray:
