@@ -28,9 +28,17 @@ class Analysis:
 
     @property
     def design_passed(self) -> bool | None:
+        """True or False as the design check decided; None without a check or when not judged."""
         if not self.design_check:
             return None
-        return bool(self.design_check.get("passed"))
+        return self.design_check.get("passed")
+
+    @property
+    def design_status(self) -> str:
+        """'pass', 'fail', 'not judged' or 'no design' (rfmeas.design.design_status)."""
+        from .design import design_status
+
+        return design_status(self.design_check)
 
     @property
     def all_warnings(self) -> list[str]:
@@ -62,7 +70,7 @@ def analyze(measurement: MeasurementSet) -> Analysis:
     from .figures import compute_figures
     from .fit import fit_sweeps
     from .results import build_result
-    from .sanity import check_fit, method_warnings, review_sweeps
+    from .sanity import method_warnings, review_fit, review_sweeps
 
     pre, unusable = review_sweeps(measurement)  # raises FitError when no sweep is usable
     advice = method_warnings(measurement)
@@ -76,9 +84,9 @@ def analyze(measurement: MeasurementSet) -> Analysis:
     sweeps = list(measurement.sweeps)
     outcome = fit_sweeps(sweeps)
     result = build_result(outcome, sweeps)
-    post = check_fit(measurement, result)
-    figures, design_check, warnings = compute_figures(measurement, result)
-    return Analysis(measurement, result, figures, design_check, tuple(pre + post + list(warnings)),
+    review = review_fit(measurement, result)
+    figures, design_check, warnings = compute_figures(measurement, result, review.cannot_judge)
+    return Analysis(measurement, result, figures, design_check, tuple(pre + list(review.warnings) + list(warnings)),
                     tuple(advice), recorded)
 
 

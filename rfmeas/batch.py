@@ -28,7 +28,7 @@ from .store import design_status
 
 log = logging.getLogger(__name__)
 
-STATUSES = ("pass", "fail", "no design", "error")
+STATUSES = ("pass", "fail", "not judged", "no design", "error")
 
 
 def analyse_manifest(path: str) -> dict:
@@ -73,8 +73,8 @@ class Spread:
 class BatchResult:
     """All units in input order, their spread, and the yield.
 
-    yield_fraction = passed / (passed + failed + errors); units without a design
-    check are left out; None when no unit has a design check.
+    yield_fraction = passed / (passed + failed + not judged + errors); units
+    without a design check are left out; None when no unit has a design check.
     """
 
     units: tuple[UnitOutcome, ...]
@@ -87,15 +87,16 @@ class BatchResult:
     @property
     def yield_fraction(self) -> float | None:
         c = self.counts
-        if not c["pass"] + c["fail"]:
+        if not c["pass"] + c["fail"] + c["not judged"]:
             return None
-        return c["pass"] / (c["pass"] + c["fail"] + c["error"])
+        return c["pass"] / (c["pass"] + c["fail"] + c["not judged"] + c["error"])
 
     @property
     def exit_code(self) -> int:
-        """2 if any unit could not be analysed, else 1 if any failed its design check, else 0."""
+        """2 if any unit could not be analysed, else 1 if any design check failed or could not be
+        judged, else 0."""
         c = self.counts
-        return EXIT_BAD_INPUT if c["error"] else EXIT_DESIGN_FAILED if c["fail"] else EXIT_OK
+        return EXIT_BAD_INPUT if c["error"] else EXIT_DESIGN_FAILED if c["fail"] + c["not judged"] else EXIT_OK
 
     def to_dict(self) -> dict:
         return {"units": [u.to_dict() for u in self.units], "counts": self.counts,

@@ -34,6 +34,21 @@ def _root(
                                  help="Print the version and exit."),
 ):
     DEBUG["enabled"] = debug
+    if debug:
+        _debug_logging()
+
+
+def _debug_logging() -> None:
+    """With --debug, rfmeas's log (and the library warnings routed into it) goes to stderr."""
+    import logging
+
+    logger = logging.getLogger("rfmeas")
+    if not any(getattr(h, "rfmeas_debug", False) for h in logger.handlers):
+        handler = logging.StreamHandler()
+        handler.setFormatter(logging.Formatter("%(levelname)s %(name)s: %(message)s"))
+        handler.rfmeas_debug = True
+        logger.addHandler(handler)
+    logger.setLevel(logging.DEBUG)
 
 
 for _name in COMMAND_MODULES:
@@ -49,8 +64,13 @@ def main() -> None:
     """
     import os
 
+    import warnings
+
+    from .commands._common import log_warning
+
     for name in ("OPENBLAS_NUM_THREADS", "OMP_NUM_THREADS", "MKL_NUM_THREADS"):
         os.environ.setdefault(name, "1")
+    warnings.showwarning = log_warning  # no library warning reaches a user (shown with --debug)
     app()
 
 

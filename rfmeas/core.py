@@ -371,6 +371,9 @@ def _fit_models(f_Hz, z, measured, sigma, turns, geometry, method, z0_ohm):
     """Fit the first-order model from several starts, then the broadened one from its result."""
     residuals = _residuals_factory(f_Hz, measured, sigma, turns, geometry, method, z0_ohm)
     mu_i0, fr0, rw0, cw0 = _start_values(f_Hz, z, turns, geometry)
+    if not np.all(np.isfinite([mu_i0, fr0, rw0, cw0])):
+        raise FitError("the sweep gives no starting point for a core model: it does not look like a "
+                       "wound core (a short or open circuit?)")
     lower = np.array([math.log(1e-3), math.log(f_Hz[0] / 1e3), 0.0, 0.0])
     upper = np.array([math.log(1e7), math.log(f_Hz[-1] * 1e3), np.inf, 1e7])
     best = None

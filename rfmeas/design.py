@@ -12,48 +12,99 @@ The advice follows the usual levers of a hand-wound transformer (common
 practice): inductance grows as N², so more turns on both windings lower the
 low-frequency limit; fewer turns, tighter winding (less leakage) or spread
 turns (less capacitance) raise the upper corner.
+
+Pass or fail is decided in one place, `DesignCheck.passed`: True when every
+verdict passes, False when one fails, None ("not judged") when the check
+cannot be judged — a poor fit, data that look like no two-winding
+transformer, an incomplete sweep. A check that is not judged gives every
+verdict "not judged" with the reason and no advice; `design_status` reads the
+outcome back from the JSON (pass, fail, not judged, no design).
 """
 
 from __future__ import annotations
 
 import math
-from dataclasses import dataclass
+from dataclasses import dataclass, replace
 
 from .sweep import DesignTarget
 from .units import format_engineering as eng
 
 NOTHING_TO_CHANGE = "nothing to change"
+NOT_JUDGED = "not judged"
 
 
 @dataclass(frozen=True)
 class Verdict:
-    """One check: pass or fail, the value against its limit, how far off, what to change."""
+    """One check: pass or fail (None: not judged), the value against its limit, how far off,
+    what to change, and why it was not judged."""
 
     name: str
     label: str
-    passed: bool
+    passed: bool | None
     value: float
     limit: float
     unit: str
     margin: str
     advice: str
+    reason: str = ""
+
+    @property
+    def state(self) -> str:
+        return NOT_JUDGED if self.passed is None else ("pass" if self.passed else "fail")
 
     def to_dict(self) -> dict:
-        return dict(self.__dict__)
+        return dict(self.__dict__, state=self.state)
+
+
+def not_judged(verdict: Verdict, reason: str) -> Verdict:
+    """The verdict withheld: no pass or fail, no margin, no advice, the reason instead."""
+    return replace(verdict, passed=None, margin=NOT_JUDGED, advice="", reason=reason)
 
 
 @dataclass(frozen=True)
 class DesignCheck:
     verdicts: tuple[Verdict, ...]
     target: DesignTarget
+    not_judged: tuple[str, ...] = ()   # why the check cannot be judged (empty: it is)
 
     @property
-    def passed(self) -> bool:
+    def passed(self) -> bool | None:
+        """The one place pass or fail is decided: None when the check cannot be judged."""
+        if self.not_judged:
+            return None
         return all(v.passed for v in self.verdicts)
 
+    @property
+    def status(self) -> str:
+        return NOT_JUDGED if self.passed is None else ("pass" if self.passed else "fail")
+
     def to_dict(self) -> dict:
-        return {"passed": self.passed, "checks": [v.to_dict() for v in self.verdicts],
-                "target": self.target.to_dict()}
+        return {"passed": self.passed, "status": self.status, "not_judged_reasons": list(self.not_judged),
+                "checks": [v.to_dict() for v in self.verdicts], "target": self.target.to_dict()}
+
+
+def design_status(check: dict | None) -> str:
+    """'pass', 'fail', 'not judged' or 'no design' from a JSON design_check (current or older form).
+
+    Older results carry ``passed`` as a bool, or per-check dicts with a bool ``passed``.
+    """
+    if not isinstance(check, dict) or not check:
+        return "no design"
+    if check.get("status") in ("pass", "fail", NOT_JUDGED):
+        return check["status"]
+    if isinstance(check.get("passed"), bool):
+        return "pass" if check["passed"] else "fail"
+    if "passed" in check and check["passed"] is None and check.get("checks") is not None:
+        return NOT_JUDGED
+    verdicts = [v.get("passed") for v in check.values() if isinstance(v, dict) and isinstance(v.get("passed"), bool)]
+    if not verdicts:
+        return "no design"
+    return "pass" if all(verdicts) else "fail"
+
+
+def design_fails(status: str) -> bool:
+    """Whether a design status makes `rfmeas analyze` exit 1: failed, or could not be judged."""
+    return status in ("fail", NOT_JUDGED)
 
 
 @dataclass(frozen=True)
@@ -252,8 +303,11 @@ def _return_loss(facts: DesignFacts, design: DesignTarget) -> Verdict:
                    passed, value, limit, "dB", margin, advice)
 
 
-def check_design(facts: DesignFacts, design: DesignTarget) -> DesignCheck:
-    """Every check the design and the measured facts allow, in a fixed order."""
+def check_design(facts: DesignFacts, design: DesignTarget, cannot_judge: tuple[str, ...] = ()) -> DesignCheck:
+    """Every check the design and the measured facts allow, in a fixed order.
+
+    With reasons in `cannot_judge`, every verdict is withheld ("not judged") with them.
+    """
     verdicts = []
     if design.target_turns_ratio and facts.effective_ratio:
         verdicts.append(_ratio_vs_design(facts, design))
@@ -265,4 +319,7 @@ def check_design(facts: DesignFacts, design: DesignTarget) -> DesignCheck:
         verdicts.append(_high_corner(facts, design))
     if design.lowest_frequency_Hz and design.highest_frequency_Hz and facts.min_return_loss_dB is not None:
         verdicts.append(_return_loss(facts, design))
-    return DesignCheck(tuple(verdicts), design)
+    reasons = tuple(cannot_judge)
+    if reasons:
+        verdicts = [not_judged(v, "; ".join(reasons)) for v in verdicts]
+    return DesignCheck(tuple(verdicts), design, reasons)

@@ -28,6 +28,7 @@ from .design import DesignFacts, check_design, is_design
 from .fit import to_physical
 from .magnetics import effective_permeability, geometry_from_table, nH_per_turn2_to
 from .model.params import PARAMETER_NAMES, TransformerParams
+from .results import checked_stderr
 from .response import band_response, minimum_return_loss_dB, open_circuit_voltage_ratio, \
     reactance_limit_Hz, return_loss_dB, self_resonance_Hz
 from .units import format_engineering as eng
@@ -215,6 +216,10 @@ class _Builder:
             d["stderr"] = None if (no_err or err is None) else abs(err * scale)
             if no_err:
                 d["note"] = f"no standard error: {self.reason(no_err)}"
+            else:  # never a bare confident number: 0, NaN or no standard error is said so
+                d["stderr"], why = checked_stderr(d["value"], d["stderr"])
+                if why:
+                    d["stderr_note"] = why
         d.update(extra)
         return d
 
@@ -244,8 +249,11 @@ def _combined_key(prefix: str, primary_known: bool, secondary_known: bool, held:
     return f"{prefix}_secondary" if secondary_known else f"{prefix}_primary"
 
 
-def compute_figures(measurement, result) -> tuple[dict, dict | None, list[str]]:
-    """(figures, design_check, warnings) for a fitted measurement set; see DESIGN.md 'JSON contract'."""
+def compute_figures(measurement, result, cannot_judge: tuple[str, ...] = ()) -> tuple[dict, dict | None, list[str]]:
+    """(figures, design_check, warnings) for a fitted measurement set; see DESIGN.md 'JSON contract'.
+
+    With reasons in `cannot_judge` (rfmeas.sanity.review_fit) the design check is not judged.
+    """
     outcome = result.outcome
     design = measurement.design
     n1, n2 = measurement.primary_turns, measurement.secondary_turns
@@ -382,7 +390,7 @@ def compute_figures(measurement, result) -> tuple[dict, dict | None, list[str]]:
             else "capacitance",
             midband_Hz=values["midband_Hz"], midband_return_loss_dB=values["midband_rl"],
             min_return_loss_dB=values.get("min_rl"), min_return_loss_at_Hz=values.get("min_rl_at_Hz"))
-        design_check = check_design(facts, design).to_dict()
+        design_check = check_design(facts, design, cannot_judge).to_dict()
     return figures, design_check, warnings
 
 
@@ -391,10 +399,12 @@ def compute_figures(measurement, result) -> tuple[dict, dict | None, list[str]]:
 def _value_text(fig: dict | None, unit: str = "", digits: int = 4) -> str:
     if not fig or fig.get("value") is None:
         return "—"
-    if unit:
-        return format_with_error(fig["value"], fig.get("stderr"), unit)
     err = fig.get("stderr")
-    return f"{fig['value']:.{digits}g}" + (f" ± {err:.2g}" if err else "")
+    if not err:  # None or 0: no standard error, which the note explains
+        return (eng(fig["value"], unit) if unit else f"{fig['value']:.{digits}g}") + " ± ?"
+    if unit:
+        return format_with_error(fig["value"], err, unit)
+    return f"{fig['value']:.{digits}g} ± {err:.2g}"
 
 
 def _plain_note(note: str, shared: str) -> str:
@@ -416,7 +426,10 @@ def figure_rows(analysis) -> list[tuple[str, str, str]]:
     rows: list[tuple[str, str, str]] = []
 
     def row(label, fig, unit="", note=""):
-        rows.append((label, _value_text(fig, unit), _plain_note(note or (fig or {}).get("note", ""), shared)))
+        own = (fig or {}).get("note", "")
+        why = [own] if note and own.startswith("no standard error") else []  # said even beside another note
+        note = "; ".join(n for n in [note or own] + why + [(fig or {}).get("stderr_note", "")] if n)
+        rows.append((label, _value_text(fig, unit), _plain_note(note, shared)))
 
     al = f.get("inductance_factor_nH_per_turn2", {})
     if al.get("value") is not None:
@@ -479,12 +492,12 @@ def verdict_table(analysis):
     from rich.table import Table
 
     check = analysis.design_check
-    table = Table(title="Design check: " + ("PASS" if check["passed"] else "FAIL"), title_justify="left",
-                  show_edge=False, pad_edge=False)
+    title = {"pass": "PASS", "fail": "FAIL"}.get(analysis.design_status, "NOT JUDGED")
+    table = Table(title="Design check: " + title, title_justify="left", show_edge=False, pad_edge=False)
     for col in ("check", "verdict", "value", "limit", "margin", "what to change"):
         table.add_column(col, overflow="fold")
     for c in check["checks"]:
-        verdict = "[green]pass[/]" if c["passed"] else "[bold red]FAIL[/]"
+        verdict = {True: "[green]pass[/]", False: "[bold red]FAIL[/]"}.get(c["passed"], "[yellow]not judged[/]")
         unit = c["unit"]
         fmt = (lambda v: eng(v, unit)) if unit == "Hz" else (lambda v: f"{v:.4g}{' ' + unit if unit else ''}")
         table.add_row(escape(c["label"]), verdict, fmt(c["value"]), fmt(c["limit"]), escape(c["margin"]),
@@ -505,7 +518,11 @@ def _render_figures(analysis, console) -> None:
 
 def _render_verdicts(analysis, console) -> None:
     if analysis.design_check:
+        from rich.markup import escape
+
         console.print(verdict_table(analysis))
+        for reason in analysis.design_check.get("not_judged_reasons") or ():
+            console.print(f"[yellow]not judged:[/] {escape(reason)}")
         console.print()
 
 

@@ -1,14 +1,37 @@
 """Fit results as people and programs read them: estimates with standard errors, fit quality.
 
+The fit is judged against the data's own noise, never against its own residuals
+(a noise level read off the residuals calls any misfit "noise"). For each sweep,
+σ_e is the per-component error of S element e from rfmeas.noise.error_sigma: the
+trace noise found from neighbouring measured points, with a small systematic floor
+in quadrature. r_fe = S_model − S_measured at point f, element e.
+
 Statistics reported (per sweep and overall):
-- rms_residual: sqrt(mean |S_model − S_measured|²) over every fitted S element
-  and point, unweighted (S units: 0.001 is a −60 dB misfit);
-- noise_estimate: the per-component residual rms used to weight that sweep;
-- residual_variance: Σ(weighted residual²)/(N − p), about 1 when the model
-  describes the data down to its noise;
+- rms_residual: sqrt(mean_fe |r_fe|²) over every fitted S element and point,
+  unweighted (S units: 0.001 is a −60 dB misfit);
+- data_noise: sqrt(mean_e σ_e²), the sweep's error level per component (S units);
+- misfit_ratio (per sweep): sqrt(mean_fe (Re² r_fe + Im² r_fe)/(2·σ_e²)), the rms
+  misfit per component in units of the data's own error. A model that describes
+  the data leaves only the noise, ratio ≈ 1 (a little below: the fit absorbs p of
+  the n components, E[ratio²] ≈ 1 − p/n); a systematic misfit of a·σ per
+  component gives ratio ≈ sqrt(1 + a²);
+- misfit_ratio (overall): the same over every point of every sweep, pooled,
+  sqrt(Σ_sweeps Σ_fe |r_fe|²/(2σ_e²) / Σ_sweeps F·E);
+- grade: of the larger of the overall ratio and the worst sweep's ratio, good
+  when ≤ GOOD_MISFIT_RATIO (2), marginal when ≤ POOR_MISFIT_RATIO (5), poor above
+  (or when a ratio is not a finite number). The worst sweep counts on its own: a
+  sweep of another unit, or a wrong connection, is missed by 7–11× while the other
+  three sweeps fit to their noise and the pooled ratio stays near 3. See the
+  constants for why these limits;
+- missed sweeps: misfit_ratio > POOR_MISFIT_RATIO, or > GOOD_MISFIT_RATIO and
+  more than MISSED_SWEEP_FACTOR times the median ratio of the other sweeps;
+- worst_band: the tenth of a sweep's log-frequency span with the largest rms
+  (S units); worst_misfit_band the same in misfit-ratio units;
+- noise_estimate: the per-component noise level the solver weighted that sweep by
+  (the solver's figure, not used to judge the fit);
+- residual_variance: the solver's Σ(weighted residual²)/(N − p), likewise;
 - residual_correlation: lag-1 autocorrelation of the residuals along
-  frequency; white noise gives ≈ 0, a systematic misfit gives ≈ 1;
-- worst_band: the tenth of a sweep's log-frequency span with the largest rms.
+  frequency; white noise gives ≈ 0, a systematic misfit gives ≈ 1.
 """
 
 from __future__ import annotations
@@ -20,6 +43,7 @@ import numpy as np
 
 from .fit import FitOutcome, to_physical
 from .model.params import PARAMETER_NAMES, TransformerParams
+from .noise import error_sigma
 from .sweep import Sweep
 
 # JSON key, internal name, unit for display
@@ -85,6 +109,8 @@ class Estimate:
     determined: bool = True
     held_at: float | None = None
     note: str = ""
+    stderr_note: str = ""   # why a determined value has no standard error
+
 
     @property
     def relative_stderr(self) -> float | None:
@@ -98,6 +124,8 @@ class Estimate:
             d["held_at"] = self.held_at
         if self.note:
             d["note"] = self.note
+        if self.stderr_note:
+            d["stderr_note"] = self.stderr_note
         return d
 
 
@@ -110,9 +138,70 @@ class SweepQuality:
     noise_estimate: float
     residual_correlation: float
     worst_band: dict
+    data_noise: float = math.nan
+    misfit_ratio: float = math.nan
+    worst_misfit_band: dict = field(default_factory=dict)
 
     def to_dict(self) -> dict:
         return dict(self.__dict__)
+
+
+GOOD_MISFIT_RATIO = 2.0
+"""Up to this overall misfit ratio the fit is good. A right model gives 0.9–1.1: the fit
+absorbs a few components, the data-noise estimate scatters by some 10 % on a few hundred
+points, and a real VNA's noise changes over the band. 2 allows a systematic misfit of up to
+√3 ≈ 1.7 σ per component (calibration residue beyond the floor, a core slightly off the
+lumped model): the values still stand and the standard errors are optimistic by at most ~2×."""
+POOR_MISFIT_RATIO = 5.0
+"""Above this the fit is poor: the misfit power is over 25× the noise power, a systematic
+error of ≥ √24 ≈ 4.9 σ at every point, so the model does not describe the data. Standard
+errors from the data's noise then understate the real error at least that much, and values
+many standard errors from the truth are to be expected; no design verdict rests on it."""
+MISSED_SWEEP_FACTOR = 3.0
+"""A sweep whose ratio is above GOOD_MISFIT_RATIO and this many times the median ratio of the
+other sweeps is named as missed, even when the set as a whole is not poor."""
+GRADES = ("good", "marginal", "poor")
+
+
+@dataclass(frozen=True)
+class FitQuality:
+    """The fit judged against the data's own noise (see the module docstring for the formulas)."""
+
+    grade: str
+    misfit_ratio: float
+    sweeps: dict                    # label -> misfit ratio
+    missed: tuple[dict, ...] = ()   # {"sweep", "misfit_ratio", "worst_band": {start_Hz, stop_Hz, misfit_ratio}}
+
+    @property
+    def stderr_describes_error(self) -> bool:
+        """False when the misfit is so far above the noise that standard errors mean nothing."""
+        return self.grade != "poor"
+
+    def summary(self) -> str:
+        """One sentence: the ratio, the grade and what it means."""
+        if not math.isfinite(self.misfit_ratio):
+            return ("the misfit could not be measured against the data's noise (poor): the standard errors "
+                    "do not describe the error, and no design verdict is given")
+        text = f"misfit {self.misfit_ratio:.3g}× the data's own noise"
+        if self.grade == "good":
+            return text + f" (≤ {GOOD_MISFIT_RATIO:g}× is good)"
+        if self.grade == "marginal":
+            return text + (f" (marginal, ≤ {POOR_MISFIT_RATIO:g}×): the values stand, the standard errors "
+                           "are optimistic")
+        return text + (f" (poor, above {POOR_MISFIT_RATIO:g}×): the model does not describe the data; the "
+                       "standard errors do not describe the error, and no design verdict is given")
+
+    def to_dict(self) -> dict:
+        return {
+            "grade": self.grade,
+            "misfit_ratio": self.misfit_ratio,
+            "sweeps": dict(self.sweeps),
+            "missed_sweeps": [dict(m) for m in self.missed],
+            "noise_source": "data",
+            "thresholds": {"good": GOOD_MISFIT_RATIO, "marginal": POOR_MISFIT_RATIO},
+            "stderr_describes_error": self.stderr_describes_error,
+            "summary": self.summary(),
+        }
 
 
 @dataclass(frozen=True)
@@ -132,6 +221,7 @@ class FitResult:
     sweeps: tuple[SweepQuality, ...]
     warnings: tuple[str, ...]
     outcome: FitOutcome = field(repr=False, compare=False)
+    quality: FitQuality = field(default_factory=lambda: FitQuality("poor", math.nan, {}))
 
     def estimate(self, key: str) -> Estimate:
         return self.estimates[key]
@@ -150,11 +240,21 @@ class FitResult:
             "polarity": "inverting" if self.params.polarity < 0 else "non-inverting",
             "worst_band": None if worst is None else dict(worst.worst_band, sweep=worst.label),
             "sweeps": [s.to_dict() for s in self.sweeps],
+            "quality": self.quality.to_dict(),
         }
+
+    def parameters_dict(self) -> dict:
+        """Every estimate's dict; when the fit is poor, each standard error is flagged as meaningless."""
+        out = {k: e.to_dict() for k, e in self.estimates.items()}
+        if not self.quality.stderr_describes_error:
+            for d in out.values():
+                if d["stderr"] is not None:
+                    d["stderr_describes_error"] = False
+        return out
 
     def to_dict(self) -> dict:
         return {
-            "parameters": {k: e.to_dict() for k, e in self.estimates.items()},
+            "parameters": self.parameters_dict(),
             "fit": self.fit_dict(),
             "warnings": list(self.warnings),
             "model": self.params.to_dict(),
@@ -202,8 +302,24 @@ def build_estimates(outcome: FitOutcome) -> dict:
         with np.errstate(invalid="ignore"):  # nan where the data leave a direction unseen
             var = float(g @ cov @ g) if cov is not None else math.nan
         stderr = math.sqrt(var) if math.isfinite(var) and var >= 0 else None
-        out[key] = Estimate(float(value), stderr, note=note)
+        stderr, why = checked_stderr(value, stderr, cov is None)
+        out[key] = Estimate(float(value), stderr, note=note, stderr_note=why)
     return out
+
+
+def checked_stderr(value: float, stderr: float | None, no_covariance: bool = False) -> tuple[float | None, str]:
+    """(standard error, "") when it is a usable number, else (None, why).
+
+    A standard error of exactly zero (or one below 1e-12 of the value, floating-point dust),
+    NaN or infinity describes no measurement: it must never print as a confident number.
+    """
+    if no_covariance:
+        return None, "no standard error: the fit gave no covariance"
+    if stderr is None or not math.isfinite(stderr):
+        return None, "no standard error: the sweeps leave this quantity's direction unseen"
+    if stderr <= 1e-12 * abs(value):
+        return None, "no standard error: the fit's covariance gives 0, which no measurement supports"
+    return stderr, ""
 
 
 def _lag1_correlation(r: np.ndarray) -> float:
@@ -217,7 +333,8 @@ def _lag1_correlation(r: np.ndarray) -> float:
     return float(np.mean(parts)) if parts else 0.0
 
 
-def _worst_band(f_Hz: np.ndarray, r: np.ndarray, bins: int = 10) -> dict:
+def _worst_band(f_Hz: np.ndarray, r: np.ndarray, bins: int = 10, key: str = "rms") -> dict:
+    """The tenth of the log-frequency span where the rms of |r| (averaged over elements) is largest."""
     logf = np.log10(f_Hz)
     edges = np.linspace(logf[0], logf[-1], bins + 1)
     mag2 = np.mean(np.abs(r) ** 2, axis=1)
@@ -227,14 +344,70 @@ def _worst_band(f_Hz: np.ndarray, r: np.ndarray, bins: int = 10) -> dict:
         if not np.any(sel):
             continue
         rms = float(np.sqrt(np.mean(mag2[sel])))
-        if best is None or rms > best["rms"]:
-            best = {"start_Hz": float(10 ** edges[i]), "stop_Hz": float(10 ** edges[i + 1]), "rms": rms}
-    return best or {"start_Hz": float(f_Hz[0]), "stop_Hz": float(f_Hz[-1]), "rms": 0.0}
+        if best is None or rms > best[key]:
+            best = {"start_Hz": float(10 ** edges[i]), "stop_Hz": float(10 ** edges[i + 1]), key: rms}
+    return best or {"start_Hz": float(f_Hz[0]), "stop_Hz": float(f_Hz[-1]), key: 0.0}
 
 
-MISFIT_WARNING_RMS = 0.01
-"""A sweep whose fit leaves more than this rms (S units, −40 dB) is flagged."""
 CORRELATION_WARNING = 0.5
+
+
+def sweep_misfit(measured: np.ndarray, residual: np.ndarray) -> tuple[np.ndarray, float, float]:
+    """(residual in units of the data's error, data noise, misfit ratio) of one sweep.
+
+    `measured` and `residual` have shape (F, E); the error σ_e of each element comes from the
+    measured data alone (rfmeas.noise.error_sigma). The normalised residual r/(√2·σ_e) has
+    rms 1 per point when the misfit is the noise.
+    """
+    sigma = error_sigma(measured)
+    scaled = np.asarray(residual) / (math.sqrt(2.0) * sigma[None, :])
+    with np.errstate(invalid="ignore", over="ignore"):
+        ratio = float(np.sqrt(np.mean(np.abs(scaled) ** 2)))
+    return scaled, float(np.sqrt(np.mean(sigma**2))), ratio
+
+
+def grade_of(ratio: float) -> str:
+    """good / marginal / poor for an overall misfit ratio (poor when it is not a finite number)."""
+    if not math.isfinite(ratio) or ratio > POOR_MISFIT_RATIO:
+        return "poor"
+    return "good" if ratio <= GOOD_MISFIT_RATIO else "marginal"
+
+
+def missed_sweeps(ratios: dict) -> list[str]:
+    """Labels of the sweeps the model misses: far above the noise, or far above the other sweeps."""
+    out = []
+    for label, ratio in ratios.items():
+        others = [r for other, r in ratios.items() if other != label and math.isfinite(r)]
+        typical = float(np.median(others)) if others else math.nan
+        if not math.isfinite(ratio) or ratio > POOR_MISFIT_RATIO or (
+                ratio > GOOD_MISFIT_RATIO and math.isfinite(typical) and ratio > MISSED_SWEEP_FACTOR * typical):
+            out.append(label)
+    return out
+
+
+def fit_quality(qualities, sizes) -> FitQuality:
+    """The grade of a fit from its sweeps' misfit ratios (SweepQuality), pooled over every fitted
+    value: `sizes` holds each sweep's count of complex values, points × elements."""
+    count = float(sum(sizes))
+    total = sum(q.misfit_ratio**2 * n for q, n in zip(qualities, sizes))
+    ratio = math.sqrt(total / count) if count else math.nan
+    ratios = {q.label: q.misfit_ratio for q in qualities}
+    missed_labels = missed_sweeps(ratios)
+    worst = max(ratios.values(), key=lambda r: r if math.isfinite(r) else math.inf, default=ratio)
+    grade = max(grade_of(ratio), grade_of(worst), key=GRADES.index)
+    missed = tuple({"sweep": q.label, "misfit_ratio": q.misfit_ratio, "worst_band": dict(q.worst_misfit_band)}
+                   for q in qualities if q.label in missed_labels)
+    return FitQuality(grade, ratio, ratios, missed)
+
+
+def _missed_warning(q: SweepQuality) -> str:
+    band = q.worst_misfit_band
+    where = (f"worst {band['start_Hz']:.3g}–{band['stop_Hz']:.3g} Hz, {band['misfit_ratio']:.3g}×"
+             if band and math.isfinite(band.get("misfit_ratio", math.nan)) else "no band stands out")
+    ratio = f"{q.misfit_ratio:.3g}×" if math.isfinite(q.misfit_ratio) else "by a non-finite amount from"
+    return (f"{q.label}: the model misses this sweep: misfit {ratio} the data's own noise "
+            f"({q.rms_residual:.3g} rms against a noise of {q.data_noise:.2g}; {where}); the circuit may "
+            "not describe it, or the sweep is not what the manifest says")
 
 
 def build_result(outcome: FitOutcome, sweeps: list[Sweep]) -> FitResult:
@@ -246,25 +419,30 @@ def build_result(outcome: FitOutcome, sweeps: list[Sweep]) -> FitResult:
         if s.forward_only:
             warnings.append(f"{s.label}: forward-only two-port file (S12, S22 not measured): "
                             "only S11 and S21 were fitted")
-    qualities = []
+    qualities, sizes = [], []
     total_sq, total_n = 0.0, 0
     for s, r, sigma in zip(sweeps, outcome.residuals, outcome.sweep_sigma):
         rms = float(np.sqrt(np.mean(np.abs(r) ** 2)))
         total_sq += float(np.sum(np.abs(r) ** 2))
         total_n += r.size
-        corr = _lag1_correlation(r)
-        q = SweepQuality(s.label, s.describe(), int(s.f_Hz.size), rms, sigma, corr,
-                         _worst_band(s.f_Hz, r))
-        qualities.append(q)
-        if rms > MISFIT_WARNING_RMS:
+        sizes.append(r.size)
+        scaled, noise, ratio = sweep_misfit(s.measured(), r)
+        qualities.append(SweepQuality(
+            s.label, s.describe(), int(s.f_Hz.size), rms, sigma, _lag1_correlation(r), _worst_band(s.f_Hz, r),
+            data_noise=noise, misfit_ratio=ratio,
+            worst_misfit_band=_worst_band(s.f_Hz, scaled, key="misfit_ratio")))
+    quality = fit_quality(qualities, sizes)
+    missed = {m["sweep"] for m in quality.missed}
+    for q in qualities:
+        if q.label in missed:
+            warnings.append(_missed_warning(q))
+        elif q.residual_correlation > CORRELATION_WARNING and q.misfit_ratio > GOOD_MISFIT_RATIO:
             warnings.append(
-                f"{s.label}: the fitted model misses this sweep by {rms:.3g} rms (worst "
-                f"{q.worst_band['start_Hz']:.3g}–{q.worst_band['stop_Hz']:.3g} Hz); "
-                "the circuit may not describe it, or the sweep is not what the manifest says")
-        elif corr > CORRELATION_WARNING and rms > 1e-6:
-            warnings.append(
-                f"{s.label}: the residuals follow a pattern along frequency (lag-1 correlation "
-                f"{corr:.2f}): the model leaves something out, so standard errors are optimistic")
+                f"{q.label}: the residuals follow a pattern along frequency (lag-1 correlation "
+                f"{q.residual_correlation:.2f}, misfit {q.misfit_ratio:.3g}× the noise): the model leaves "
+                "something out, so standard errors are optimistic")
+    if quality.grade == "poor":
+        warnings.append(f"the fit is poor: {quality.summary()}")
     for key, est in estimates.items():
         if not est.determined and key in ("primary_inductance_H", "secondary_inductance_H",
                                           "coupling_coefficient", "core_loss_resistance_ohm",
@@ -287,4 +465,5 @@ def build_result(outcome: FitOutcome, sweeps: list[Sweep]) -> FitResult:
         sweeps=tuple(qualities),
         warnings=tuple(warnings),
         outcome=outcome,
+        quality=quality,
     )

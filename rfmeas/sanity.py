@@ -9,18 +9,22 @@ fit and reads its quality figures: non-convergence, most sweeps missed, one
 sweep fitted far worse than the others, a coupling or inductance pressed
 against its range, and inductances that contradict the turn counts of the
 manifest. Both return plain sentences, naming the sweep where there is one.
+`review_fit` adds what the design check needs as data: whether the fitted
+circuit looks like no two-winding transformer at all, and every reason the
+design cannot be judged (that, a poor fit, a partial sweep).
 """
 
 from __future__ import annotations
 
 import math
+from dataclasses import dataclass
 
 import numpy as np
 
 from .errors import FitError, InputError
 from .fit import BOUNDS
 from .fit_start import inductance_at_low_frequency
-from .results import FitResult
+from .results import GOOD_MISFIT_RATIO, FitResult
 from .sweep import MeasurementSet, Sweep
 
 NOT_A_TRANSFORMER = "this does not look like a two-winding transformer"
@@ -232,18 +236,52 @@ def _usable_inductances(sweeps, winding: str, termination: str) -> list[tuple[Sw
 # --------------------------------------------------------------------------- after the fit
 
 
-def check_fit(measurement: MeasurementSet, result: FitResult) -> list[str]:
-    """Warnings about a fit that should not be believed as it stands, naming the suspect sweep.
+@dataclass(frozen=True)
+class FitReview:
+    """What the checks after the fit found: warnings, and the verdicts' doubts as data.
 
-    `measurement` holds the sweeps that were fitted (analyze leaves out unusable ones).
+    not_a_transformer   the reason, when the fitted circuit describes none of the sweeps
+                        (None otherwise)
+    cannot_judge        every reason no design verdict may be given (empty: judge)
     """
+
+    warnings: tuple[str, ...]
+    not_a_transformer: str | None
+    cannot_judge: tuple[str, ...]
+
+    def to_dict(self) -> dict:
+        return {"warnings": list(self.warnings), "not_a_transformer": self.not_a_transformer,
+                "cannot_judge": list(self.cannot_judge)}
+
+
+def review_fit(measurement: MeasurementSet, result: FitResult) -> FitReview:
+    """The checks after the fit; `measurement` holds the sweeps that were fitted (analyze leaves
+    out unusable ones)."""
+    missed = _missed_sweeps(result)
     warnings = []
     warnings.extend(_convergence(result))
-    warnings.extend(_missed_sweeps(result))
+    warnings.extend(missed)
     warnings.extend(_residual_outliers(result))  # sweeps found unusable were left out of this fit
     warnings.extend(_edges(result))
     warnings.extend(_turns_ratio(measurement, result))
-    return warnings
+    not_a_transformer = missed[0] if missed else None
+    reasons = []
+    if not_a_transformer:
+        reasons.append(not_a_transformer)
+    if result.quality.grade == "poor":
+        ratio = result.quality.misfit_ratio
+        reasons.append("the fit is poor: " + (f"the model misses the data by {ratio:.3g}× their own noise"
+                                              if math.isfinite(ratio) else "its misfit is not a finite number"))
+    partial = [s.label for s in measurement.sweeps if s.partial]
+    if partial:
+        reasons.append(f"{', '.join(partial)}: {'is an incomplete sweep' if len(partial) == 1 else 'are incomplete sweeps'} "
+                       "(the file is marked as interrupted): measure it again to completion for a verdict")
+    return FitReview(tuple(warnings), not_a_transformer, tuple(reasons))
+
+
+def check_fit(measurement: MeasurementSet, result: FitResult) -> list[str]:
+    """Warnings about a fit that should not be believed as it stands, naming the suspect sweep."""
+    return list(review_fit(measurement, result).warnings)
 
 
 def _worst_sweep(result: FitResult):
@@ -287,9 +325,12 @@ def _residual_outliers(result: FitResult) -> list[str]:
         if q.rms_residual <= RESIDUAL_OUTLIER_FLOOR or q.rms_residual <= RESIDUAL_OUTLIER_FACTOR * typical:
             continue
         times = q.rms_residual / typical if typical > 0 else math.inf
-        if q.residual_correlation > SYSTEMATIC_CORRELATION:
+        # measured against its own noise, a sweep the model misses is suspect; one it fits is just noisy
+        if q.misfit_ratio > GOOD_MISFIT_RATIO or not math.isfinite(q.misfit_ratio):
+            pattern = ", following a pattern along frequency" if q.residual_correlation > SYSTEMATIC_CORRELATION \
+                else ""
             out.append(f"{q.label}: suspect sweep: the fit misses it {times:.0f} times worse than the others "
-                       f"({q.rms_residual:.3g} rms, following a pattern along frequency): it may be swapped "
+                       f"({q.rms_residual:.3g} rms{pattern}): it may be swapped "
                        "with another file or mislabelled in the manifest (port1, port2, termination)")
         else:
             out.append(f"{q.label}: {times:.0f} times noisier than the other sweeps ({q.rms_residual:.3g} rms): "

@@ -158,28 +158,27 @@ class RecordSummary:
     software_version: str
     file_count: int
     design_status: str
+    fit_grade: str | None = None
 
     def to_dict(self) -> dict:
         return {"id": self.id, "unit": self.unit, "recorded_utc": self.recorded_utc,
                 "software_version": self.software_version, "file_count": self.file_count,
-                "design_status": self.design_status}
+                "design_status": self.design_status, "fit_grade": self.fit_grade}
 
 
 def design_status(result: dict) -> str:
-    """'pass', 'fail' or 'no design' from a result's design_check.
+    """'pass', 'fail', 'not judged' or 'no design' from a result's design_check (rfmeas.design)."""
+    from .design import design_status as status_of_check
 
-    Reads ``design_check["passed"]`` (bool) when present; otherwise the design
-    check fails when any of its entries is a dict with ``"passed": False``.
-    """
-    check = result.get("design_check") or {}
-    if not isinstance(check, dict) or not check:
-        return "no design"
-    if isinstance(check.get("passed"), bool):
-        return "pass" if check["passed"] else "fail"
-    verdicts = [v.get("passed") for v in check.values() if isinstance(v, dict) and isinstance(v.get("passed"), bool)]
-    if not verdicts:
-        return "no design"
-    return "pass" if all(verdicts) else "fail"
+    return status_of_check(result.get("design_check"))
+
+
+def fit_grade(result: dict) -> str | None:
+    """The stored fit-quality grade (good, marginal, poor); None for records made before it existed."""
+    fit = result.get("fit")
+    quality = fit.get("quality") if isinstance(fit, dict) else None
+    grade = quality.get("grade") if isinstance(quality, dict) else None
+    return grade if isinstance(grade, str) else None
 
 
 def _sha256(data: bytes) -> str:
@@ -322,8 +321,9 @@ class HistoryStore:
             sql += " LIMIT ?"
             args.append(int(limit))
         return [RecordSummary(id=i, unit=u, recorded_utc=t, software_version=v, file_count=n,
-                              design_status=design_status(json.loads(res)))
-                for i, u, t, v, res, n in self._connect().execute(sql, args)]
+                              design_status=design_status(result), fit_grade=fit_grade(result))
+                for i, u, t, v, result, n in ((i, u, t, v, json.loads(res), n)
+                                              for i, u, t, v, res, n in self._connect().execute(sql, args))]
 
     def previous(self, record_id: int) -> Record | None:
         """The record of the same unit stored just before `record_id` (None if it is the first)."""

@@ -23,7 +23,9 @@ class Sweep:
     termination  for a one-port sweep, what the other winding sees: "open",
                  "short" or a resistance in ohms (float); None for a two-port sweep
     port2        for a two-port sweep, the winding on port 2; else None
-    forward_only a two-port file whose S12/S22 were not measured (all zeros)
+    forward_only a two-port file whose S12/S22 were not measured
+    unmeasured   S elements the file holds but did not measure (|S| <= -200 dB at
+                 every point, rfmeas.io.touchstone); never fitted
     method       how the `port1` winding's impedance was measured: "reflection"
                  (S11 at port 1), or "series-through" / "shunt-through" (the
                  winding as the series or shunt element between two ports, S21)
@@ -45,6 +47,7 @@ class Sweep:
     method: str = "reflection"
     fixture: str | None = None
     partial: bool = False
+    unmeasured: tuple[str, ...] = ()
 
     @property
     def f_Hz(self) -> np.ndarray:
@@ -72,7 +75,8 @@ class Sweep:
             return ("S21",)
         if not self.is_two_port:
             return ("S11",)
-        return ("S11", "S21") if self.forward_only else ("S11", "S21", "S12", "S22")
+        measured = ("S11", "S21") if self.forward_only else ("S11", "S21", "S12", "S22")
+        return tuple(e for e in measured if e not in self.unmeasured)
 
     def measured(self) -> np.ndarray:
         """Measured S elements, shape (F, len(elements)), complex."""
@@ -124,6 +128,7 @@ class Sweep:
             "port2": self.port2,
             "termination": self.termination,
             "forward_only": self.forward_only,
+            "unmeasured": list(self.unmeasured),
             "method": self.method,
             "fixture": self.fixture,
             "points": int(f.size),
@@ -216,3 +221,99 @@ class MeasurementSet:
             "manifest": self.manifest_path,
             "sweeps": [s.to_dict() for s in self.sweeps],
         }
+
+
+# --------------------------------------------------------------------------- limits on a measurement set
+
+MAX_SWEEPS = 64
+"""A transformer is characterised by a handful of sweeps (four to eight); more than 64 is refused
+before any file is read."""
+FIT_POINTS_PER_SWEEP = 20_001
+"""A sweep with more points is thinned to this many for the fit (every k-th point, ends kept)."""
+FIT_POINTS_TOTAL = 200_000
+"""All sweeps together are thinned to at most this many points (a few seconds of fitting)."""
+
+
+def check_sweep_count(count: int, path=None) -> None:
+    """Refuse a set of more than MAX_SWEEPS sweeps before any of them is read."""
+    from .errors import InputError
+
+    if count > MAX_SWEEPS:
+        raise InputError(f"{count:,} sweeps listed; rfmeas fits at most {MAX_SWEEPS} sweeps of one "
+                         "transformer (a handful characterise it: split the set)", path)
+
+
+def _data_digest(sweep: Sweep) -> str:
+    """Digest of what the fit sees: frequencies and S-parameters (not comments or formatting)."""
+    import hashlib
+
+    digest = hashlib.sha256(np.ascontiguousarray(sweep.f_Hz).tobytes())
+    digest.update(np.ascontiguousarray(np.asarray(sweep.network.s, dtype=complex)).tobytes())
+    return digest.hexdigest()
+
+
+def _connection(sweep: Sweep) -> tuple:
+    return (sweep.port1, sweep.port2, sweep.termination, sweep.method, sweep.fixture)
+
+
+def refuse_repeated_sweeps(sweeps, names, path=None) -> tuple[Sweep, ...]:
+    """Refuse a set that lists the same measurement twice: one file named twice, or the same data
+    said to be taken the same way.
+
+    The fit would count the same evidence twice and report standard errors √2
+    too small, so the set is refused naming both entries (not merged: which
+    entry was meant is the user's call). Identical data said to be taken two
+    different ways (a noiseless simulation of a 1:1 transformer, or a copied
+    file) are kept, with a warning on the later sweep. Returns the sweeps.
+    """
+    from dataclasses import replace
+    from pathlib import Path
+
+    from .errors import InputError
+
+    def refuse(i, j, same):
+        raise InputError(f"{names[i]} {same} {names[j]}: list each measurement once (a repeat would "
+                         "count the same evidence twice and shrink every standard error)", path)
+
+    files: dict[str, int] = {}
+    data: dict[str, int] = {}
+    out = list(sweeps)
+    for i, sweep in enumerate(sweeps):
+        if sweep.path is not None:
+            key = str(Path(sweep.path).resolve())
+            if key in files:
+                refuse(i, files[key], "names the same file as")
+            files[key] = i
+        digest = _data_digest(sweep)
+        if digest in data:
+            j = data[digest]
+            if _connection(sweep) == _connection(sweeps[j]):
+                refuse(i, j, "holds the same data, taken the same way, as")
+            out[i] = replace(sweep, warnings=sweep.warnings + (
+                f"holds exactly the same data as {names[j]} (a copied file?)",))
+        else:
+            data[digest] = i
+    return tuple(out)
+
+
+def thin_for_fit(sweeps, per_sweep: int = FIT_POINTS_PER_SWEEP, total: int = FIT_POINTS_TOTAL):
+    """The sweeps with the longest ones thinned (every k-th point, first and last kept) so that none
+    has more than `per_sweep` points and all together at most `total`; each thinned sweep says so."""
+    from dataclasses import replace
+
+    sweeps = tuple(sweeps)
+    limit = min(per_sweep, max(total // max(len(sweeps), 1), 101))
+    out = []
+    for sweep in sweeps:
+        n = sweep.f_Hz.size
+        if n <= limit:
+            out.append(sweep)
+            continue
+        step = -(-(n - 1) // (limit - 1))  # ceil: keeps at most `limit` points
+        index = np.arange(0, n, step)
+        if index[-1] != n - 1:
+            index = np.append(index[:-1] if index.size >= limit else index, n - 1)
+        note = (f"{n:,} points: one point in {step} was fitted ({index.size:,} points), to keep the fit "
+                f"within {limit:,} points per sweep")
+        out.append(replace(sweep, network=sweep.network[index], warnings=sweep.warnings + (note,)))
+    return tuple(out)

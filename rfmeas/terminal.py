@@ -2,7 +2,7 @@
 
 from __future__ import annotations
 
-from rich.markup import escape
+from .usertext import markup as escape  # user text verbatim: control characters visible, no markup
 
 from .results import LABELS, PARAMETER_KEYS
 from .units import format_engineering, format_with_error
@@ -26,12 +26,26 @@ def parameter_table(analysis):
             continue
         rel = est.relative_stderr
         rel_text = "" if rel is None else (f"{rel * 100:.2g} %" if rel < 10 else "≫100 %")
-        if unit:
-            value_text = format_with_error(est.value, est.stderr, unit)
-        else:
-            value_text = (f"{est.value:.5g} ± {est.stderr:.2g}" if est.stderr else f"{est.value:.5g}")
-        table.add_row(LABELS[key], value_text, rel_text, escape(est.note))
+        table.add_row(LABELS[key], estimate_text(est, unit), rel_text,
+                      escape("; ".join(n for n in (est.note, est.stderr_note) if n)))
     return table
+
+
+def estimate_text(est, unit: str) -> str:
+    """'12.31 ± 0.05 µH'; a determined value without a usable standard error gets '± ?' (never bare)."""
+    if est.stderr is None:
+        value = format_engineering(est.value, unit) if unit else f"{est.value:.5g}"
+        return f"{value} ± ?"
+    if unit:
+        return format_with_error(est.value, est.stderr, unit)
+    return f"{est.value:.5g} ± {est.stderr:.2g}"
+
+
+def quality_line(fit) -> str:
+    """The fit judged against the data's own noise, in one plain sentence (rich markup)."""
+    q = fit.quality
+    colour = {"good": "green", "marginal": "yellow"}.get(q.grade, "bold red")
+    return f"fit quality: [{colour}]{q.grade}[/] — {escape(q.summary())}"
 
 
 def sweep_table(analysis):
@@ -39,13 +53,16 @@ def sweep_table(analysis):
 
     table = Table(title="Sweeps and fit quality", title_justify="left", show_edge=False, pad_edge=False)
     for col, justify in (("sweep", "left"), ("connection", "left"), ("points", "right"),
-                         ("range", "left"), ("rms misfit", "right"), ("noise", "right")):
+                         ("range", "left"), ("rms misfit", "right"), ("data noise", "right"),
+                         ("misfit / noise", "right")):
         table.add_column(col, justify=justify)
+    missed = {m["sweep"] for m in analysis.fit.quality.missed}
     for q, sweep in zip(analysis.fit.sweeps, analysis.measurement.sweeps):
         f = sweep.f_Hz
+        ratio = f"{q.misfit_ratio:.3g}" + (" [bold red]missed[/]" if q.label in missed else "")
         table.add_row(escape(q.label), escape(q.description), str(q.points),
                       f"{format_engineering(f[0], 'Hz', 3)} – {format_engineering(f[-1], 'Hz', 3)}",
-                      f"{q.rms_residual:.2g}", f"{q.noise_estimate:.2g}")
+                      f"{q.rms_residual:.2g}", f"{q.data_noise:.2g}", ratio)
     return table
 
 
@@ -58,6 +75,9 @@ def render_analysis(analysis, console) -> None:
         console.print(f"[dim]{escape(analysis.measurement.notes)}[/]")
     console.print()
     console.print(parameter_table(analysis))
+    if not fit.quality.stderr_describes_error:
+        console.print("[bold red]The fit is poor: these standard errors do not describe the error.[/] "
+                      "The model misses the data far beyond their noise; treat every number as unconfirmed.")
     console.print("[dim]Standard errors come from the trace noise and the fit alone; calibration and "
                   "jig errors come on top. The T-model view uses the proportional leakage split "
                   "(Ll1 = L1(1−k), Ll2 = L2(1−k)): the terminals cannot tell how leakage divides.[/]")
@@ -68,8 +88,8 @@ def render_analysis(analysis, console) -> None:
         extra(analysis, console)
     console.print(sweep_table(analysis))
     state = "[green]converged[/]" if fit.converged else "[red]did not converge[/]"
-    console.print(f"fit {state} in {fit.elapsed_s * 1000:.0f} ms; rms misfit {fit.rms_residual:.2g}, "
-                  f"weighted residual variance {fit.residual_variance:.3g} (≈ 1: down to the noise)")
+    console.print(f"fit {state} in {fit.elapsed_s * 1000:.0f} ms; rms misfit {fit.rms_residual:.2g}")
+    console.print(quality_line(fit))
     warnings = analysis.all_warnings
     for title, lines in (("[bold yellow]warnings[/]", warnings), ("[bold]advice[/]", analysis.advice)):
         if lines:

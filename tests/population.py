@@ -6,9 +6,11 @@ small-VNA noise, sometimes a calibration residue, and written as a measurement
 folder: Touchstone files in RI, MA or DB, in Hz, kHz or MHz, v1 or v2, most
 thrus forward-only with their unmeasured columns written the way exporters do
 (-300 or -600 dB, tiny magnitudes or exact zeros), plus manifest.toml and
-truth.json. The sweeps come from ngspice, never from rfmeas's model; only
-`information_limit` (the Cramer-Rao bound) uses the model, whose closed form
-matches ngspice to 1e-12 (tests/test_model_reference.py).
+truth.json. The sweeps come from ngspice, never from rfmeas's model; only the
+yardsticks `information_limit` (the Cramer-Rao bound) and `model_limit` (the
+model's best fit to the noise-free data) use the model, whose closed form
+matches ngspice to 1e-12 (tests/test_model_reference.py). `judge` compares an
+analysis's JSON with the truth.
 
 Two core-loss placements:
 - "magnetizing": Rc across the magnetising inductance Lm = k L1 (the model's
@@ -39,7 +41,7 @@ from rfmeas.model.params import TransformerParams
 from reference.spice import _num, run_ngspice
 
 Z0_OHM = 50.0
-GENERATOR_VERSION = 1   # bump when the same spec would give other files
+GENERATOR_VERSION = 3   # bump when the same spec would give other files
 SWEEP_KINDS = ("pri_open", "pri_short", "sec_open", "thru")
 # The sweep subsets a user may bring; the value lists the sweeps in each.
 SUBSETS = {
@@ -190,8 +192,9 @@ class Truth:
 
     def to_dict(self) -> dict:
         return {
-            "generator_version": GENERATOR_VERSION, "name": self.name, "core_loss": self.core_loss, "subset": self.subset,
-            "sweeps": list(self.sweeps), "noise": self.noise, "params": self.params.to_dict(),
+            "generator_version": GENERATOR_VERSION, "name": self.name, "core_loss": self.core_loss,
+            "subset": self.subset, "sweeps": list(self.sweeps), "noise": self.noise,
+            "params": self.params.to_dict(),
             "leakage_inductance_H": self.leakage_H, "effective_turns_ratio": self.ratio,
             "spec": self.spec,
         }
@@ -235,7 +238,7 @@ def draw_unit(rng: np.random.Generator, name: str = "unit", **overrides) -> Unit
         "version": 2 if rng.uniform() < 0.15 else 1,
         "forward_only": bool(rng.uniform() < 0.75),
         "unmeasured_choice": int(rng.integers(3)),
-        "calibration": draw_calibration(rng) if rng.uniform() < 0.35 else None,
+        "calibration": draw_calibration(rng) if rng.uniform() < 0.25 else None,
         "stitch": rng.uniform() < 0.2,
         "stitch_fraction": float(rng.uniform(0.3, 0.7)),
         "odd_options": rng.uniform() < 0.2,
@@ -418,13 +421,15 @@ def _apply_calibration(cal: Calibration, f_Hz, s, two_port: bool):
     return out
 
 
-def _pair(value: complex, fmt: str) -> str:
+def format_pair(value: complex, fmt: str, digits: int = 9) -> str:
+    """One complex value as the two numbers of a Touchstone RI, MA or DB column (angle in degrees)."""
+    value = complex(value)
     if fmt == "RI":
-        return f"{value.real:.9g} {value.imag:.9g}"
+        return f"{value.real:.{digits}g} {value.imag:.{digits}g}"
     angle = math.degrees(math.atan2(value.imag, value.real))
     if fmt == "MA":
-        return f"{abs(value):.9g} {angle:.7g}"
-    return f"{20 * math.log10(abs(value)):.9g} {angle:.7g}"
+        return f"{abs(value):.{digits}g} {angle:.{digits}g}"
+    return f"{20 * math.log10(abs(value)):.{digits}g} {angle:.{digits}g}"
 
 
 def touchstone_text(spec: UnitSpec, kind: str, f_text: list[str], s, repeat=None) -> str:
@@ -448,9 +453,9 @@ def touchstone_text(spec: UnitSpec, kind: str, f_text: list[str], s, repeat=None
     fmt = spec.file_format
     for f_str, value in rows:
         if not two_port:
-            lines.append(f"{f_str} {_pair(complex(value), fmt)}")
+            lines.append(f"{f_str} {format_pair(value, fmt)}")
             continue
-        s11, s21, s12, s22 = (_pair(complex(value[i, j]), fmt) for i, j in ((0, 0), (1, 0), (0, 1), (1, 1)))
+        s11, s21, s12, s22 = (format_pair(value[i, j], fmt) for i, j in ((0, 0), (1, 0), (0, 1), (1, 1)))
         if spec.forward_only:
             s12 = s22 = spec.unmeasured
         cols = (s11, s12, s21, s22) if order_12_21 else (s11, s21, s12, s22)
@@ -476,7 +481,8 @@ def _manifest(spec: UnitSpec) -> str:
 
 
 def write_unit(spec: UnitSpec, folder, clean: dict | None = None) -> Truth:
-    """Simulate `spec` and write its folder (Touchstone files, manifest.toml, truth.json).
+    """Simulate `spec` and write its folder (Touchstone files, manifest.toml, truth.json, and
+    clean.npz: the noise-free sweeps before any calibration residue, see `load_clean`).
 
     `clean` may pass noise-free sweeps from an earlier `simulate_unit` call of the
     same spec (to redraw only the noise)."""
@@ -505,6 +511,7 @@ def write_unit(spec: UnitSpec, folder, clean: dict | None = None) -> Truth:
         ext = "s2p" if kind == "thru" else "s1p"
         (folder / f"{kind}.{ext}").write_text(touchstone_text(spec, kind, f_text, s, repeat))
     (folder / "manifest.toml").write_text(_manifest(spec))
+    np.savez(folder / "clean.npz", **clean)
     truth = Truth(name=spec.name, params=spec.params, core_loss=spec.core_loss, subset=spec.subset,
                   sweeps=spec.sweeps, noise=spec.noise, folder=str(folder), spec=spec.to_dict())
     (folder / "truth.json").write_text(json.dumps(truth.to_dict(), indent=1))
@@ -697,6 +704,58 @@ def refused(message: str) -> Verdict:
                    polarity_ok=None, details={}, refused=message)
 
 
+def load_clean(folder) -> dict:
+    """The noise-free sweeps `write_unit` saved in `folder` ({"f_Hz": ..., kind: S})."""
+    with np.load(Path(folder) / "clean.npz") as data:
+        return {key: data[key] for key in data.files}
+
+
+def _rows_of(spec: UnitSpec, sweeps: dict) -> np.ndarray:
+    """Real and imaginary parts of every fitted S element, in `_model_rows` order."""
+    parts = []
+    for kind in spec.sweeps:
+        s = sweeps[kind]
+        if kind == "thru":
+            parts += [s[:, 0, 0], s[:, 1, 0]] + ([] if spec.forward_only else [s[:, 0, 1], s[:, 1, 1]])
+        else:
+            parts.append(s)
+    z = np.concatenate(parts)
+    return np.concatenate([z.real, z.imag])
+
+
+def model_limit(spec: UnitSpec, clean: dict) -> dict[str, float]:
+    """Relative error of each key quantity at the model's best fit to the noise-free data.
+
+    The data are what the files hold without noise (calibration residue
+    included); the fit starts at the truth and is local, in the coordinates of
+    `information_limit`, with the same weak prior. It is the systematic error no
+    fit of the model can avoid: zero for the model's own core-loss placement
+    without calibration residue, not for the other placement or with a residue.
+    """
+    from scipy.optimize import least_squares
+
+    p = spec.params
+    f_Hz = clean["f_Hz"]
+    measured = {kind: clean[kind] for kind in spec.sweeps}
+    if spec.calibration is not None:
+        measured = {kind: _apply_calibration(spec.calibration, f_Hz, s, s.ndim == 3)
+                    for kind, s in measured.items()}
+    data = _rows_of(spec, measured)
+    x0 = np.log([p.L1_H, p.L2_H, 1.0 - p.k, p.R1_ohm, p.R2_ohm, p.Rc_ohm, p.C1_F, p.C2_F, p.C12_F])
+
+    def residual(x):
+        with np.errstate(all="ignore"):
+            model = _model_rows(_params_from_log(np.clip(x, -60.0, 30.0), p.polarity), f_Hz, spec.sweeps,
+                                spec.forward_only)
+        out = np.concatenate([(model - data) / spec.noise, (x - x0) / PRIOR_LOG_SD])
+        return np.where(np.isfinite(out), out, 1e12)
+
+    x0_safe = x0.copy()
+    x0_safe[2] = min(x0_safe[2], math.log(0.5))
+    best = least_squares(residual, x0_safe, method="lm", x_scale=1.0)
+    return {name: float(math.exp(_log_of(name, best.x) - _log_of(name, x0)) - 1.0) for name in KEY_QUANTITIES}
+
+
 def with_noise_seed(spec: UnitSpec, noise_seed: int) -> UnitSpec:
     """The same unit measured again: only the noise differs."""
     return replace(spec, noise_seed=int(noise_seed))
@@ -705,6 +764,7 @@ def with_noise_seed(spec: UnitSpec, noise_seed: int) -> UnitSpec:
 __all__ = [
     "SUBSETS", "DETERMINED_BY", "CORE_LOSS_PLACEMENTS", "UnitSpec", "Truth", "Calibration",
     "draw_unit", "draw_population", "make_unit", "write_unit", "load_truth", "simulate_unit",
-    "frequency_grid", "with_noise_seed", "information_limit", "KEY_QUANTITIES",
+    "frequency_grid", "format_pair", "with_noise_seed", "information_limit", "model_limit", "load_clean",
+    "KEY_QUANTITIES",
     "TOLERANCES", "Verdict", "judge", "refused", "true_value",
 ]

@@ -38,7 +38,7 @@ def check_lot(result: BatchResult, paths):
     assert [u.path for u in result.units] == [str(p) for p in paths]  # input order, every unit
     bad = result.units[BAD]
     assert bad.status == "error" and "thru.s2p' is missing" in bad.error and str(paths[BAD]) in bad.error
-    assert result.counts == {"pass": N_UNITS - 1 - len(FAILING), "fail": len(FAILING), "no design": 0, "error": 1}
+    assert result.counts == {"pass": N_UNITS - 1 - len(FAILING), "fail": len(FAILING), "not judged": 0, "no design": 0, "error": 1}
     assert result.yield_fraction == pytest.approx((N_UNITS - 1 - len(FAILING)) / N_UNITS)
     good = [inductance_H(i) for i in range(N_UNITS) if i != BAD]
     s = result.spread["primary_inductance_H"]

@@ -77,7 +77,7 @@ def test_a_missing_touchstone_file(tmp_path):
 
 
 def test_a_missing_manifest(tmp_path):
-    assert_one_error_line(*invoke("analyze", tmp_path / "gone.toml"), "gone.toml", "no such file")
+    assert_one_error_line(*invoke("analyze", tmp_path / "gone.toml"), "gone.toml", "file not found", "no such manifest")
 
 
 def test_a_manifest_with_an_unknown_key(tmp_path):

@@ -307,7 +307,7 @@ def test_an_oversized_manifest_is_refused(folder):
 
 
 def test_a_missing_manifest_is_refused(folder):
-    refused(folder / "nope.toml", "no such file")
+    refused(folder / "nope.toml", "file not found")
 
 
 def test_a_folder_without_manifest_is_refused(folder):

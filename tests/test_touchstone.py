@@ -429,8 +429,8 @@ def test_unreadable_file(tmp_path, monkeypatch):
         raise PermissionError(13, "Permission denied")
 
     # Patched rather than chmod-ed so the test also means something when run as root.
-    monkeypatch.setattr(touchstone, "open", denied, raising=False)
-    with pytest.raises(InputError, match="locked.s2p: cannot read the file: Permission denied"):
+    monkeypatch.setattr("rfmeas.io.files._open_nonblocking", denied)
+    with pytest.raises(InputError, match="locked.s2p: cannot read the Touchstone file: Permission denied"):
         read_touchstone(path)
 
 
@@ -442,13 +442,14 @@ def test_file_over_the_size_limit_is_refused_before_reading(tmp_path, monkeypatc
     def no_reading(*args, **kwargs):
         raise AssertionError("the file was opened although it is too large")
 
-    monkeypatch.setattr("builtins.open", no_reading)
-    with pytest.raises(InputError, match="huge.s2p: the file is 64 MB, larger than the 64 MB"):
+    monkeypatch.setattr("rfmeas.io.files._open_nonblocking", no_reading)
+    with pytest.raises(InputError, match="huge.s2p: the file is too large for a Touchstone file "
+                                         r"\(64 MB; rfmeas accepts up to 64 MB\)"):
         read_touchstone(path)
 
 
 def test_bytes_over_the_size_limit_are_refused():
-    with pytest.raises(InputError, match="big.s2p: the file is 65 MB"):
+    with pytest.raises(InputError, match=r"big.s2p: the file is too large for a Touchstone file \(65 MB"):
         read_touchstone_bytes(b" " * (MAX_FILE_BYTES + 2**20), "big.s2p")
 
 

@@ -8,7 +8,8 @@ from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
 
 from rfmeas.errors import InputError
-from rfmeas.io.touchstone import read_touchstone_bytes
+from rfmeas.io.touchstone import MAX_POINTS, MAX_S_MAGNITUDE, read_touchstone_bytes
+from rfmeas.limits import FREQUENCY_RANGE_HZ
 
 FUZZ = settings(max_examples=200, deadline=2000, suppress_health_check=[HealthCheck.too_slow])
 
@@ -38,7 +39,7 @@ VALID_V2 = """[Version] 2.0
 # Tokens a garbled file might contain: numbers of every kind, option words,
 # keywords, comment marks, junk.
 GARBAGE = st.sampled_from([
-    "0", "-1", "1e6", "1e400", "nan", "-inf", "abc", "#", "!", "[", "]", "[End]", "R", "RI", "DB",
+    "0", "-1", "1e6", "1e300", "1e-300", "1e400", "nan", "-inf", "abc", "#", "!", "[", "]", "[End]", "R", "RI", "DB",
     "MHz", "S", "Z", "1.5.3", "1-2", "50+5j", "(50,1)", "1,5", "0x10", "1_0", "\u00b5", "\x00", "\t", "12_21", "",
 ])
 
@@ -55,6 +56,9 @@ def check(data: bytes, name: str) -> None:
     assert f_Hz.size >= 3
     assert np.all(np.isfinite(f_Hz)) and f_Hz[0] > 0 and np.all(np.diff(f_Hz) > 0)
     assert np.all(np.isfinite(result.network.s))
+    # nothing the numerics downstream would overflow on (see "Reliability" in the README)
+    assert FREQUENCY_RANGE_HZ[0] <= f_Hz[0] and f_Hz[-1] <= FREQUENCY_RANGE_HZ[1]
+    assert np.max(np.abs(result.network.s)) <= MAX_S_MAGNITUDE and f_Hz.size <= MAX_POINTS
     assert result.network.nports == result.port_count
     assert result.raw_bytes == data
 

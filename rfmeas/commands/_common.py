@@ -3,42 +3,85 @@
 from __future__ import annotations
 
 import functools
+import logging
 import sys
+import warnings
 
 import typer
 
 from ..errors import EXIT_BAD_INPUT, RfmeasError
 from ..jsonio import dumps_json  # noqa: F401  (re-exported for commands)
+from ..usertext import plain
+
+
+def _console_class():
+    """rich's Console with a safety net under everything it prints (rfmeas.usertext): control
+    characters in the text shown as visible escapes, and text that is not valid markup printed
+    as it is.
+
+    Each command escapes the user text it prints; this net catches any that was missed (a
+    progress bar's label, a table cell), so a name can never crash a command (MarkupError) or
+    drive the terminal (ANSI escapes). rich's own styles and cursor controls are untouched.
+    """
+    from rich.console import Console
+    from rich.errors import MarkupError
+    from rich.segment import Segment
+
+    from ..usertext import visible_lines
+
+    class SafeConsole(Console):
+        def render_str(self, text, **kwargs):
+            try:
+                return super().render_str(text, **kwargs)
+            except MarkupError:
+                return super().render_str(text, **dict(kwargs, markup=False))
+
+        def _render_buffer(self, buffer):
+            return super()._render_buffer(
+                segment if segment.control else Segment(visible_lines(segment.text), segment.style)
+                for segment in buffer)
+
+    return SafeConsole
 
 
 def stderr_console():
-    from rich.console import Console
-
-    return Console(stderr=True, soft_wrap=True, highlight=False)
+    return _console_class()(stderr=True, soft_wrap=True, highlight=False)
 
 
 def stdout_console():
     """The results console: the terminal's width, or 120 columns when piped to a file."""
-    from rich.console import Console
-
-    return Console(highlight=False, width=None if sys.stdout.isatty() else 120)
+    return _console_class()(highlight=False, width=None if sys.stdout.isatty() else 120)
 
 
 def report_error(message: str) -> None:
-    """One line on stderr: 'error: <file>: <problem>'."""
-    stderr_console().print(f"[bold red]error:[/] {message}", markup=True) if sys.stderr.isatty() \
-        else print(f"error: {message}", file=sys.stderr)
+    """One line on stderr: 'error: <file>: <problem>', the message verbatim (never read as markup,
+    control characters shown as visible escapes: rfmeas.usertext)."""
+    if sys.stderr.isatty():
+        from rich.text import Text
+
+        stderr_console().print(Text.assemble(("error:", "bold red"), " " + plain(message)))
+    else:
+        print(f"error: {plain(message)}", file=sys.stderr)
+
+
+def log_warning(message, category, filename, lineno, file=None, line=None) -> None:
+    """`warnings.showwarning` for the CLI: a library's warning (numpy's RuntimeWarning on an overflow,
+    scikit-rf's notices) goes to the log, shown with --debug, never to a user's terminal."""
+    logging.getLogger("rfmeas.warnings").debug("%s:%s: %s: %s", filename, lineno, category.__name__, message)
 
 
 def handles_errors(func):
-    """Turn a project error into one stderr line and its exit code; hide tracebacks unless --debug."""
+    """Turn a project error into one stderr line and its exit code; hide tracebacks unless --debug.
+    Python warnings raised meanwhile go to the log (`log_warning`)."""
 
     @functools.wraps(func)
     def wrapper(*args, **kwargs):
         from ..cli import DEBUG
 
         try:
-            return func(*args, **kwargs)
+            with warnings.catch_warnings():
+                warnings.showwarning = log_warning
+                return func(*args, **kwargs)
         except RfmeasError as exc:
             if DEBUG["enabled"]:
                 raise
@@ -46,6 +89,14 @@ def handles_errors(func):
             raise typer.Exit(exc.exit_code)
         except (typer.Exit, typer.Abort, KeyboardInterrupt):
             raise
+        except UnicodeEncodeError as exc:
+            if DEBUG["enabled"] or "surrogate" not in str(exc):
+                raise
+            # A name from the command line or a folder listing holds bytes that are not UTF-8
+            # (os.fsdecode keeps them as surrogates), and it reached something that needs text.
+            report_error(f"{plain(exc.object)}: this name holds bytes that are not UTF-8 text; "
+                         "rename it (or give the path in UTF-8)")
+            raise typer.Exit(EXIT_BAD_INPUT)
         except Exception as exc:  # an unforeseen failure: still one line, never a traceback
             if DEBUG["enabled"]:
                 raise

@@ -189,7 +189,7 @@ def register(app: typer.Typer) -> None:
 
         atomic_write_text(manifest, manifest_text(name, taken, *turns, comment=f"written by rfmeas "
                                                   f"acquire-set ({profile.name})"))
-        err.print(f"\nwrote {manifest} with {len(taken)} of {len(steps)} sweeps")
+        err.print(f"\nwrote {manifest} with {len(taken)} of {len(steps)} sweeps", markup=False)
         if interrupted:
             err.print("interrupted; the manifest lists the sweeps finished so far")
             raise typer.Exit(EXIT_INTERRUPTED)

@@ -19,6 +19,7 @@ def _design_target(design, plan: str | None, return_loss: str | None):
     from dataclasses import replace
 
     from ..errors import InputError
+    from ..limits import check_range
     from ..sweep import DesignTarget
     from ..units import parse_engineering
 
@@ -29,14 +30,16 @@ def _design_target(design, plan: str | None, return_loss: str | None):
             raise InputError(f"--plan must look like SOURCE:LOAD:LOWEST[:HIGHEST] (e.g. 50:450:3.5M:30M), "
                              f"not {plan!r}")
         names = ("source", "load", "lowest", "highest")
+        keys = ("source_impedance_ohm", "load_impedance_ohm", "lowest_frequency_Hz", "highest_frequency_Hz")
         values = {}
-        for name, text in zip(names, parts):
+        for name, key, text in zip(names, keys, parts):
             try:
                 values[name] = parse_engineering(text)
             except InputError as exc:
                 raise InputError(f"--plan {name}: {exc.message}") from None
             if not values[name] > 0:
                 raise InputError(f"--plan {name} must be positive, not {text!r}")
+            check_range(key, values[name], f"--plan {name}")
         if "highest" in values and values["highest"] <= values["lowest"]:
             raise InputError("--plan: the highest frequency must be above the lowest")
         target = replace(target, source_impedance_ohm=values["source"], load_impedance_ohm=values["load"],
@@ -48,6 +51,7 @@ def _design_target(design, plan: str | None, return_loss: str | None):
             raise InputError(f"--return-loss: {exc.message}") from None
         if not threshold_dB > 0:
             raise InputError(f"--return-loss must be a positive number of dB, not {return_loss!r}")
+        check_range("return_loss_dB", threshold_dB, "--return-loss")
         target = replace(target, return_loss_dB=threshold_dB)
     return target
 
@@ -91,7 +95,9 @@ def analyze_command(
         from .report import tell, write_outputs
 
         tell(write_outputs(analysis, report, plots_dir), stderr_console() if json_output else stdout_console())
-    if analysis.design_passed is False:
+    from ..design import design_fails
+
+    if design_fails(analysis.design_status):  # failed, or could not be judged
         raise typer.Exit(EXIT_DESIGN_FAILED)
 
 

@@ -67,7 +67,7 @@ def _print_summary(result) -> None:
         console.print(spread)
     c = result.counts
     y = result.yield_fraction
-    console.print(f"passed {c['pass']}, failed {c['fail']}, could not be analysed {c['error']}, "
-                  f"no design check {c['no design']}; yield "
-                  + ("— (no unit has a design check)" if y is None
-                     else f"{c['pass']}/{c['pass'] + c['fail'] + c['error']} = {100 * y:.1f} %"))
+    judged = c["pass"] + c["fail"] + c["not judged"] + c["error"]
+    console.print(f"passed {c['pass']}, failed {c['fail']}, not judged {c['not judged']}, could not be analysed "
+                  f"{c['error']}, no design check {c['no design']}; yield "
+                  + ("— (no unit has a design check)" if y is None else f"{c['pass']}/{judged} = {100 * y:.1f} %"))

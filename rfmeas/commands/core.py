@@ -8,6 +8,7 @@ from typing import Optional
 import typer
 
 from ._common import handles_errors, print_json, stdout_console
+from ..usertext import markup
 
 
 def _numbers(option: str, text: str, count: int) -> list[float]:
@@ -94,7 +95,7 @@ def render_core(analysis, console=None) -> None:
                 f"{a.material.name} (distance {a.distance:.2f})" for a in match.alternatives))
         console.print("A generic class, not a brand: confirm with a datasheet before relying on it.")
     for warning in analysis.warnings:
-        console.print(f"[yellow]warning:[/] {warning}")
+        console.print(f"[yellow]warning:[/] {markup(warning)}")
 
 
 def _table_frequencies(analysis) -> list[float]:
@@ -155,4 +156,4 @@ def core_command(
     else:
         render_core(analysis)
         if plot is not None:
-            stdout_console().print(f"Plot written to {plot}")
+            stdout_console().print(f"Plot written to {markup(plot)}")

@@ -7,6 +7,7 @@ from pathlib import Path
 import typer
 
 from ._common import handles_errors, stdout_console
+from ..usertext import markup
 
 
 def register(app: typer.Typer) -> None:
@@ -76,9 +77,9 @@ def demo_command(
             written.extend(_core(sample_data_root() / name, out, console))
     console.rule()
     for path in written:
-        console.print(f"wrote {path}")
+        console.print(f"wrote {markup(path)}")
     for path in reports:
-        console.print(f"[bold]report:[/] {path}  (open it in a web browser)")
+        console.print(f"[bold]report:[/] {markup(path)}  (open it in a web browser)")
 
 
 def _compare(before, after, out: Path, console) -> Path:

@@ -8,6 +8,7 @@ from typing import List, Optional
 import typer
 
 from ._common import handles_errors, print_json, stdout_console
+from ..usertext import markup
 
 
 def register(app: typer.Typer) -> None:
@@ -70,6 +71,6 @@ def export_command(
         return
     console = stdout_console()
     for kind, path in written.items():
-        console.print(f"wrote {kind}: {path}")
+        console.print(f"wrote {kind}: {markup(path)}")
     for line in held:
-        console.print(f"[yellow]note:[/] {line}")
+        console.print(f"[yellow]note:[/] {markup(line)}")

@@ -57,8 +57,12 @@ def _print_table(rows, path, unit) -> None:
         return
     table = Table(title=escape(f"history ({path})"))
     for column, justify in (("id", "right"), ("unit", "left"), ("recorded (UTC)", "left"),
-                            ("design", "left"), ("files", "right"), ("rfmeas", "left")):
+                            ("design", "left"), ("fit", "left"), ("files", "right"), ("rfmeas", "left")):
         table.add_column(column, justify=justify)
     for r in rows:
-        table.add_row(str(r.id), escape(r.unit), r.recorded_utc, r.design_status, str(r.file_count), r.software_version)
+        grade = r.fit_grade or "—"
+        if r.fit_grade == "poor":
+            grade = "[bold red]poor[/]"
+        table.add_row(str(r.id), escape(r.unit), r.recorded_utc, r.design_status, grade, str(r.file_count),
+                      r.software_version)
     console.print(table)

@@ -7,14 +7,17 @@ import typer
 from ._common import handles_errors, print_json, stdout_console
 
 
-def _number(option: str, text: str) -> float:
+def _number(option: str, text: str, key: str | None = None) -> float:
+    """The option's value; with `key`, checked against its plausible range (rfmeas.limits)."""
     from ..errors import InputError
+    from ..limits import check_range
     from ..units import parse_engineering
 
     try:
-        return parse_engineering(text)
+        value = parse_engineering(text)
     except InputError as exc:
         raise InputError(f"{option}: {exc.message}") from None
+    return value if key is None else check_range(key, value, option)
 
 
 def _render(plan) -> None:
@@ -74,17 +77,19 @@ def register(app: typer.Typer) -> None:
         as_json: bool = typer.Option(False, "--json", help="Print the plan as JSON only."),
     ):
         """Plan the turns of a broadband transformer: ratio, minimum turns, whole-turn choices."""
+        from ..limits import check_range
         from ..magnetics.permeability import al_to_nH_per_turn2
         from ..plan import plan_turns
 
         plan = plan_turns(
-            source_impedance_ohm=_number("--source", source),
-            load_impedance_ohm=_number("--load", load),
-            lowest_frequency_Hz=_number("--lowest", lowest),
-            al_nH_per_turn2=al_to_nH_per_turn2(_number("--al", al), al_unit),
-            reactance_factor=_number("--reactance-factor", reactance_factor),
-            highest_frequency_Hz=None if highest is None else _number("--highest", highest),
-            max_turns=max_turns,
+            source_impedance_ohm=_number("--source", source, "source_impedance_ohm"),
+            load_impedance_ohm=_number("--load", load, "load_impedance_ohm"),
+            lowest_frequency_Hz=_number("--lowest", lowest, "lowest_frequency_Hz"),
+            al_nH_per_turn2=check_range("al_nH_per_turn2", al_to_nH_per_turn2(_number("--al", al), al_unit),
+                                        "--al (in nH/turn²)"),
+            reactance_factor=_number("--reactance-factor", reactance_factor, "reactance_factor"),
+            highest_frequency_Hz=None if highest is None else _number("--highest", highest, "highest_frequency_Hz"),
+            max_turns=int(check_range("max_turns", max_turns, "--max-turns")),
         )
         if as_json:
             print_json(plan.to_dict())

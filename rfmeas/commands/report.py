@@ -8,6 +8,7 @@ from typing import Optional
 import typer
 
 from ._common import handles_errors, print_json, stderr_console, stdout_console
+from ..usertext import markup
 
 
 def register(app: typer.Typer) -> None:
@@ -44,14 +45,14 @@ def write_outputs(analysis, report: Optional[Path] = None, plots_dir: Optional[P
 def tell(written: dict, console) -> None:
     """Say where the outputs are, one line each."""
     if written["report"]:
-        console.print(f"report: {written['report']}")
+        console.print(f"report: {markup(written['report'])}")
     if written["pdf"]:
-        console.print(f"PDF: {written['pdf']}")
+        console.print(f"PDF: {markup(written['pdf'])}")
     if written["pdf_skipped"]:
-        console.print(f"PDF skipped: {written['pdf_skipped']}")
+        console.print(f"PDF skipped: {markup(written['pdf_skipped'])}")
     if written["plots"]:
         folder = Path(written["plots"][0]).parent
-        console.print(f"plots: {len(written['plots'])} files in {folder}")
+        console.print(f"plots: {len(written['plots'])} files in {markup(folder)}")
 
 
 @handles_errors
@@ -72,4 +73,4 @@ def report_command(
     else:
         tell(written, stdout_console())
     if written["pdf_skipped"] and json_output:
-        stderr_console().print(f"PDF skipped: {written['pdf_skipped']}")
+        stderr_console().print(f"PDF skipped: {markup(written['pdf_skipped'])}")

@@ -180,11 +180,10 @@ def parse_profile(text: str, path: str | Path = "<profile>") -> Profile:
 
 def load_profile_file(path: str | Path) -> Profile:
     path = Path(path)
-    try:
-        text = path.read_text(encoding="utf-8")
-    except OSError as exc:
-        raise InputError(f"cannot read the profile: {exc.strerror or exc}", path=path) from exc
-    return parse_profile(text, path)
+    from ..io.files import read_regular_file  # regular files only, bounded in size
+    from ..io.strict import decode_text
+
+    return parse_profile(decode_text(read_regular_file(path, "profile"), path, "profile"), path)
 
 
 def profile_dirs(extra: str | Path | None = None) -> list[Path]:

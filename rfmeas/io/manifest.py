@@ -3,13 +3,17 @@
 from __future__ import annotations
 
 import math
+import re
 from pathlib import Path
 
 import numpy as np
 
 from ..errors import InputError
+from ..limits import check_range
+from ..usertext import plain
 from .strict import check_keys, read_toml
-from ..sweep import WINDINGS, DesignTarget, MeasurementSet, Sweep, other_winding
+from ..sweep import (WINDINGS, DesignTarget, MeasurementSet, Sweep, check_sweep_count, other_winding,
+                     refuse_repeated_sweeps, thin_for_fit)
 
 _TOP_KEYS = {"transformer", "core", "design", "sweep"}
 _TRANSFORMER_KEYS = {"name", "primary_turns", "secondary_turns", "notes"}
@@ -72,6 +76,9 @@ def load_sweep(file_path: Path, port1: str, termination=None, port2: str | None 
                              where_path)
         if fixture_path is not None:
             raise InputError(f"{where}: jig compensation applies to reflection sweeps only", where_path)
+        if "S21" in data.unmeasured:
+            raise InputError(f"{where}: a {method} sweep needs S21, and {file_path.name} did not measure it",
+                             where_path)
         return Sweep(network=data.network, port1=port1, termination=termination, label=label,
                      path=str(file_path), warnings=tuple(warnings), raw_bytes=data.raw_bytes,
                      sha256=data.sha256, method=method)
@@ -84,6 +91,7 @@ def load_sweep(file_path: Path, port1: str, termination=None, port2: str | None 
                              manifest_path or file_path)
         network = data.network
         forward_only = data.forward_only
+        unmeasured = data.unmeasured
     else:
         if termination is None:
             raise InputError(f"{where}: say what the other winding sees: termination = \"open\", "
@@ -91,6 +99,10 @@ def load_sweep(file_path: Path, port1: str, termination=None, port2: str | None 
                              manifest_path or file_path)
         network = data.network
         forward_only = False
+        unmeasured = ()
+        if "S11" in data.unmeasured:
+            raise InputError(f"{where}: a one-port sweep needs S11, and {file_path.name} did not measure it",
+                             where_path)
         if data.port_count == 2:
             warnings.append("two-port file used as a one-port sweep: only S11 is fitted")
             network = network.s11
@@ -102,7 +114,7 @@ def load_sweep(file_path: Path, port1: str, termination=None, port2: str | None 
         network, fixture_name = _compensate(network, fixture_path)
         warnings.append(f"compensated for the test jig '{fixture_name}'")
     return Sweep(network=network, port1=port1, termination=termination, port2=port2,
-                 forward_only=forward_only, label=label, path=str(file_path),
+                 forward_only=forward_only, unmeasured=unmeasured, label=label, path=str(file_path),
                  warnings=tuple(warnings), raw_bytes=data.raw_bytes, sha256=data.sha256,
                  fixture=fixture_name)
 
@@ -117,6 +129,16 @@ def _compensate(network, fixture_path: Path):
     compensated = network.copy()
     compensated.s = np.asarray(s11).reshape(-1, 1, 1)
     return compensated, fixture.name
+
+
+_CONTROL = re.compile(r"[\x00-\x1f\x7f-\x9f]")
+
+
+def _refuse_control_characters(text: str, key: str, path, allowed: str = "") -> None:
+    """Names end up on terminals, in reports and in the history: no escape sequences in them."""
+    bad = [c for c in _CONTROL.findall(text) if c not in allowed]
+    if bad:
+        raise InputError(f"{key} holds a control character ({plain(bad[0])}); use plain text", path)
 
 
 def _winding(value, key, where, path) -> str:
@@ -143,13 +165,16 @@ def load_manifest(path: str | Path) -> MeasurementSet:
     name = transformer.get("name", path.parent.name or path.stem)
     if not isinstance(name, str) or not name.strip():
         raise InputError("transformer.name must be a non-empty string", path)
+    _refuse_control_characters(name, "transformer.name", path)
     turns = {}
     for key in ("primary_turns", "secondary_turns"):
         if key in transformer:
-            turns[key] = _number(transformer, key, "transformer", path, integer=True)
+            turns[key] = check_range("turns", _number(transformer, key, "transformer", path, integer=True),
+                                     f"transformer.{key}", path)
     notes = transformer.get("notes", "")
     if not isinstance(notes, str):
         raise InputError("transformer.notes must be a string", path)
+    _refuse_control_characters(notes, "transformer.notes", path, allowed="\n\t")
 
     core = doc.get("core")
     if core is not None:
@@ -164,7 +189,7 @@ def load_manifest(path: str | Path) -> MeasurementSet:
     if "design" in doc:
         table = doc["design"]
         check_keys(table, _DESIGN_KEYS, "[design]", path)
-        values = {k: _number(table, k, "design", path) for k in table}
+        values = {k: check_range(k, _number(table, k, "design", path), f"design.{k}", path) for k in table}
         lo, hi = values.get("lowest_frequency_Hz"), values.get("highest_frequency_Hz")
         if lo and hi and hi <= lo:
             raise InputError("design.highest_frequency_Hz must be above lowest_frequency_Hz", path)
@@ -175,7 +200,8 @@ def load_manifest(path: str | Path) -> MeasurementSet:
         raise InputError("no [[sweep]] entries: a measurement set needs at least one sweep", path)
     if not isinstance(entries, list):
         raise InputError("sweep must be an array of tables ([[sweep]])", path)
-    sweeps = []
+    check_sweep_count(len(entries), path)
+    sweeps, names = [], []
     for i, entry in enumerate(entries, start=1):
         where = f"sweep {i}"
         check_keys(entry, _SWEEP_KEYS, f"[{where}]", path)
@@ -208,13 +234,16 @@ def load_manifest(path: str | Path) -> MeasurementSet:
         label = entry.get("label")
         if label is not None and not isinstance(label, str):
             raise InputError(f"{where}.label must be a string", path)
+        _refuse_control_characters(label or "", f"{where}.label", path)
         file_path = (path.parent / entry["file"])
         sweep = load_sweep(file_path, port1, termination, port2, label or entry["file"], where, path,
                            method, fixture_path)
         sweeps.append(sweep)
+        names.append(f"{where} ('{entry['file']}')")
+    sweeps = refuse_repeated_sweeps(sweeps, names, path)
 
     return MeasurementSet(
-        name=name.strip(), sweeps=tuple(sweeps),
+        name=name.strip(), sweeps=thin_for_fit(sweeps),
         primary_turns=turns.get("primary_turns"), secondary_turns=turns.get("secondary_turns"),
         core=core, design=design, manifest_path=str(path), manifest_text=text, notes=notes,
     )
@@ -228,7 +257,7 @@ def parse_turns(text: str) -> tuple[int, int]:
         raise InputError(f"--turns must look like PRIMARY:SECONDARY (e.g. 3:9), not {text!r}") from None
     if a <= 0 or b <= 0:
         raise InputError(f"--turns must be positive whole numbers, not {text!r}")
-    return a, b
+    return check_range("turns", a, "--turns primary"), check_range("turns", b, "--turns secondary")
 
 
 def measurement_set_from_files(paths: list[str | Path], turns: tuple[int, int] | None = None,
@@ -237,6 +266,7 @@ def measurement_set_from_files(paths: list[str | Path], turns: tuple[int, int] |
     """A quick measurement set without a manifest: two-port files are primary→secondary thrus,
     one-port files are `port1` with the other winding as `termination`."""
     sweeps = []
+    check_sweep_count(len(paths))
     term = parse_termination(termination, "--termination", None)
     for p in paths:
         p = Path(p)
@@ -244,7 +274,8 @@ def measurement_set_from_files(paths: list[str | Path], turns: tuple[int, int] |
             sweeps.append(load_sweep(p, port1, None, other_winding(port1), p.name))
         else:
             sweeps.append(load_sweep(p, port1, term, None, p.name))
+    sweeps = refuse_repeated_sweeps(sweeps, [f"'{p}'" for p in paths])
     return MeasurementSet(
-        name=name or Path(paths[0]).stem, sweeps=tuple(sweeps),
+        name=name or Path(paths[0]).stem, sweeps=thin_for_fit(sweeps),
         primary_turns=turns[0] if turns else None, secondary_turns=turns[1] if turns else None,
     )

@@ -7,39 +7,74 @@ text that is not UTF-8 or not TOML, unknown or missing keys.
 from __future__ import annotations
 
 import tomllib
-from pathlib import Path
 
 from ..errors import InputError
+from . import files
 
-MAX_TOML_BYTES = 1_000_000
+MAX_TOML_BYTES = files.MAX_TOML_BYTES
 """Our TOML files are a few kB; anything above this is not one of them (checked before reading)."""
+MAX_TOML_DEPTH = 32
+"""Our TOML files nest three or four levels; deeper nesting is refused before it is parsed."""
+
+
+
+def _too_deep(text: str) -> bool:
+    """True when brackets and braces nest deeper than MAX_TOML_DEPTH, counted outside strings.
+
+    tomllib parses nested arrays and inline tables recursively and ends in a
+    RecursionError on a few hundred levels; this cheap scan refuses such text first.
+    Quoted text is skipped roughly (escapes and multi-line strings are treated
+    alike), which can only over-count for text nobody writes by hand.
+    """
+    depth = 0
+    quote = None
+    escaped = False
+    for char in text:
+        if quote is not None:
+            if escaped:
+                escaped = False
+            elif char == "\\" and quote == '"':
+                escaped = True
+            elif char == quote:
+                quote = None
+            continue
+        if char in "\"'":
+            quote = char
+        elif char == "#":
+            quote = "\n"  # a comment runs to the end of the line
+        elif char in "[{":
+            depth += 1
+            if depth > MAX_TOML_DEPTH:
+                return True
+        elif char in "]}":
+            depth = max(depth - 1, 0)
+    return False
 
 
 def parse_toml(text: str, path) -> dict:
+    if _too_deep(text):
+        raise InputError(f"not valid TOML for rfmeas: brackets nest more than {MAX_TOML_DEPTH} levels deep",
+                         path)
     try:
         return tomllib.loads(text)
     except tomllib.TOMLDecodeError as exc:
         raise InputError(f"not valid TOML: {exc}", path) from None
+    except RecursionError:
+        raise InputError("not valid TOML for rfmeas: nested too deeply", path) from None
 
 
 def read_toml(path, what: str = "file") -> tuple[str, dict]:
     """(text, parsed document) of a TOML file; `what` names the kind of file in messages."""
-    path = Path(path)
+    text = decode_text(files.read_regular_file(path, what, MAX_TOML_BYTES), path, what)
+    return text, parse_toml(text, path)
+
+
+def decode_text(raw: bytes, path, what: str = "file") -> str:
+    """UTF-8 text of a TOML file's bytes (InputError naming `path` when it is not text)."""
     try:
-        if path.is_dir():
-            raise InputError(f"is a folder, not a {what}", path)
-        if path.stat().st_size > MAX_TOML_BYTES:
-            raise InputError(f"too large for a {what} (over 1 MB)", path)
-        raw = path.read_bytes()
-    except FileNotFoundError:
-        raise InputError(f"no such file (the {what} was not found)", path) from None
-    except (OSError, ValueError) as exc:  # ValueError: a NUL in the name
-        raise InputError(f"cannot read the {what}: {getattr(exc, 'strerror', None) or exc}", path) from None
-    try:
-        text = raw.decode("utf-8")
+        return raw.decode("utf-8")
     except UnicodeDecodeError:
         raise InputError(f"not a text file (a {what} is UTF-8 TOML)", path) from None
-    return text, parse_toml(text, path)
 
 
 def check_keys(table, allowed, where: str, path, required=()) -> None:

@@ -26,12 +26,23 @@ import skrf as rf
 
 from .. import __version__
 from ..errors import InputError
+from ..limits import FREQUENCY_RANGE_HZ
+from . import files
 from .atomic import atomic_write_text
 
 log = logging.getLogger(__name__)
 
-MAX_FILE_BYTES = 64 * 1024 * 1024
+MAX_FILE_BYTES = files.MAX_TOUCHSTONE_BYTES
 MIN_POINTS = 3
+MAX_POINTS = 200_001
+"""More points than any sweep a VNA takes (common practice: 10,001 to 100,001 at most);
+a longer file is refused while it is parsed, before the work grows with it."""
+MAX_S_MAGNITUDE = 1e3
+"""|S| of a passive device is at most about 1; above 1000 (60 dB of gain) a value is not a measurement."""
+# A column whose |S| never rises above this (-200 dB) was not measured: exporters of
+# forward-only sweeps write -300 or -600 dB, 1e-15 or exact zeros there.
+UNMEASURED_BELOW = 1e-10
+_ELEMENTS = {1: (("S11", 0, 0),), 2: (("S11", 0, 0), ("S21", 1, 0), ("S12", 0, 1), ("S22", 1, 1))}
 
 UNIT_SCALE = {"HZ": 1.0, "KHZ": 1e3, "MHZ": 1e6, "GHZ": 1e9}
 FORMATS = ("RI", "MA", "DB")
@@ -48,8 +59,6 @@ _PORTS_FROM_EXT = re.compile(r"\.s(\d+)p", re.IGNORECASE)
 
 _ROW_WIDTH = {1: 3, 2: 9}
 _NOISE_WIDTH = 5
-UNMEASURED_BELOW = 1e-10
-"""|S| at or below this (−200 dB) over a whole column means the column was not measured."""
 
 
 @dataclass(frozen=True, eq=False)
@@ -57,10 +66,13 @@ class TouchstoneData:
     """One Touchstone file as read: the network, how it was cleaned, and the file itself.
 
     `network` has strictly increasing frequencies, all above 0 Hz, and finite
-    values. `forward_only` is True for a two-port file whose S12 and S22
-    columns stay below UNMEASURED_BELOW in magnitude (only S11 and S21 were
-    measured); those columns are left as read and never fitted. `warnings` are sentences for the user, one per repair.
-    `raw_bytes` is the file exactly as read and `sha256` its hex digest.
+    values. `unmeasured` names the S columns whose magnitude stays at or below
+    UNMEASURED_BELOW (-200 dB) at every point: not measured, whatever the
+    format wrote there (-300 or -600 dB, 1e-15, zeros); they are set to exactly
+    zero in `network` and must never be fitted. `forward_only` is True for a
+    two-port file whose S12 and S22 were not measured (only S11 and S21).
+    `warnings` are sentences for the user, one per repair. `raw_bytes` is the
+    file exactly as read and `sha256` its hex digest.
     """
 
     network: rf.Network
@@ -70,6 +82,7 @@ class TouchstoneData:
     warnings: tuple[str, ...]
     sha256: str
     raw_bytes: bytes = field(repr=False)
+    unmeasured: tuple[str, ...] = ()
 
     def to_dict(self) -> dict:
         """Plain metadata (no arrays): file, size, digest, ports, frequency span, warnings."""
@@ -81,6 +94,7 @@ class TouchstoneData:
             "sha256": self.sha256,
             "port_count": self.port_count,
             "forward_only": self.forward_only,
+            "unmeasured": list(self.unmeasured),
             "points": int(f_Hz.size),
             "start_frequency_Hz": float(f_Hz[0]),
             "stop_frequency_Hz": float(f_Hz[-1]),
@@ -95,25 +109,7 @@ class TouchstoneData:
 def read_touchstone(path: str | os.PathLike) -> TouchstoneData:
     """Read a .s1p/.s2p file; any problem raises InputError naming the file."""
     name = str(path)
-    target = Path(path)
-    try:
-        info = target.stat()
-    except FileNotFoundError as exc:
-        raise InputError("file not found", path=name) from exc
-    except OSError as exc:
-        raise InputError(f"cannot read the file: {exc.strerror or exc}", path=name) from exc
-    except ValueError as exc:  # e.g. a NUL character in the name
-        raise InputError(f"not a usable file name ({exc})", path=name) from exc
-    if target.is_dir():
-        raise InputError("is a folder, not a Touchstone file", path=name)
-    if info.st_size > MAX_FILE_BYTES:
-        raise InputError(_too_large(info.st_size), path=name)
-    try:
-        with open(target, "rb") as handle:
-            data = handle.read(MAX_FILE_BYTES + 1)
-    except OSError as exc:
-        raise InputError(f"cannot read the file: {exc.strerror or exc}", path=name) from exc
-    return read_touchstone_bytes(data, name)
+    return read_touchstone_bytes(files.read_regular_file(path, "Touchstone file", MAX_FILE_BYTES), name)
 
 
 def read_touchstone_bytes(data: bytes, name: str) -> TouchstoneData:
@@ -128,9 +124,12 @@ def read_touchstone_bytes(data: bytes, name: str) -> TouchstoneData:
     notes = list(parsed.notes)
     rows = _clean(parsed, notes, name)
     network = _to_network(parsed, rows, name)
-    # exporters write an unmeasured column as -300 or -600 dB, or a tiny magnitude, not only as 0
-    forward_only = parsed.ports == 2 and bool(np.all(np.abs(network.s[:, 0, 1]) <= UNMEASURED_BELOW)
-                                              and np.all(np.abs(network.s[:, 1, 1]) <= UNMEASURED_BELOW))
+    _refuse_extreme_values(network, name)
+    unmeasured = _unmeasured_columns(network, name)
+    forward_only = parsed.ports == 2 and unmeasured == ("S12", "S22")
+    if unmeasured and not forward_only:
+        notes.append(f"{_join(unmeasured)} {'stays' if len(unmeasured) == 1 else 'stay'} at or below "
+                     "-200 dB at every point: taken as not measured and left out of the fit.")
     for note in notes:
         log.info("%s: %s", name, note)
     return TouchstoneData(
@@ -141,12 +140,34 @@ def read_touchstone_bytes(data: bytes, name: str) -> TouchstoneData:
         warnings=tuple(notes),
         sha256=hashlib.sha256(data).hexdigest(),
         raw_bytes=data,
+        unmeasured=unmeasured,
     )
 
 
+def _unmeasured_columns(network: rf.Network, name: str) -> tuple[str, ...]:
+    """Names of the S columns never above UNMEASURED_BELOW; they are zeroed in `network` (in place)."""
+    s = network.s
+    # a hair of slack so that exactly -200 dB, which converts to 1e-10 give or take a rounding, counts
+    limit = UNMEASURED_BELOW * (1.0 + 1e-9)
+    elements = _ELEMENTS[network.nports]
+    out = tuple(e for e, i, j in elements if np.all(np.abs(s[:, i, j]) <= limit))
+    if len(out) == len(elements):
+        raise InputError(f"holds no measured values: {_join(out)} {'stays' if len(out) == 1 else 'stay'} "
+                         "at or below -200 dB at every point", path=name)
+    for e, i, j in elements:
+        if e in out:
+            s[:, i, j] = 0.0
+    network.s = s
+    return out
+
+
+def _join(names) -> str:
+    names = list(names)
+    return names[0] if len(names) == 1 else ", ".join(names[:-1]) + " and " + names[-1]
+
+
 def _too_large(size: int) -> str:
-    return (f"the file is {size / 2**20:.0f} MB, larger than the {MAX_FILE_BYTES // 2**20} MB "
-            "rfmeas accepts for a Touchstone file")
+    return files.too_large(size, MAX_FILE_BYTES, "Touchstone file")
 
 
 def _decode(data: bytes, name: str) -> str:
@@ -455,6 +476,7 @@ class _Parser:
         if len(self.pending) == width:
             out.rows.append((self.pending_line, tuple(self.pending)))
             self.pending = []
+            _refuse_too_many_points(len(out.rows), self.pending_line, self.name)
 
     def noise_line(self, values: list[float], lineno: int) -> None:
         if len(values) != _NOISE_WIDTH:
@@ -536,6 +558,26 @@ def _clean(parsed: _Parsed, notes: list[str], name: str) -> np.ndarray:
     if not (np.all(np.isfinite(f_Hz)) and np.all(np.diff(f_Hz) > 0) and f_Hz[0] > 0):
         raise InputError("the frequencies are out of range once converted to hertz", path=name)
     return rows
+
+
+def _refuse_too_many_points(count: int, lineno: int, name: str) -> None:
+    if count > MAX_POINTS:
+        raise InputError(f"line {lineno}: more than {MAX_POINTS:,} frequency points; rfmeas reads sweeps of "
+                         f"up to {MAX_POINTS:,} points (take fewer points, or split the sweep)", path=name)
+
+
+def _refuse_extreme_values(network: rf.Network, name: str) -> None:
+    """Frequencies or S-parameters no instrument can have measured (they would only overflow later)."""
+    f_Hz = network.f
+    low, high = FREQUENCY_RANGE_HZ
+    if f_Hz[0] < low or f_Hz[-1] > high:
+        raise InputError(f"a frequency of {f_Hz[0] if f_Hz[0] < low else f_Hz[-1]:.3g} Hz is outside "
+                         f"{low:g} Hz to {high:g} Hz: is the unit in the option line right?", path=name)
+    with np.errstate(over="ignore", invalid="ignore"):
+        peak = float(np.max(np.abs(network.s)))
+    if not peak <= MAX_S_MAGNITUDE:
+        raise InputError(f"an S-parameter of magnitude {peak:.3g} is not a measurement of a passive device "
+                         f"(|S| is at most about 1; rfmeas refuses values above {MAX_S_MAGNITUDE:g})", path=name)
 
 
 def _points(count: int) -> str:

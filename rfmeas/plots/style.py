@@ -28,6 +28,9 @@ def use_backend() -> None:
     import matplotlib
 
     matplotlib.use("Agg", force=True)
+    # File, sweep and unit names go into titles and legends: a '$' in them must print as
+    # itself, not start math text (which can raise on a name such as 'a$\frac$b').
+    matplotlib.rcParams["text.parse_math"] = False
 
 
 def new_figure(rows: int = 1, cols: int = 1, height_ratios=None, width_in: float = 7.0,
@@ -138,10 +141,54 @@ def figure_bytes(fig, fmt: str = "svg", dpi: int = 110) -> bytes:
 
     import matplotlib
 
+    _plain_library_text(fig)
     buffer = io.BytesIO()
     with matplotlib.rc_context({"svg.fonttype": "path", "svg.hashsalt": "rfmeas"}):
         fig.savefig(buffer, format=fmt, dpi=dpi, metadata=_metadata(fmt))
     return buffer.getvalue()
+
+
+_SUPERSCRIPT = str.maketrans("0123456789-+.", "⁰¹²³⁴⁵⁶⁷⁸⁹⁻⁺·")
+
+
+def _plain_power(text: str) -> str:
+    """'$\\mathdefault{2\\times10^{-3}}$' -> '2×10⁻³' (math text off: see use_backend)."""
+    import re
+
+    text = text.replace("$", "").replace("\\mathdefault", "").replace("\\times", "×")
+    text = re.sub(r"\^\{([^}]*)\}", lambda m: m.group(1).translate(_SUPERSCRIPT), text)
+    return text.replace("{", "").replace("}", "").replace("\\,", "")
+
+
+def _plain_library_text(fig) -> None:
+    """Library text meant as math text (log-axis ticks, the Smith chart's ∞) as plain text."""
+    from matplotlib.ticker import Formatter, LogFormatterMathtext
+
+    class PlainText(Formatter):
+        def __init__(self, inner):
+            self.inner = inner
+
+        def set_axis(self, axis):
+            super().set_axis(axis)
+            self.inner.set_axis(axis)
+
+        def set_locs(self, locs):
+            self.inner.set_locs(locs)
+
+        def __call__(self, x, pos=None):
+            return _plain_power(self.inner(x, pos))
+
+    for ax in fig.axes:
+        for axis in (ax.xaxis, ax.yaxis):
+            for get, put in ((axis.get_major_formatter, axis.set_major_formatter),
+                             (axis.get_minor_formatter, axis.set_minor_formatter)):
+                if isinstance(get(), LogFormatterMathtext):
+                    put(PlainText(get()))
+    from matplotlib.text import Text
+
+    for text in fig.findobj(Text):  # scikit-rf's Smith chart labels its right end in math text
+        if text.get_text() == "$\\infty$":
+            text.set_text("∞")
 
 
 def _metadata(fmt: str):

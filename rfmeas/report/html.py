@@ -80,8 +80,10 @@ def parameter_rows(analysis) -> list[dict]:
         rel = est.relative_stderr
         rel_text = "" if rel is None else (f"{rel * 100:.2g} %" if rel < 10 else "≫100 %")
         value = format_number(est.value, unit, bool(unit), est.stderr)
+        if est.stderr is None:  # never a bare confident number
+            value += " ± ?"
         rows.append({"label": LABELS.get(key, key), "key": key, "value": value, "relative": rel_text,
-                     "note": est.note, "determined": True})
+                     "note": "; ".join(n for n in (est.note, est.stderr_note) if n), "determined": True})
     return rows
 
 
@@ -89,23 +91,46 @@ def _state(passed) -> str:
     return "pass" if passed is True else ("fail" if passed is False else "info")
 
 
+_GRADE_STATE = {"good": "pass", "marginal": "info", "poor": "fail"}
+
+
+def missed_text(quality) -> str:
+    """'thru (8.1×, worst 20 MHz–32 MHz)' for every sweep the model misses."""
+    parts = []
+    for m in quality.missed:
+        band = m.get("worst_band") or {}
+        where = (f", worst {format_engineering(band['start_Hz'], 'Hz', 3)}–"
+                 f"{format_engineering(band['stop_Hz'], 'Hz', 3)}") if band.get("start_Hz") else ""
+        parts.append(f"{m['sweep']} ({m['misfit_ratio']:.2g}×{where})")
+    return ", ".join(parts)
+
+
+def quality_row(analysis) -> dict:
+    """The fit judged against the data's own noise, as a verdict row."""
+    from ..results import GOOD_MISFIT_RATIO, POOR_MISFIT_RATIO
+
+    q = analysis.fit.quality
+    missed = missed_text(q)
+    advice = {"good": "", "marginal": "the standard errors are optimistic",
+              "poor": "the standard errors do not describe the error; no design verdict is given"}[q.grade]
+    if missed:
+        advice = (advice + "; " if advice else "") + f"the model misses {missed}: check how it was connected"
+    value = f"{q.misfit_ratio:.2g}× the noise ({q.grade})" if math.isfinite(q.misfit_ratio) else f"— ({q.grade})"
+    return {"name": "fit quality: misfit against the data's own noise", "group": "fit",
+            "state": _GRADE_STATE[q.grade], "value": value,
+            "limit": f"≤ {GOOD_MISFIT_RATIO:g}× good, ≤ {POOR_MISFIT_RATIO:g}× marginal", "margin": "",
+            "advice": advice}
+
+
 def verdict_rows(analysis) -> list[dict]:
     """The verdict table: the fit's own soundness, then every design check."""
-    from ..results import MISFIT_WARNING_RMS
-
     fit = analysis.fit
-    worst = max(fit.sweeps, key=lambda q: q.rms_residual) if fit.sweeps else None
     rows = [
         {"name": "fit converged", "group": "fit", "state": _state(fit.converged),
          "value": "yes" if fit.converged else "no", "limit": "", "margin": "",
          "advice": "" if fit.converged else fit.message},
+        quality_row(analysis),
     ]
-    if worst is not None:
-        ok = worst.rms_residual <= MISFIT_WARNING_RMS
-        rows.append({"name": "model describes every sweep", "group": "fit", "state": _state(ok),
-                     "value": f"worst rms misfit {worst.rms_residual:.2g} ({worst.label})",
-                     "limit": f"≤ {MISFIT_WARNING_RMS:g}", "margin": "",
-                     "advice": "" if ok else "check the manifest says how each sweep was connected"})
     check = analysis.design_check
     if not check:
         advice = ("no design check was made for this target" if analysis.measurement.design is not None
@@ -118,17 +143,20 @@ def verdict_rows(analysis) -> list[dict]:
         margin = item.get("margin")
         rows.append({
             "name": str(item.get("label") or item.get("name", "")),
-            "state": _state(item.get("passed")),
+            "state": "notjudged" if item.get("state") == "not judged" else _state(item.get("passed")),
             "value": format_number(item.get("value"), unit),
             "limit": format_number(item.get("limit"), unit) if item.get("limit") is not None else "",
             "margin": format_number(margin) if isinstance(margin, (int, float)) else (margin or ""),
-            "advice": str(item.get("advice") or ""),
+            "advice": str(item.get("advice") or item.get("reason") or ""),
         })
     return rows
 
 
 def overall_verdict(analysis) -> dict:
     passed = analysis.design_passed
+    if analysis.design_status == "not judged":
+        reasons = (analysis.design_check or {}).get("not_judged_reasons") or []
+        return {"state": "notjudged", "text": "Design check not judged" + (f": {'; '.join(reasons)}" if reasons else "")}
     if passed is True:
         return {"state": "pass", "text": "Design check passed"}
     if passed is False:
@@ -137,6 +165,9 @@ def overall_verdict(analysis) -> dict:
         return {"state": "fail", "text": "Design check failed" + (f": {'; '.join(failed)}" if failed else "")}
     if not analysis.fit.converged:
         return {"state": "fail", "text": "The fit did not converge; treat every number with suspicion"}
+    if analysis.fit.quality.grade == "poor":
+        return {"state": "fail", "text": "The fit is poor: the model misses the data far beyond their noise; "
+                                         "treat every number as unconfirmed"}
     if analysis.measurement.design is not None:
         return {"state": "info", "text": "Design target given, but no design check was made"}
     return {"state": "info", "text": "No design target given: results only, nothing checked"}
@@ -156,7 +187,9 @@ def sweep_rows(analysis) -> list[dict]:
             "range": f"{format_engineering(float(f[0]), 'Hz', 3)} – {format_engineering(float(f[-1]), 'Hz', 3)}",
             "reference": " / ".join(f"{z:g} Ω" for z in sweep.z0_ohm),
             "misfit": "" if q is None else f"{q.rms_residual:.2g}",
-            "noise": "" if q is None else f"{q.noise_estimate:.2g}",
+            "noise": "" if q is None else f"{q.data_noise:.2g}",
+            "ratio": "" if q is None else f"{q.misfit_ratio:.3g}×",
+            "missed": q is not None and any(m["sweep"] == q.label for m in analysis.fit.quality.missed),
             "sha256": sweep.sha256 or "not recorded",
         })
     return rows
@@ -222,7 +255,9 @@ def report_context(analysis, plots, generated: str | None = None) -> dict:
         "manifest": ms.manifest_path or "",
         "notes": ms.notes or "",
         "fit": {"converged": fit.converged, "points": fit.points, "free": fit.free_parameters,
-                "rms": f"{fit.rms_residual:.2g}", "variance": f"{fit.residual_variance:.3g}",
+                "rms": f"{fit.rms_residual:.2g}", "grade": fit.quality.grade,
+                "quality": fit.quality.summary(),
+                "stderr_describes_error": fit.quality.stderr_describes_error,
                 "elapsed_ms": f"{fit.elapsed_s * 1000:.0f}",
                 "polarity": "inverting" if fit.params.polarity < 0 else "non-inverting"},
         "software": software_versions(),
