@@ -566,8 +566,7 @@ def fit_sweeps(sweeps: list[Sweep]) -> FitOutcome:
         total_evals += evaluations
         dof = max(points - len(free), 1)
         values = obj.values(res.x[None, :])[0]
-        sweep_chi2 = problem.sweep_chi2(values)
-        chi2 = float(np.sum(sweep_chi2 * [2 * m.size for m in problem.measured]) / dof)
+        chi2 = 2.0 * _plain_cost(problem, values) / dof
         weighted_chi2 = float(2.0 * res.cost / dof)
         cov = _covariance(res.jac, max(1.0, weighted_chi2))
         name, edge = _worst_undetermined(free, res.x, cov)
@@ -630,6 +629,11 @@ def _reweight_sweeps(problem: SweepProblem, values: np.ndarray) -> bool:
         return False
     problem.sweep_weights = target
     return True
+
+
+def _plain_cost(problem: SweepProblem, values: np.ndarray) -> float:
+    """½·χ² against the data noise alone (robust weights left out)."""
+    return 0.5 * float(np.sum(problem.sweep_chi2(values) * [2 * m.size for m in problem.measured]))
 
 
 def _profile_score(problem: SweepProblem, values: np.ndarray) -> float:
