@@ -1,20 +1,52 @@
 """One joint least-squares fit of the equivalent circuit to every sweep of a transformer.
 
-The residual is the complex difference between modelled and measured S
-parameters (real and imaginary parts), weighted per sweep by its own noise
-level, which is estimated from a first pass. Working in S rather than Z
-weights each point by how well a 50-ohm instrument resolved it.
+Residuals and weights. The residual is the complex difference between
+modelled and measured S parameters (real and imaginary parts), each S element
+of each sweep divided by its error σ from the data alone
+(rfmeas.noise.error_sigma: trace noise from neighbouring points, with a
+systematic floor), never from the fit's own residuals. So the reduced χ²,
+2·cost/(N − p), is a real goodness-of-fit statistic (≈ 1 when the model
+describes the data down to its noise); it is reported as `reduced_chi2`.
 
-Parameters are fitted in internal coordinates: the logarithm of each positive
-value, and log(1 − k) for the coupling, so leakage of 0.1 % and 10 % are
-equally easy to reach. Standard errors come from the Jacobian,
-cov = s²·(JᵀJ)⁻¹ with s² the weighted residual variance per degree of freedom,
-and are carried to derived quantities by first-order propagation.
+Coordinates. Parameters are fitted as the logarithm of each positive value and
+log(1 − k) for the coupling, so leakage of 0.1 % and 10 % are equally easy to
+reach.
 
-A parameter the sweeps cannot pin down (relative standard error above
-`UNDETERMINED_LOG_STDERR` in log terms, or pressed against the edge of its
-range) is held at a neutral value — capacitances and winding resistances at
-zero, core-loss resistance at infinity — and reported as not determined.
+Method (global, then local):
+1. Readings (rfmeas.fit_start): L and C of each open winding from a weighted
+   straight-line fit of its inductive band, the short-circuit inductance
+   (hence k), the turns ratio from the thru's mid-band reflection and its
+   low-band inductance. What the sweeps cannot split — the open-circuit
+   capacitance C1 + n²·C2 + (n ∓ 1)²·C12 among the three, and the coupling
+   when nothing is shorted — is spread over several start points.
+2. Global stage on about COARSE_POINTS points per sweep (spread in log and
+   linear frequency): every start is screened by its cost in one stacked
+   evaluation, the MAX_STARTS best run Levenberg–Marquardt, the ROBUST_STARTS
+   most promising go on with robust sweep weights, and the lowest profile
+   score wins. Whether the other starts ended on the same key quantities is
+   recorded (`start_agreement`, `starts_disagree`, `start_spread`).
+3. Robust sweep weights: a sweep the model misses is weighted as if its noise
+   were max(σ, its misfit) — the maximum-likelihood weighting when each sweep
+   may carry an error of its own — so one mislabelled or unmodelled sweep
+   cannot drag what the others pin down. χ² is still reported against σ.
+4. Core-loss placement: the fit also tries Rc across the whole primary
+   inductance (outside the leakage) and keeps it only when the sweeps prefer
+   it clearly (PLACEMENT_DELTA_CHI2); Rc's note then says so.
+5. Local stage on every point from the winner. A parameter the sweeps cannot
+   pin down (log-space standard error above UNDETERMINED_LOG_STDERR, or
+   pressed against the edge of its range after one restart from its reading)
+   is held at a neutral value — capacitances and winding resistances at
+   zero, core-loss resistance at infinity — and reported as not determined.
+   Before anything, parameters are held (least observable first) until each
+   free one has MIN_RESIDUALS_PER_PARAMETER real residuals; fewer than that
+   for the inductance alone is a FitError naming the minimum.
+
+Standard errors: cov = (JᵀJ)⁻¹·max(1, χ²/dof) with J the weighted Jacobian,
+plus what the white-noise errors leave out: the shift a smooth systematic
+error of the size the fit leaves unexplained could cause
+(_smooth_error_covariance), and the spread of the held parameters, in their
+linear coordinates, carried into the free ones (_held_parameter_covariance).
+Derived quantities follow by first-order propagation (rfmeas.results).
 """
 
 from __future__ import annotations
@@ -22,17 +54,18 @@ from __future__ import annotations
 import logging
 import math
 import time
-from dataclasses import dataclass
+from dataclasses import dataclass, field
 
 import numpy as np
 from scipy.optimize import least_squares
 
 from .errors import FitError
 from .methods import s_from_impedance
-from .fit_start import estimate_start, sweeps_that_see
+from .fit_start import start_candidates, sweeps_that_see
 from .model.circuit import driving_point_admittance, reflection_from_admittance, s_from_y, \
     termination_admittance, y_elements
 from .model.params import PARAMETER_NAMES, TransformerParams
+from .noise import error_sigma
 from .sweep import Sweep
 
 log = logging.getLogger(__name__)
@@ -59,7 +92,33 @@ NEUTRAL = {
 }
 _STEP = 1e-6  # forward-difference step in internal (log) coordinates
 COARSE_POINTS = 200
-"""The first pass uses about this many points per sweep; the second uses them all."""
+"""The global stage uses about this many points per sweep; the local stage uses them all."""
+MAX_STARTS = 4
+"""Starts (lowest screening cost first) run to the end in the global stage."""
+START_BUDGET = 100
+"""Function evaluations allowed to one start in the global stage."""
+MIN_RESIDUALS_PER_PARAMETER = 5
+"""Real residuals (two per complex value) needed for every fitted parameter."""
+AGREEMENT_TOLERANCE = {"primary_inductance_H": 0.01, "secondary_inductance_H": 0.01,
+                       "leakage_inductance_H": 0.03, "effective_turns_ratio": 0.005}
+"""Two starts ending this close in the key quantities found the same solution."""
+COMPETITIVE_DELTA_CHI2 = 25.0
+"""A start whose χ² is within this of the best (after scaling by the reduced χ²) fits about as well."""
+SMOOTH_DEGREE = 4
+"""Highest Legendre degree (in linear frequency) of the smooth systematic error model."""
+SMOOTH_SIGNIFICANCE = 3.0
+"""A sweep's misfit counts as systematic when χ² exceeds its noise expectation by this many
+standard deviations (sqrt(2/n) per residual)."""
+PLACEMENT_DELTA_CHI2 = 10.0
+"""The core loss is placed across the whole primary only when that lowers −2 log-likelihood by this."""
+ROBUST_ROUNDS = 3
+ROBUST_STARTS = 2
+"""Starts carried on with robust sweep weights after the first descent."""
+"""Re-weighting rounds of the robust sweep weights (see _reweight_sweeps)."""
+HELD_SPREAD_CAP = 10.0
+"""A held parameter's spread is capped at this many times its distance to the sweeps' reading."""
+_LINEAR_HOLDS = ("R1_ohm", "R2_ohm", "Rc_ohm", "C1_F", "C2_F", "C12_F")
+_HOLD_ORDER = ("C12_F", "C2_F", "C1_F", "Rc_ohm", "R2_ohm", "R1_ohm", "k", "L2_H", "L1_H")
 _BAD_RESIDUAL = 1e6
 _TINY_EIGENVALUE = 1e-14  # relative eigenvalue of the scaled normal matrix that carries no information
 _MARGIN = 5.0  # how far (in log units) the unbounded solver may wander past a range edge
@@ -88,42 +147,64 @@ class FitOutcome:
     held: dict                            # name -> (value held at, reason)
     referred: dict                        # name -> note: fitted, but only as referred to the other side
     x: np.ndarray                         # internal coordinates of the free parameters
-    covariance: np.ndarray | None         # internal coordinates, free parameters
-    residual_variance: float              # s², weighted residual variance per degree of freedom
-    sweep_sigma: tuple[float, ...]        # estimated noise of each sweep (S units, per component)
+    covariance: np.ndarray | None         # internal coordinates, free parameters, scaled by max(1, χ²/dof)
+    residual_variance: float              # reduced χ²: Σ((model − measured)/σ)²/(N − p), σ from the data
+    sweep_sigma: tuple[float, ...]        # error σ of each sweep, rms over its S elements (S units)
     residuals: tuple[np.ndarray, ...]     # complex model − measured per sweep, shape (F, E)
     converged: bool
     message: str
     evaluations: int
-    points: int
+    points: int                           # real residuals N (two per complex value)
     elapsed_s: float
+    sweep_error_sigma: tuple[np.ndarray, ...] = ()  # error σ per S element of each sweep, shape (E,)
+    reduced_chi2: float = math.nan        # the same as residual_variance, by its statistical name
+    dof: int = 0                          # N − p
+    starts: int = 0                       # start points run to the end of the global stage
+    start_agreement: float = math.nan     # share of those starts that ended on the chosen solution
+    starts_disagree: bool = False         # a start ending elsewhere fits about as well: the data allow both
+    start_spread: dict = field(default_factory=dict)  # key quantity -> largest relative deviation among
+                                                      # competitive starts
 
 
 class SweepProblem:
-    """Vectorised residuals of a set of sweeps for stacks of parameter vectors."""
+    """Vectorised weighted residuals of a set of sweeps for stacks of parameter vectors.
 
-    def __init__(self, sweeps: list[Sweep], polarity: int, stride: int = 1):
-        """`stride` > 1 keeps every stride-th point: a cheap problem for the first pass."""
+    Each sweep's residual is divided by its error σ per S element (data noise and
+    the systematic floor, rfmeas.noise.error_sigma), so 2·cost/(N − p) is the
+    reduced χ² of the fit against the data's own noise.
+    """
+
+    def __init__(self, sweeps: list[Sweep], polarity: int, sigma=None, subset: int | None = None):
+        """`subset`: keep about this many points per sweep, spread in log and linear frequency."""
         self.sweeps = sweeps
         self.polarity = polarity
-        self.measured = [s.measured()[::stride] for s in sweeps]
-        self.weights = np.ones(len(sweeps))
+        self.sigma = sigma if sigma is not None else [error_sigma(s.measured()) for s in sweeps]
+        self.index = [_subset_index(s.f_Hz, subset) for s in sweeps]
+        self.measured = [s.measured()[i] for s, i in zip(sweeps, self.index)]
+        self.sweep_weights = np.ones(len(sweeps))  # robust down-weighting of a sweep the model misses
+        self.core_loss = "magnetizing"
         # sweeps sharing a frequency grid share one evaluation of the network
         self._grids: dict[bytes, int] = {}
         self.grid_of_sweep = []
         self.grids = []
-        for s in sweeps:
-            f = s.f_Hz[::stride]
+        for s, i in zip(sweeps, self.index):
+            f = s.f_Hz[i]
             key = f.tobytes()
             if key not in self._grids:
                 self._grids[key] = len(self.grids)
                 self.grids.append(f)
             self.grid_of_sweep.append(self._grids[key])
 
+    @property
+    def size(self) -> int:
+        """Number of real residuals."""
+        return int(sum(2 * m.size for m in self.measured))
+
     def predict(self, values: np.ndarray) -> list[np.ndarray]:
         """Model S elements per sweep for parameter rows `values` (m, 9): list of (m, F, E)."""
         cols = [values[:, i, None] for i in range(values.shape[1])]
-        ys = [y_elements(f[None, :], *cols, polarity=self.polarity) for f in self.grids]
+        ys = [y_elements(f[None, :], *cols, polarity=self.polarity, core_loss=self.core_loss)
+              for f in self.grids]
         out = []
         for sweep, g in zip(self.sweeps, self.grid_of_sweep):
             y11, y12, y22 = ys[g]
@@ -146,8 +227,9 @@ class SweepProblem:
         """Weighted real residuals, shape (m, N); a network that cannot be evaluated scores badly."""
         parts = []
         with np.errstate(all="ignore"):
-            for model, meas, w in zip(self.predict(values), self.measured, self.weights):
-                d = (model - meas[None]) * w
+            for model, meas, sig, w in zip(self.predict(values), self.measured, self.sigma,
+                                           self.sweep_weights):
+                d = (model - meas[None]) * (w / sig)
                 parts.append(d.real.reshape(d.shape[0], -1))
                 parts.append(d.imag.reshape(d.shape[0], -1))
         rows = np.concatenate(parts, axis=1)
@@ -155,8 +237,26 @@ class SweepProblem:
             return rows
         return np.nan_to_num(rows, nan=_BAD_RESIDUAL, posinf=_BAD_RESIDUAL, neginf=-_BAD_RESIDUAL)
 
+    def sweep_chi2(self, values: np.ndarray) -> np.ndarray:
+        """χ² per real residual of each sweep against its error σ (robust weights left out)."""
+        out = []
+        for model, meas, sig in zip(self.predict(values[None]), self.measured, self.sigma):
+            d = (model[0] - meas) / sig
+            out.append(float(np.mean(d.real ** 2 + d.imag ** 2) / 2.0))
+        return np.nan_to_num(np.array(out), nan=_BAD_RESIDUAL, posinf=_BAD_RESIDUAL)
+
     def complex_residuals(self, values: np.ndarray) -> list[np.ndarray]:
         return [model[0] - meas for model, meas in zip(self.predict(values[None]), self.measured)]
+
+
+def _subset_index(f_Hz: np.ndarray, count: int | None) -> np.ndarray:
+    """Indices of about `count` points spread evenly in log and in linear frequency."""
+    if count is None or f_Hz.size <= 1.5 * count:
+        return np.arange(f_Hz.size)
+    half = count // 2
+    on_log = np.searchsorted(f_Hz, np.geomspace(f_Hz[0], f_Hz[-1], half)) if f_Hz[0] > 0 else []
+    on_lin = np.linspace(0, f_Hz.size - 1, half).round().astype(int)
+    return np.unique(np.clip(np.concatenate([on_log, on_lin]).astype(int), 0, f_Hz.size - 1))
 
 
 class _Objective:
@@ -214,12 +314,22 @@ def _solve(problem, free, fixed, x0, max_nfev=200):
 
 
 def _covariance(jac: np.ndarray, residual_variance: float) -> np.ndarray:
-    """s²·(JᵀJ)⁻¹; directions with no information get an infinite variance.
+    """s²·(JᵀJ)⁻¹; directions with no information get an infinite variance."""
+    cov, unseen = _pseudo_inverse_normal(jac, with_unseen=True)
+    cov[unseen, :] = np.nan
+    cov[:, unseen] = np.nan
+    cov[unseen, unseen] = np.inf
+    return cov * residual_variance
+
+
+def _pseudo_inverse_normal(jac: np.ndarray, with_unseen: bool = False):
+    """(JᵀJ)⁺ with the directions that carry no information left out.
 
     Decomposes the small n×n normal matrix (columns scaled to unit norm, which
     keeps it well conditioned) rather than the tall N×n Jacobian: an SVD of the
     Jacobian goes through multi-threaded LAPACK, which on a busy two-core
-    machine can take longer than the whole fit.
+    machine can take longer than the whole fit. With `with_unseen`, also which
+    parameters move along a direction the data do not see.
     """
     jtj = jac.T @ jac
     norm = np.sqrt(np.clip(np.diag(jtj), 0.0, np.inf))
@@ -227,25 +337,168 @@ def _covariance(jac: np.ndarray, residual_variance: float) -> np.ndarray:
     w, v = np.linalg.eigh(jtj / np.outer(scale, scale))
     tiny = w <= w[-1] * _TINY_EIGENVALUE if w.size else w
     inv = np.where(tiny, 0.0, 1.0 / np.where(tiny, 1.0, w))
-    cov = (v * inv) @ v.T / np.outer(scale, scale)
-    # a parameter that moves along a direction the data do not see has no bounded variance
+    pinv = (v * inv) @ v.T / np.outer(scale, scale)
+    if not with_unseen:
+        return pinv
     unseen = np.any(np.abs(v[:, tiny]) > 1e-6, axis=1) if np.any(tiny) else np.zeros(len(w), bool)
-    cov[unseen, :] = np.nan
-    cov[:, unseen] = np.nan
-    cov[unseen, unseen] = np.inf
-    return cov * residual_variance
+    return pinv, unseen
+
+
+def _smooth_basis(f_Hz: np.ndarray) -> np.ndarray:
+    """Slowly varying functions of frequency, shape (F, K), each of unit rms: what a calibration
+    residue, a lead or a core slightly off the lumped model leaves on a sweep."""
+    f = np.asarray(f_Hz, float)
+    lin = 2.0 * (f - f[0]) / max(f[-1] - f[0], 1e-30) - 1.0
+    lg = np.log(f)
+    lg = 2.0 * (lg - lg[0]) / max(lg[-1] - lg[0], 1e-30) - 1.0
+    cols = [np.polynomial.legendre.legval(lin, np.eye(SMOOTH_DEGREE + 1)[k]) for k in range(SMOOTH_DEGREE + 1)]
+    cols += [np.polynomial.legendre.legval(lg, np.eye(3)[k]) for k in (1, 2)]
+    b = np.stack(cols, axis=1)
+    return b / np.sqrt(np.mean(b ** 2, axis=0))
+
+
+def _smooth_error_covariance(problem: SweepProblem, jac: np.ndarray, fun: np.ndarray) -> np.ndarray:
+    """Covariance the parameters owe to a smooth systematic error of the size the fit leaves unexplained.
+
+    White-noise standard errors describe the noise only. When a sweep's misfit
+    exceeds its noise (χ² per residual clearly above 1), the excess is a smooth
+    error the model cannot follow — and an unknown part of the same error was
+    absorbed by the parameters, unseen. For each slowly varying function
+    (Legendre polynomials in linear and log frequency, per S element and
+    component), take it as large as it could be if it alone left the excess
+    actually observed (the part the fit would not absorb equals the excess),
+    and add the shift it would cause in the parameters (linearised:
+    δx = (JᵀJ)⁻¹Jᵀe). The direction of the real error among them is unknown,
+    so the sum over the functions bounds it. Zero when every sweep is fitted
+    down to its noise.
+    """
+    p = jac.shape[1]
+    out = np.zeros((p, p))
+    if p == 0:
+        return out
+    pinv = _pseudo_inverse_normal(jac)
+    start = 0
+    for measured, sig, w, idx, sweep in zip(problem.measured, problem.sigma, problem.sweep_weights,
+                                            problem.index, problem.sweeps):
+        F, E = measured.shape
+        n = 2 * F * E
+        rows = slice(start, start + n)
+        start += n
+        power = float(np.sum(fun[rows] ** 2))
+        expected = n * w ** 2
+        if n < 2 or power <= expected * (1.0 + SMOOTH_SIGNIFICANCE * math.sqrt(2.0 / n)):
+            continue
+        excess = power - expected
+        basis = _smooth_basis(sweep.f_Hz[idx])                    # (F, K)
+        K = basis.shape[1]
+        B = np.zeros((jac.shape[0], 2 * E * K))
+        col = 0
+        for part in range(2):                                     # real, imaginary
+            for e in range(E):
+                block = np.zeros((F, E, K))
+                block[:, e, :] = basis * (w / sig[e])
+                B[start - n + part * F * E: start - n + (part + 1) * F * E, col:col + K] = block.reshape(F * E, K)
+                col += K
+        G = pinv @ (jac.T @ B)                                    # parameter shift per unit coefficient
+        unabsorbed = np.sum((B - jac @ G) ** 2, axis=0)           # per function
+        ok = unabsorbed > 0
+        # each function alone, as large as the observed excess allows: a bound, since the
+        # error's direction among them is not known
+        out += (G[:, ok] * (excess / unabsorbed[ok])) @ G[:, ok].T
+    return out
+
+
+def _held_parameter_covariance(problem, obj, res, held: dict, readings: dict, scale: float) -> np.ndarray:
+    """What holding a parameter hides: the scatter its plausible values would cause in the free ones.
+
+    Holding a parameter the data barely see (a resistance pressed to zero, a
+    capacitance too small to show) fixes it at one value; the free parameters
+    correlated with it then look better known than they are. For each held
+    resistance, capacitance or core-loss conductance, in its linear coordinate
+    (where zero is an ordinary value), the data allow a spread of
+    σ_h = 1/‖(I − P)·j_h‖ (P the projection on the free parameters' columns),
+    capped at HELD_SPREAD_CAP times its distance to the sweeps' own reading; the free parameters
+    shift by G = (JᵀJ)⁺Jᵀ·j_h per unit, so σ_h²·G·Gᵀ is added to their
+    covariance — the Schur-complement form of leaving it free.
+    """
+    jac = res.jac
+    p = jac.shape[1]
+    out = np.zeros((p, p))
+    if p == 0:
+        return out
+    pinv = _pseudo_inverse_normal(jac)
+    base = obj.values(res.x[None, :])[0]
+    r0 = problem.residual_rows(base[None, :])[0]
+    for name, (value, reason) in held.items():
+        if name not in _LINEAR_HOLDS or value is None:
+            continue
+        i = PARAMETER_NAMES.index(name)
+        reading = readings.get(name, value)
+        if name == "Rc_ohm":   # linear in the conductance 1/Rc
+            plausible = abs(1.0 / reading - 1.0 / value)
+            step = max(plausible, 1e-9) * 1e-3
+            row = base.copy()
+            row[i] = 1.0 / (1.0 / value + step)
+        else:
+            plausible = abs(reading - value)
+            step = max(plausible, abs(value), 1e-18) * 1e-3
+            row = base.copy()
+            row[i] = value + step
+        if not plausible > 0:
+            continue
+        j_h = (problem.residual_rows(row[None, :])[0] - r0) / step
+        G = pinv @ (jac.T @ j_h)
+        perp = float(np.sum((j_h - jac @ G) ** 2))
+        spread_sq = min(scale / perp if perp > 0 else math.inf, (HELD_SPREAD_CAP * plausible) ** 2)
+        out += spread_sq * np.outer(G, G)
+    return out
+
+
+def _key_quantities(values: np.ndarray) -> dict:
+    v = dict(zip(PARAMETER_NAMES, values))
+    return {
+        "primary_inductance_H": v["L1_H"], "secondary_inductance_H": v["L2_H"],
+        "leakage_inductance_H": v["L1_H"] * (1.0 - v["k"] ** 2),
+        "effective_turns_ratio": math.sqrt(v["L2_H"] / v["L1_H"]),
+    }
+
+
+def _usable_points(sweeps: list[Sweep]) -> int:
+    """Real residuals the sweeps offer (two per finite complex value)."""
+    return int(sum(2 * np.count_nonzero(np.isfinite(s.measured())) for s in sweeps))
+
+
+def _hold_for_point_count(free: list[str], residuals: int, held: dict) -> None:
+    """Hold parameters (least observable first) until each free one has enough residuals."""
+    allowed = residuals // MIN_RESIDUALS_PER_PARAMETER
+    if allowed < 1:
+        raise FitError(
+            f"too few points to fit: the sweeps give {residuals // 2} complex values, and the fit "
+            f"needs at least {math.ceil(MIN_RESIDUALS_PER_PARAMETER / 2)} per fitted parameter "
+            f"(at least {math.ceil(MIN_RESIDUALS_PER_PARAMETER / 2)} points for the inductance alone)")
+    for name in _HOLD_ORDER:
+        if len(free) <= allowed:
+            break
+        if name in free:
+            free.remove(name)
+            held[name] = (NEUTRAL.get(name), f"too few points: {residuals // 2} complex values carry "
+                          f"{allowed} parameter(s) at {MIN_RESIDUALS_PER_PARAMETER} real residuals each")
 
 
 def fit_sweeps(sweeps: list[Sweep]) -> FitOutcome:
-    """Fit the equivalent circuit to all `sweeps` at once."""
+    """Fit the equivalent circuit to all `sweeps` at once (method in the module docstring)."""
     t0 = time.perf_counter()
     if not sweeps:
         raise FitError("no sweeps to fit")
-    start_values, polarity = estimate_start(sweeps)
-    problem = SweepProblem(sweeps, polarity)
-    stride = max(1, min(s.f_Hz.size for s in sweeps) // COARSE_POINTS)
-    coarse = SweepProblem(sweeps, polarity, stride) if stride > 1 else problem
-    points = sum(m.size for m in problem.measured) * 2
+    for s in sweeps:
+        if not np.all(np.isfinite(s.measured())):
+            raise FitError(f"{s.label or 'a sweep'}: holds values that are not finite numbers")
+    starts, polarity = start_candidates(sweeps)
+    sigma = [error_sigma(s.measured()) for s in sweeps]
+    problem = SweepProblem(sweeps, polarity, sigma=sigma)
+    big = any(s.f_Hz.size > 1.5 * COARSE_POINTS for s in sweeps)
+    coarse = SweepProblem(sweeps, polarity, sigma=sigma, subset=COARSE_POINTS) if big else problem
+    points = problem.size
 
     held: dict[str, tuple[float, str]] = {}
     referred: dict[str, str] = {}
@@ -257,90 +510,195 @@ def fit_sweeps(sweeps: list[Sweep]) -> FitOutcome:
         # its resistance and capacitance come out referred to the seen side; C12 cannot be
         # told from the referred capacitance and is held at zero.
         seen = "L1_H" if own == "L2_H" else "L2_H"
-        start_values[own] = start_values[seen]
-        held[own] = (start_values[own], f"no sweep sees the {winding} winding's inductance")
+        for st in starts:
+            st[own] = st[seen]
+        held[own] = (starts[0][own], f"no sweep sees the {winding} winding's inductance")
         held["C12_F"] = (NEUTRAL["C12_F"], f"needs the {winding} winding's inductance to be referred")
         for name in ref:
             referred[name] = f"referred to the {side} (the turns ratio is not measured)"
-    current = dict(start_values)
+    free = [n for n in PARAMETER_NAMES if n not in held]
+    _hold_for_point_count(free, points, held)
+    for name, (value, reason) in list(held.items()):
+        if value is None:  # an inductance or the coupling, held where the readings put it
+            held[name] = (starts[0][name], reason)
+    fixed = {n: v for n, (v, _) in held.items()}
     total_evals = 0
-    k_starts = [current["k"]]
-    if "k" not in held and not any(s.termination == "short" for s in sweeps if not s.is_two_port):
-        k_starts = sorted({current["k"], 0.95, 0.99, 0.998})
 
-    for _round in range(len(PARAMETER_NAMES)):
-        free = [n for n in PARAMETER_NAMES if n not in held]
-        if len(free) == 0:
-            raise FitError("nothing left to fit: the sweeps determine no parameter")
-        fixed = {n: v for n, (v, _) in held.items()}
-        # first pass on a thinned problem (cheap); several starts get a short budget
-        best = None
-        for k0 in k_starts:
-            trial = dict(current, k=k0) if "k" in free else dict(current)
-            x0 = np.array([to_internal(n, trial[n]) for n in free])
-            res, obj = _solve(coarse, free, fixed, x0, max_nfev=40 if len(k_starts) > 1 else 200)
-            total_evals += obj.evaluations
-            if best is None or res.cost < best[0].cost:
-                best = (res, obj)
-        res, obj = best
-        if len(k_starts) > 1:
-            res, obj = _solve(coarse, free, fixed, res.x)
-            total_evals += obj.evaluations
-        k_starts = [float(to_physical("k", res.x[free.index("k")]))] if "k" in free else k_starts
-        # second pass on every point, each sweep weighted by its own noise level
-        values = obj.values(res.x[None, :])[0]
-        sigma = _sweep_sigma(problem, values)
-        problem.weights = 1.0 / sigma
-        res, obj = _solve(problem, free, fixed, res.x)
-        total_evals += obj.evaluations
+    # Global stage: screen every start by its cost, run the best few to the end on the thinned
+    # problem, keep the lowest cost and record whether the others agree.
+    X0 = np.array([[to_internal(n, st[n]) for n in free] for st in starts])
+    screen = _Objective(coarse, free, fixed)
+    with np.errstate(all="ignore"):
+        costs = 0.5 * np.sum(coarse.residual_rows(screen.values(X0)) ** 2, axis=1)
+    total_evals += len(X0)
+    runs = []
+    for i in np.argsort(costs)[:MAX_STARTS]:
+        res, obj, score, evaluations, weights = _robust_solve(coarse, free, fixed, X0[i], START_BUDGET, 0)
+        total_evals += evaluations
+        runs.append((res, obj, score, weights))
+    # the most promising starts go on, re-weighted against sweeps the model misses
+    for j in sorted(range(len(runs)), key=lambda r: runs[r][2])[:ROBUST_STARTS]:
+        res, obj, score, evaluations, weights = _robust_solve(coarse, free, fixed, runs[j][0].x, START_BUDGET,
+                                                              ROBUST_ROUNDS)
+        total_evals += evaluations
+        runs[j] = (res, obj, score, weights)
+    res, obj, score, weights = min(runs, key=lambda r: r[2])
+    agreement, disagree, spread = _start_agreement(runs, res, obj, coarse)
+    if "Rc_ohm" in free:
+        # The other place the core loss may sit: taken only when the sweeps clearly prefer it.
+        coarse.core_loss = "primary"
+        res2, obj2, score2, evaluations, weights2 = _robust_solve(coarse, free, fixed, res.x, START_BUDGET,
+                                                                  ROBUST_ROUNDS, weights)
+        total_evals += evaluations
+        if score2 < score - PLACEMENT_DELTA_CHI2:
+            res, obj, weights = res2, obj2, weights2
+            problem.core_loss = "primary"
+            referred["Rc_ohm"] = ("across the whole primary inductance: these sweeps show the core loss "
+                                  "outside the leakage, not across the magnetising branch alone")
+        else:
+            coarse.core_loss = "magnetizing"
+
+    # Local stage on every point, then hold what the data do not determine and refit.
+    x = res.x
+    probed: set[str] = set()
+    while True:
+        res, obj, score, evaluations, weights = _robust_solve(problem, free, fixed, x, 200, ROBUST_ROUNDS, weights)
+        total_evals += evaluations
         dof = max(points - len(free), 1)
-        residual_variance = float(2.0 * res.cost / dof)
-        cov = _covariance(res.jac, residual_variance)
-        log_stderr = np.sqrt(np.clip(np.diag(cov), 0, np.inf))
-        for j, n in enumerate(free):
-            current[n] = float(to_physical(n, res.x[j]))
-        lb, ub = zip(*(internal_bounds(n) for n in free))
-        at_edge = [(j, n) for j, n in enumerate(free)
-                   if res.x[j] - lb[j] < 1e-3 or ub[j] - res.x[j] < 1e-3]
-        worst = None
-        for j, n in enumerate(free):
-            if n in ("L1_H", "L2_H"):
-                continue  # inductances with sweeps behind them are always reported
-            edge = (j, n) in at_edge
-            badness = log_stderr[j] if np.isfinite(log_stderr[j]) else np.inf
-            # a parameter at the edge of its range goes first: it can spoil the others' errors
-            rank = (edge, badness)
-            if (edge or badness > UNDETERMINED_LOG_STDERR) and (worst is None or rank > worst[0]):
-                worst = (rank, n, edge)
-        if worst is None:
+        values = obj.values(res.x[None, :])[0]
+        chi2 = 2.0 * _plain_cost(problem, values) / dof
+        weighted_chi2 = float(2.0 * res.cost / dof)
+        cov = _covariance(res.jac, max(1.0, weighted_chi2))
+        name, edge = _worst_undetermined(free, res.x, cov)
+        if name is None:
             break
-        _, name, edge = worst
+        j = free.index(name)
+        if edge and name not in probed:
+            # In log coordinates a value driven towards zero cannot come back (its gradient
+            # vanishes with it): restart it from its reading before calling it too small.
+            probed.add(name)
+            x_try = res.x.copy()
+            x_try[j] = to_internal(name, starts[0][name])
+            res2, obj2, score2, evaluations, weights2 = _robust_solve(problem, free, fixed, x_try, 200,
+                                                                      ROBUST_ROUNDS, weights)
+            total_evals += evaluations
+            if score2 < score - 1e-9 * abs(score):
+                x, weights = res2.x, weights2
+                continue
+        values = obj.values(res.x[None, :])[0]
         reason = ("pressed against the edge of its range: too small (or too large) to show in these sweeps"
                   if edge else "the sweeps do not constrain it")
-        held[name] = (NEUTRAL.get(name, current[name]), reason)
-        current[name] = held[name][0]
+        held[name] = (NEUTRAL.get(name, float(values[PARAMETER_NAMES.index(name)])), reason)
+        fixed[name] = held[name][0]
+        free.pop(j)
+        x = np.delete(res.x, j)
+        if not free:
+            raise FitError("nothing left to fit: the sweeps determine no parameter")
 
+    cov = cov + _smooth_error_covariance(problem, res.jac, res.fun)
+    cov = cov + _held_parameter_covariance(problem, obj, res, held, starts[0], max(1.0, weighted_chi2))
     final_values = obj.values(res.x[None, :])[0]
-    params = _to_params(final_values, polarity)
+    params = _to_params(final_values, polarity, problem.core_loss)
     residuals = problem.complex_residuals(final_values)
+    log.debug("fit: chi2/dof %.3g, %d starts, agreement %.2f", chi2, len(runs), agreement)
     return FitOutcome(
         params=params, free=tuple(free), held=dict(held), referred=dict(referred), x=res.x.copy(),
-        covariance=cov, residual_variance=residual_variance,
-        sweep_sigma=tuple(float(s) for s in sigma), residuals=tuple(residuals),
+        covariance=cov, residual_variance=chi2,
+        sweep_sigma=tuple(float(np.sqrt(np.mean(s ** 2))) for s in sigma), residuals=tuple(residuals),
         converged=bool(res.success), message=str(res.message), evaluations=total_evals,
         points=points, elapsed_s=time.perf_counter() - t0,
+        sweep_error_sigma=tuple(np.asarray(s, float) for s in sigma), reduced_chi2=chi2, dof=dof,
+        starts=len(runs), start_agreement=agreement, starts_disagree=disagree, start_spread=spread,
     )
 
 
-def _sweep_sigma(problem: SweepProblem, values: np.ndarray) -> np.ndarray:
-    sig = []
-    for r in problem.complex_residuals(values):
-        s = float(np.sqrt(np.mean(np.abs(r) ** 2) / 2.0))
-        sig.append(max(s, 1e-9))
-    return np.array(sig)
+def _reweight_sweeps(problem: SweepProblem, values: np.ndarray) -> bool:
+    """Robust sweep weights: each sweep counts as if its noise were max(σ, its misfit).
+
+    This is the maximum-likelihood weighting when each sweep may carry an
+    error of its own beyond the data noise (a model that misses one sweep, a
+    mislabelled termination): a sweep fitted down to its noise keeps weight 1,
+    one missed by a factor m in rms counts 1/m. One bad sweep then cannot drag
+    the parameters the others pin down, and its misfit widens the standard
+    errors of what it touches. The reported χ² stays the one against the data
+    noise. Returns True when the weights changed.
+    """
+    per_sweep = problem.sweep_chi2(values)
+    target = 1.0 / np.sqrt(np.maximum(1.0, per_sweep))
+    if np.allclose(target, problem.sweep_weights, rtol=0.2):
+        return False
+    problem.sweep_weights = target
+    return True
 
 
-def _to_params(values: np.ndarray, polarity: int) -> TransformerParams:
+def _plain_cost(problem: SweepProblem, values: np.ndarray) -> float:
+    """½·χ² against the data noise alone (robust weights left out)."""
+    return 0.5 * float(np.sum(problem.sweep_chi2(values) * [2 * m.size for m in problem.measured]))
+
+
+def _profile_score(problem: SweepProblem, values: np.ndarray) -> float:
+    """−2 log-likelihood with an unknown error scale per sweep (floored at the data noise), up to a constant.
+
+    Compares solutions found under different robust weights on one scale.
+    """
+    per_sweep = problem.sweep_chi2(values)
+    n = np.array([2 * m.size for m in problem.measured], float)
+    return float(np.sum(n * (np.log(np.maximum(per_sweep, 1.0)) + np.minimum(per_sweep, 1.0))))
+
+
+def _robust_solve(problem, free, fixed, x0, max_nfev, rounds, weights=None):
+    """Levenberg–Marquardt from the given sweep weights (default 1), re-weighted (see _reweight_sweeps).
+
+    Returns the solution, its objective, its profile score, the evaluations spent
+    and the sweep weights it ended with.
+    """
+    problem.sweep_weights = np.ones(len(problem.sweeps)) if weights is None else np.array(weights, float)
+    res, obj = _solve(problem, free, fixed, x0, max_nfev=max_nfev)
+    evaluations = obj.evaluations
+    for _ in range(rounds):
+        if not _reweight_sweeps(problem, obj.values(res.x[None, :])[0]):
+            break
+        res, obj = _solve(problem, free, fixed, res.x, max_nfev=max_nfev)
+        evaluations += obj.evaluations
+    score = _profile_score(problem, obj.values(res.x[None, :])[0])
+    return res, obj, score, evaluations, problem.sweep_weights.copy()
+
+
+def _worst_undetermined(free: list[str], x: np.ndarray, cov: np.ndarray) -> tuple[str | None, bool]:
+    """The free parameter to hold next (pressed against its range, else the worst determined)."""
+    log_stderr = np.sqrt(np.clip(np.diag(cov), 0, np.inf))
+    worst = None
+    for j, n in enumerate(free):
+        if n in ("L1_H", "L2_H"):
+            continue  # inductances with sweeps behind them are always reported
+        lo, hi = internal_bounds(n)
+        edge = x[j] - lo < 1e-3 or hi - x[j] < 1e-3
+        badness = log_stderr[j] if np.isfinite(log_stderr[j]) else np.inf
+        rank = (edge, badness)  # a parameter at the edge goes first: it can spoil the others' errors
+        if (edge or badness > UNDETERMINED_LOG_STDERR) and (worst is None or rank > worst[0]):
+            worst = (rank, n, edge)
+    return (None, False) if worst is None else (worst[1], worst[2])
+
+
+def _start_agreement(runs, best_res, best_obj, problem) -> tuple[float, bool, dict]:
+    """Share of starts ending on the chosen solution; whether a competitive one ends elsewhere."""
+    best_values = best_obj.values(best_res.x[None, :])[0]
+    best = _key_quantities(best_values)
+    best_score = _profile_score(problem, best_values)
+    agree, disagree, spread = 0, False, {}
+    for res, obj, score, _ in runs:
+        keys = _key_quantities(obj.values(res.x[None, :])[0])
+        dev = {k: abs(keys[k] / best[k] - 1.0) for k in best}
+        same = all(dev[k] <= AGREEMENT_TOLERANCE[k] for k in dev)
+        agree += same
+        if score - best_score <= COMPETITIVE_DELTA_CHI2:
+            for k, d in dev.items():
+                spread[k] = max(spread.get(k, 0.0), float(d))
+            disagree = disagree or not same
+    return agree / max(len(runs), 1), disagree, spread
+
+
+def _to_params(values: np.ndarray, polarity: int, core_loss: str = "magnetizing") -> TransformerParams:
     d = dict(zip(PARAMETER_NAMES, (float(v) for v in values)))
     d["k"] = min(max(d["k"], 1e-9), 1 - 1e-12)
-    return TransformerParams(**d, polarity=polarity)
+    return TransformerParams(**d, polarity=polarity, core_loss=core_loss)

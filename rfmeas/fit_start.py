@@ -29,6 +29,15 @@ def inductance_at_low_frequency(f_Hz, z_ohm) -> float | None:
     return float(np.median(x)) if x.size else None
 
 
+def parallel_inductance_at_low_frequency(f_Hz, z_ohm) -> float | None:
+    """Median of −1/(ω·Im(1/Z)) over the lowest points: a winding loaded in parallel."""
+    band = _low_band(f_Hz, fraction=0.05, minimum=5)
+    with np.errstate(all="ignore"):
+        x = -1.0 / (2 * np.pi * f_Hz[band] * np.imag(1.0 / z_ohm[band]))
+    x = x[np.isfinite(x) & (x > 0)]
+    return float(np.median(x)) if x.size else None
+
+
 def first_resonance_Hz(f_Hz, z_ohm) -> float | None:
     """Frequency where the reactance first turns from inductive to capacitive (parallel resonance)."""
     x = np.imag(z_ohm)
@@ -56,8 +65,58 @@ def shunt_conductance_S(f_Hz, z_ohm, resonance_Hz) -> float | None:
     return g if g > 0 else None
 
 
-def estimate_start(sweeps: list[Sweep]) -> tuple[dict, int]:
-    """Start values for every circuit parameter, and the winding polarity (+1 / -1)."""
+def _below_resonance(f_Hz, z_ohm, fraction=0.5):
+    """Points below `fraction` of the first parallel resonance (all points when there is none)."""
+    fr = first_resonance_Hz(f_Hz, z_ohm)
+    return f_Hz < (fraction * fr if fr else np.inf)
+
+
+def band_fit_LC(f_Hz, z_ohm, z0_ohm, short: bool = False) -> tuple[float | None, float | None]:
+    """(L, C) of a winding read off its inductive band by a weighted straight-line fit.
+
+    Open winding: ω·Im(Y) = −1/L + ω²·C (L in parallel with C). Shorted winding,
+    a small L in series: Im(Z)/ω = L + ω²·L²·C. Each point is weighted by how well
+    a `z0_ohm` reflection resolves it (|1 + Γ|² for admittance, |1 − Γ|² for
+    impedance), so the poorly resolved ends of a sweep do not pull the estimate.
+    """
+    ok = np.isfinite(z_ohm) & (f_Hz > 0) & _below_resonance(f_Hz, z_ohm)
+    if not short:
+        # where the core loss (or a load) takes over from the inductance, the parallel L-C
+        # reading no longer holds: keep the points whose susceptance is thrice the conductance
+        with np.errstate(all="ignore"):
+            y = 1.0 / z_ohm
+        inductive = ok & (-np.imag(y) > 3.0 * np.real(y))
+        ok = inductive if np.count_nonzero(inductive) >= 3 else ok
+    f, z = f_Hz[ok], z_ohm[ok]
+    if f.size < 3:
+        return None, None
+    w = 2 * np.pi * f
+    gamma = (z - z0_ohm) / (z + z0_ohm)
+    if short:
+        q = np.imag(z) / w
+        sigma = np.abs(1 - gamma) ** -2 / w
+    else:
+        q = w * np.imag(1.0 / z)
+        sigma = w * np.abs(1 + gamma) ** -2
+    A = np.stack([np.ones_like(w), w ** 2], axis=1) / sigma[:, None]
+    col = np.linalg.norm(A, axis=0)
+    if not np.all(col > 0):
+        return None, None
+    coef, *_ = np.linalg.lstsq(A / col, q / sigma, rcond=None)
+    coef = coef / col
+    if short:
+        L = coef[0]
+        C = coef[1] / L ** 2 if L > 0 else None
+    else:
+        L = -1.0 / coef[0] if coef[0] < 0 else None
+        C = coef[1]
+    L = float(L) if L is not None and L > 0 and math.isfinite(L) else None
+    C = float(C) if L is not None and C is not None and C > 0 and math.isfinite(C) else None
+    return L, C
+
+
+def _readings(sweeps: list[Sweep]) -> tuple[dict, int]:
+    """Every textbook reading the sweeps offer (lists per key), and the winding polarity."""
     est: dict[str, list[float]] = {}
 
     def add(key, value):
@@ -71,6 +130,7 @@ def estimate_start(sweeps: list[Sweep]) -> tuple[dict, int]:
         s = sweep.measured()
         z = impedance_from_reflection(s[:, 0], z0) if sweep.is_two_port else sweep.impedance_ohm()
         side = "1" if sweep.port1 == "primary" else "2"
+        other = "2" if side == "1" else "1"
         if sweep.is_two_port:
             s21 = s[:, 1]
             i = int(np.argmax(np.abs(s21)))
@@ -79,27 +139,31 @@ def estimate_start(sweeps: list[Sweep]) -> tuple[dict, int]:
             g = float(np.real(s[i, 0]))
             g = min(max(g, -0.999), 0.999)
             n_sq = (1.0 - g) / (1.0 + g) * (sweep.z0_ohm[1] / z0)
-            y_low = 1.0 / z[:3]
-            l_port1 = float(np.median(-1.0 / (2 * np.pi * f[:3] * np.imag(y_low))))
-            if l_port1 > 0:
-                add(f"L{side}", l_port1)
-                other = "2" if side == "1" else "1"
-                add(f"L{other}", l_port1 * (n_sq if side == "1" else 1.0 / n_sq))
+            add(f"nsq_thru{side}", n_sq)
+            # low band: the winding's inductance in parallel with the other port's load
+            l_port1 = parallel_inductance_at_low_frequency(f, z)
+            if l_port1:
+                add(f"Lthru{side}", l_port1)
+                add(f"Lthru{other}", l_port1 * (n_sq if side == "1" else 1.0 / n_sq))
             continue
         if sweep.termination == "open":
-            l_open = inductance_at_low_frequency(f, z)
+            l_open, c_open = band_fit_LC(f, z, z0)
+            if l_open is None:
+                l_open = inductance_at_low_frequency(f, z)
             add(f"L{side}", l_open)
             fr = first_resonance_Hz(f, z)
             if l_open:
-                c_total = 1.0 / ((2 * np.pi * (fr or 2 * f[-1])) ** 2 * l_open)
-                add(f"Ctot{side}", c_total)
+                c_res = 1.0 / ((2 * np.pi * fr) ** 2 * l_open) if fr else None
+                add(f"Ctot{side}", c_res or c_open or 1.0 / ((2 * np.pi * 2 * f[-1]) ** 2 * l_open))
                 g = shunt_conductance_S(f, z, fr)
                 if g:
                     add(f"Rc{side}", 1.0 / g)
                 w0 = 2 * np.pi * f[0]
                 add(f"R{side}", float(np.real(z[0])) - (w0 * l_open) ** 2 * (g or 0.0))
         elif sweep.termination == "short":
-            add(f"Lsc{side}", inductance_at_low_frequency(f, z))
+            l_sc, c_sc = band_fit_LC(f, z, z0, short=True)
+            add(f"Lsc{side}", l_sc or inductance_at_low_frequency(f, z))
+            add(f"Csc{side}", c_sc)
             add(f"Rsc{side}", float(np.real(z[0])))
         else:  # resistive load R on the other winding: mid-band 1/Zin ≈ n'²/R
             r_load = float(sweep.termination)
@@ -107,15 +171,45 @@ def estimate_start(sweeps: list[Sweep]) -> tuple[dict, int]:
             g = shunt_conductance_S(f, z, fr)
             if g:
                 add(f"nsq{side}", g * r_load)
+            l_in, _ = band_fit_LC(f, z, z0)
+            add(f"Lload{side}", l_in)
+    return est, polarity
+
+
+def estimate_start(sweeps: list[Sweep]) -> tuple[dict, int]:
+    """Start values for every circuit parameter, and the winding polarity (+1 / -1)."""
+    starts, polarity = start_candidates(sweeps)
+    return starts[0], polarity
+
+
+CAPACITANCE_SPLITS = ((1 / 3, 1 / 3, 1 / 3), (0.8, 0.1, 0.1), (0.1, 0.8, 0.1), (0.1, 0.1, 0.8))
+"""Shares of the open-circuit capacitance given to C1, n²·C2 and (n ∓ 1)²·C12 by the starts."""
+COUPLING_STARTS = (0.9, 0.99, 0.999)
+"""Extra couplings tried when no shorted sweep gives k directly."""
+
+
+def start_candidates(sweeps: list[Sweep]) -> tuple[list[dict], int]:
+    """Start points for the fit (best reading first), and the winding polarity.
+
+    The readings pin L1, L2 and (with a shorted sweep) k; what the open sweeps
+    cannot split — the capacitance C1 + n²·C2 + (n ∓ 1)²·C12 referred to the
+    primary, and the coupling when nothing is shorted — is spread over several
+    starts, from which the fit keeps the one that ends with the lowest cost.
+    """
+    est, polarity = _readings(sweeps)
 
     def pick(key, default=None):
         values = est.get(key)
         return float(np.median(values)) if values else default
 
-    L1 = pick("L1")
-    L2 = pick("L2")
+    L1 = pick("L1") or pick("Lthru1")
+    L2 = pick("L2") or pick("Lthru2")
     if L1 is None and L2 is None:
-        L1 = L2 = 1e-6
+        L1 = L2 = pick("Lload1") or pick("Lload2") or 1e-6
+    if pick("L1") and not pick("L2") and pick("nsq_thru1"):
+        L2 = L1 * pick("nsq_thru1")
+    if pick("L2") and not pick("L1") and pick("nsq_thru2"):
+        L1 = L2 * pick("nsq_thru2")
     if L1 is not None and L2 is None:
         nsq = pick("nsq1")
         L2 = L1 * nsq if nsq else L1
@@ -127,6 +221,7 @@ def estimate_start(sweeps: list[Sweep]) -> tuple[dict, int]:
         k = math.sqrt(max(1e-6, 1.0 - min(pick("Lsc1") / L1, 0.999)))
     elif pick("Lsc2"):
         k = math.sqrt(max(1e-6, 1.0 - min(pick("Lsc2") / L2, 0.999)))
+    k_known = k is not None
     k = min(max(k if k is not None else 0.99, 0.2), 1 - 1e-5)
 
     n = math.sqrt(L2 / L1)
@@ -140,17 +235,22 @@ def estimate_start(sweeps: list[Sweep]) -> tuple[dict, int]:
         R2 = pick("R2") or R1 * n  # copper grows with the turns (common practice)
     Rc = pick("Rc1") or pick("Rc2", 1e5) * L1 / L2
     # The open sweeps see one total capacitance, C1 + n²·C2 + (n ∓ 1)²·C12 referred to the
-    # primary, whatever the split: start from three equal capacitances that give that total.
+    # primary, whatever the split.
     f_max = max(float(s.f_Hz[-1]) for s in sweeps)
-    c_referred = [c for c in (pick("Ctot1"), pick("Ctot2") and pick("Ctot2") / n ** 2) if c]
+    c_referred = [c for c in (pick("Ctot1"), pick("Ctot2") and pick("Ctot2") * n ** 2) if c]
     c_total = float(np.median(c_referred)) if c_referred else 1.0 / ((2 * np.pi * 2 * f_max) ** 2 * L1)
-    c_each = c_total / (1.0 + n ** 2 + (n - polarity) ** 2)
-    start = {
+    base = {
         "L1_H": L1, "L2_H": L2, "k": k,
         "R1_ohm": max(R1, 1e-3), "R2_ohm": max(R2, 1e-3), "Rc_ohm": min(max(Rc, 10.0), 1e8),
-        "C1_F": c_each, "C2_F": c_each, "C12_F": c_each,
     }
-    return start, polarity
+    weights = (1.0, n ** 2, max((n - polarity) ** 2, 0.25))
+    starts = []
+    for split in CAPACITANCE_SPLITS:
+        c1, c2, c12 = (share * c_total / wgt for share, wgt in zip(split, weights))
+        starts.append(dict(base, C1_F=c1, C2_F=c2, C12_F=c12))
+    if not k_known:
+        starts += [dict(st, k=kk) for kk in COUPLING_STARTS for st in starts]
+    return starts, polarity
 
 
 def sweeps_that_see(sweeps: list[Sweep], winding: str) -> bool:

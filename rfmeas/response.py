@@ -33,7 +33,8 @@ _ROOT_XTOL = 1e-13  # in log10(f): far below the finite-difference steps of the 
 
 
 def _y(params: TransformerParams, f_Hz):
-    return y_elements(np.asarray(f_Hz, dtype=float), *params.values(), polarity=params.polarity)
+    return y_elements(np.asarray(f_Hz, dtype=float), *params.values(), polarity=params.polarity,
+                      core_loss=params.core_loss)
 
 
 def transducer_gain_dB(params: TransformerParams, f_Hz, source_ohm: float, load_ohm: float) -> np.ndarray:

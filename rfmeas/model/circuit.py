@@ -23,12 +23,21 @@ OPEN = 0.0
 SHORT = np.inf
 
 
-def y_elements(f_Hz, L1_H, L2_H, k, R1_ohm, R2_ohm, Rc_ohm, C1_F, C2_F, C12_F, polarity=1):
+CORE_LOSS_PLACEMENTS = ("magnetizing", "primary")
+"""Where Rc sits: across the magnetising branch Lm (the design's model), or across the whole
+primary inductance L1 (between the inner end of R1 and ground, outside the leakage)."""
+
+
+def y_elements(f_Hz, L1_H, L2_H, k, R1_ohm, R2_ohm, Rc_ohm, C1_F, C2_F, C12_F, polarity=1,
+               core_loss="magnetizing"):
     """Two-port admittance matrix elements (y11, y12, y22) at the primary (1) and secondary (2).
 
     The network is reciprocal, so y21 = y12. `polarity` -1 reverses the
-    secondary winding (M < 0).
+    secondary winding (M < 0). `core_loss` is one of CORE_LOSS_PLACEMENTS.
     """
+    if core_loss == "primary":
+        return _y_elements_loss_across_primary(f_Hz, L1_H, L2_H, k, R1_ohm, R2_ohm, Rc_ohm,
+                                               C1_F, C2_F, C12_F, polarity)
     jw = 2j * np.pi * np.asarray(f_Hz, dtype=float)
     turns_ratio_sq = L2_H / L1_H
     turns_ratio = np.sqrt(turns_ratio_sq)
@@ -47,8 +56,33 @@ def y_elements(f_Hz, L1_H, L2_H, k, R1_ohm, R2_ohm, Rc_ohm, C1_F, C2_F, C12_F, p
     return y11, y12, y22
 
 
+def _y_elements_loss_across_primary(f_Hz, L1_H, L2_H, k, R1_ohm, R2_ohm, Rc_ohm, C1_F, C2_F, C12_F,
+                                    polarity=1):
+    """y_elements with Rc across the whole primary inductance of the coupled pair.
+
+    Coupled inductors (Z = jω[[L1, M], [M, L2]]), Rc from the inner primary
+    node to ground, R1 and R2 in series outside, C1, C2, C12 at the terminals.
+    """
+    jw = 2j * np.pi * np.asarray(f_Hz, dtype=float)
+    m = polarity * k * np.sqrt(L1_H * L2_H)
+    det = jw * jw * L1_H * L2_H * (1.0 - k * k)
+    # inverse of the inductance matrix, plus the core-loss conductance on the primary node
+    a11 = jw * L2_H / det + 1.0 / Rc_ohm
+    a12 = -jw * m / det
+    a22 = jw * L1_H / det
+    dy = a11 * a22 - a12 * a12
+    z11 = a22 / dy + R1_ohm
+    z22 = a11 / dy + R2_ohm
+    z12 = -a12 / dy
+    dz = z11 * z22 - z12 * z12
+    y11 = z22 / dz + jw * (C1_F + C12_F)
+    y22 = z11 / dz + jw * (C2_F + C12_F)
+    y12 = -z12 / dz - jw * C12_F
+    return y11, y12, y22
+
+
 def _params_tuple(params: TransformerParams):
-    return params.values() + (params.polarity,)
+    return params.values() + (params.polarity, params.core_loss)
 
 
 def admittance_matrix(params: TransformerParams, f_Hz) -> np.ndarray:

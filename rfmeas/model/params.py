@@ -31,6 +31,9 @@ class TransformerParams:
     polarity     +1 when the secondary's hot terminal is in phase with the primary's
                  (dotted ends both hot), -1 for an inverting connection; not fitted,
                  decided from the data
+    core_loss    where Rc sits: "magnetizing" (across Lm, the usual model) or
+                 "primary" (across the whole primary inductance, outside the leakage);
+                 the fit takes the second only when the sweeps show the need
     """
 
     L1_H: float
@@ -43,6 +46,7 @@ class TransformerParams:
     C2_F: float = 0.0
     C12_F: float = 0.0
     polarity: int = 1
+    core_loss: str = "magnetizing"
 
     def __post_init__(self):
         if not (self.L1_H > 0 and self.L2_H > 0):
@@ -54,6 +58,8 @@ class TransformerParams:
                 raise ValueError(f"{name} must not be negative")
         if self.polarity not in (1, -1):
             raise ValueError("polarity must be +1 or -1")
+        if self.core_loss not in ("magnetizing", "primary"):
+            raise ValueError("core_loss must be 'magnetizing' or 'primary'")
         if not self.Rc_ohm > 0:
             raise ValueError("Rc_ohm must be positive (math.inf for a lossless core)")
 
@@ -95,4 +101,5 @@ class TransformerParams:
     def to_dict(self) -> dict:
         data = {name: float(getattr(self, name)) for name in PARAMETER_NAMES}
         data["polarity"] = int(self.polarity)
+        data["core_loss"] = self.core_loss
         return data
