@@ -63,9 +63,10 @@ from .units import format_engineering as eng
 log = logging.getLogger(__name__)
 
 TRUST_RELATIVE_UNCERTAINTY = 0.10   # trustworthy: the error model resolves µ to 10 %
-PLATEAU_RELATIVE_UNCERTAINTY = 0.25  # a plateau point: µ' resolved to 25 % (the median does the rest)
+PLATEAU_RELATIVE_UNCERTAINTY = 0.10  # a plateau point: µ' resolved to 10 % by the error model
 PLATEAU_MIN_IMPEDANCE_OHM = 0.5     # below this a small VNA's R and X are not to be trusted (common practice)
 PLATEAU_LOSS_RATIO = 0.10           # µ'' ≪ µ': µ''/µ' below this
+PLATEAU_MAX_RELATIVE_UNCERTAINTY = 0.05  # a plateau resolved worse than this is only shown beside the model
 PLATEAU_FLATNESS = 0.03             # µ' may change by at most 3 % across the plateau band
 PLATEAU_MIN_POINTS = 3
 POINTS_PER_DECADE = 50.0            # the fit's grid: at most this many points per decade
@@ -235,6 +236,7 @@ class CoreAnalysis:
     initial_permeability_source: str
     plateau_points: int
     plateau_band_Hz: tuple[float, float] | None
+    rough_plateau: dict | None
     model: DispersionFit
     leads: LeadEstimate
     loss_peak: LossPeak
@@ -254,6 +256,7 @@ class CoreAnalysis:
     other_windings: tuple[dict, ...] = ()
     warnings: tuple[str, ...] = ()
     source: dict = field(default_factory=dict)
+    lcr: object | None = None
 
     @property
     def relaxation_frequency_Hz(self) -> float | None:
@@ -268,6 +271,21 @@ class CoreAnalysis:
     def inductance_factor_H_per_turn2(self) -> float:
         """A_L = µ0·µi/C1 from the headline µi."""
         return air_core_inductance_H(1, self.geometry) * self.initial_permeability
+
+    def _material_permeability(self):
+        """For an open core (a rod) the material's µi from the apparent one, else None."""
+        nd = getattr(self.geometry, "demagnetising_factor", None)
+        if nd is None:
+            return None
+        from .magnetics.geometry import material_permeability
+
+        with np.errstate(all="ignore"):
+            value = complex(material_permeability(self.initial_permeability, nd)).real
+        ok = np.isfinite(value) and value > 0 and self.initial_permeability * nd < 0.9
+        return {"value": float(value) if ok else None, "demagnetising_factor": float(nd),
+                "note": "an open core shows the apparent µ; the material's µ follows from Nd of the prolate "
+                        "spheroid of the same length/diameter: an estimate" if ok else
+                        "the apparent µ is too close to 1/Nd to give the material's µ"}
 
     def model_permeability(self, f_Hz) -> np.ndarray:
         """µ' − jµ'' of the fitted dispersion model."""
@@ -295,6 +313,8 @@ class CoreAnalysis:
                    "source": self.initial_permeability_source, "plateau_points": int(self.plateau_points),
                    "plateau_band_Hz": None if self.plateau_band_Hz is None else
                    [float(self.plateau_band_Hz[0]), float(self.plateau_band_Hz[1])]}
+        if self.initial_permeability_source != "plateau":
+            initial["rough_plateau"] = self.rough_plateau
         model = self.model.to_dict()
         material = None if self.material_class is None else self.material_class.to_dict()
         return {
@@ -337,6 +357,8 @@ class CoreAnalysis:
                     "error_model": self.errors.to_dict(),
                     "trust_relative_uncertainty": TRUST_RELATIVE_UNCERTAINTY},
             "other_windings": [dict(w) for w in self.other_windings],
+            "lcr_readings": None if self.lcr is None else self.lcr.to_dict(),
+            "material_permeability": self._material_permeability(),
             "method_advice": self.method_advice,
             "source": dict(self.source),
             "warnings": list(self.warnings),
@@ -502,11 +524,18 @@ def _summarise(trial: _Trial, fixed_ls, comparison, reason) -> DispersionFit:
             stderr.append(None)
         else:
             stderr.append(values[i] * float(se[i]))
-    rs_se = float(se[k])
+    def circuit_se(i, unit):
+        # a circuit value pinned at its lower bound (0) or resolved worse than itself: no stderr
+        value, err = float(trial.theta[i]), float(se[i])
+        if value - trial.lower[i] < 1e-6 * max(1.0, abs(value)) or not (err < max(abs(value), 1e-30)):
+            return None
+        return err * unit
+
+    rs_se = circuit_se(k, 1.0)
     if fixed_ls is None:
-        ls_se, cw_se = float(se[k + 1]) * _NH, float(se[k + 2]) * _PF
+        ls_se, cw_se = circuit_se(k + 1, _NH), circuit_se(k + 2, _PF)
     else:
-        ls_se, cw_se = None, float(se[k + 1]) * _PF
+        ls_se, cw_se = None, circuit_se(k + 1, _PF)
     misfit = math.sqrt(trial.chi2 / trial.n)
     # µ(0) = 1 + Σ exp(θ_χ): first-order propagation through the covariance of the log parameters
     grad = np.zeros(trial.theta.size)
@@ -579,8 +608,17 @@ def leads_from_short(f_Hz, impedance_ohm, errors: VnaErrorModel = DEFAULT_VNA_ER
     weights = (w[ok] / sigma[ok]) ** 2
     ll, ll_se = _robust_level(l_f, weights, f[ok])
     rl, rl_se = _robust_level(z.real[ok], 1.0 / sigma[ok] ** 2, f[ok])
+    # the VNA error on a few-ohm reactance swamps a lead resistance of tens of milliohms
+    rl, rl_se, r_note = _resolved_resistance(rl, math.hypot(rl_se, float(np.median(sigma[ok])) / math.sqrt(2)))
     return LeadEstimate(ll, ll_se, rl, rl_se, "shorted leads", True, (float(f[ok][0]), float(f[ok][-1])),
-                        "Rl + jω·Ll read from the shorted leads where the VNA resolves them")
+                        "Rl + jω·Ll read from the shorted leads where the VNA resolves them" + r_note)
+
+
+def _resolved_resistance(rl, rl_se):
+    """(Rl, its stderr, a note): Rl is taken as 0 (not determined) when it is not 2 stderr from 0."""
+    if not (abs(rl) > 2 * rl_se):
+        return 0.0, None, f"; the lead resistance is not resolved ({rl:.3g} ± {rl_se:.2g} Ω) and is taken as 0"
+    return rl, rl_se, ""
 
 
 def _on_grid(f_target, f, z):
@@ -670,13 +708,23 @@ def leads_from_turns(windings, errors: VnaErrorModel = DEFAULT_VNA_ERRORS, z0_oh
     cov = (vt[good].T / s[good] ** 2) @ vt[good] * max(1.0, chi2 / dof)
     se = np.sqrt(np.abs(np.diag(cov)))
     ll, ll_se = float(best.x[0]) * _NH, float(se[0]) * _NH
-    rl, rl_se = float(best.x[1]), float(se[1])
+    # The VNA's errors are systematic and do not average down over frequency: the lead is known
+    # no better than the best single frequencies resolve it (10th percentile of the per-frequency
+    # standard error of a from the error model alone).
+    wt = np.where(valid, 1.0 / sig**2, 0.0)
+    s0, s1, s2 = wt.sum(0), (wt * x).sum(0), (wt * x * x).sum(0)
+    with np.errstate(all="ignore"):
+        sigma_l = np.sqrt(0.5 * s2 / (s0 * s2 - s1**2)) / w_rad
+    sigma_l = sigma_l[np.isfinite(sigma_l)]
+    if sigma_l.size:
+        ll_se = math.hypot(ll_se, float(np.percentile(sigma_l, 10)))
+    rl, rl_se, r_note = _resolved_resistance(float(best.x[1]), float(se[1]))
     at_bound = best.x[0] < 1e-3
     determined = bool(not at_bound and (ll_se < 0.3 * ll or ll_se < 1 * _NH))
     counts = ", ".join(str(int(t)) for t in sorted(set(turns.tolist())))
     return LeadEstimate(ll, ll_se, rl, rl_se, "turn counts", determined, (float(f[0]), float(f[-1])),
                         f"the part of Z that does not scale with N², from windings of {counts} turns "
-                        f"(misfit {math.sqrt(chi2 / max(1, dof)):.2f}× the error model)")
+                        f"(misfit {math.sqrt(chi2 / max(1, dof)):.2f}× the error model)" + r_note)
 
 
 # ---------------------------------------------------------------- the analysis
@@ -753,6 +801,12 @@ def _plateau(f, z, mu, real_se, resolution, below_srf):
             scatter = 1.4826 * float(np.median(np.abs(values - level))) / math.sqrt(n)
             systematic = float(np.median(real_se[sl]))  # the VNA's errors do not average down
             return level, math.hypot(scatter, systematic), first, last
+        # not flat: drop the poorly resolved low end if it is much worse than the rest (the
+        # VNA's error grows as |Z| falls), else the top half of the band (dispersion sets in)
+        if real_se[first] > 2 * float(np.median(real_se[sl])):
+            new_first = int(np.searchsorted(f, 1.25 * f[first], side="left"))
+            first = new_first if new_first > first else first + 1
+            continue
         mid = math.sqrt(f[first] * f[last])
         new_last = int(np.searchsorted(f, mid, side="right") - 1)
         last = new_last if new_last < last else last - 1
@@ -858,7 +912,7 @@ def analyze_core(f_Hz, impedance_ohm, turns: int, geometry: CoreGeometry, z0_ohm
     f, z = _clean_input(f_Hz, impedance_ohm, warnings)
     sigma = errors.sigma_impedance(z, z0_ohm, method)
     known = leads is not None and leads.determined and leads.source != "single sweep"
-    z_fit = z - (leads.resistance_ohm if known else 0.0)
+    z_fit = z - (max(leads.resistance_ohm, 0.0) if known else 0.0)
     fit = fit_dispersion(f, z_fit, sigma, int(turns), geometry, leads.inductance_H if known else None)
     if known:
         fit = replace(fit, lead_inductance_stderr_H=leads.inductance_stderr_H)
@@ -886,11 +940,22 @@ def analyze_core(f_Hz, impedance_ohm, turns: int, geometry: CoreGeometry, z0_ohm
     srf = float(grid[cross[0]]) if cross.size else math.inf
 
     plateau = _plateau(f, z_fit, mu, real_se, resolution, srf_ratio < 0.1)
+    rough_plateau = None
+    if plateau is not None and plateau[1] > PLATEAU_MAX_RELATIVE_UNCERTAINTY * plateau[0]:
+        # a plateau the VNA resolves only roughly (few ohms): the model, fitted where the
+        # resolution is better, is the better estimate; the rough plateau is kept beside it
+        rough_plateau = {"value": float(plateau[0]), "stderr": float(plateau[1]),
+                         "band_Hz": [float(f[plateau[2]]), float(f[plateau[3]])],
+                         "note": "the data's plateau, resolved only roughly by the VNA here"}
+        plateau = None
     if plateau is not None:
         mu_i, mu_i_se, first, last = plateau
         source, plateau_points, plateau_band = "plateau", last - first + 1, (float(f[first]), float(f[last]))
     else:
         mu_i, mu_i_se = fit.static_permeability, fit.static_permeability_stderr
+        if mu_i_se is not None and known and leads.inductance_stderr_H:
+            # a lead inductance held at a measured value moves µ(0) one for one: δµ = δLl/L0
+            mu_i_se = math.hypot(mu_i_se, leads.inductance_stderr_H / air_core_inductance_H(int(turns), geometry))
         source, plateau_points, plateau_band = "model extrapolation", 0, None
         warnings.append("the data hold no flat, low-loss, well-resolved plateau of µ' at the low end; the initial "
                         "permeability is the dispersion model's extrapolation to f → 0: sweep lower or wind "
@@ -933,7 +998,7 @@ def analyze_core(f_Hz, impedance_ohm, turns: int, geometry: CoreGeometry, z0_ohm
     return CoreAnalysis(
         turns=int(turns), geometry=geometry, method=method, z0_ohm=float(z0_ohm),
         initial_permeability=float(mu_i), initial_permeability_stderr=mu_i_se, initial_permeability_source=source,
-        plateau_points=int(plateau_points), plateau_band_Hz=plateau_band, model=fit, leads=lead, loss_peak=peak,
+        plateau_points=int(plateau_points), plateau_band_Hz=plateau_band, rough_plateau=rough_plateau, model=fit, leads=lead, loss_peak=peak,
         self_resonance_Hz=srf, f_Hz=f, mu_real=mu.real.copy(), mu_imag=-mu.imag, mu_real_stderr=real_se,
         mu_imag_stderr=imag_se, trustworthy=trust, trustworthy_band_Hz=band, loss_factor=loss, errors=errors,
         points=int(f.size), material_class=material, method_advice=advice.to_dict(), warnings=tuple(warnings))
@@ -978,12 +1043,104 @@ def analyze_core_windings(windings, geometry: CoreGeometry, z0_ohm: float = 50.0
 
     order = sorted(range(len(results)), key=lambda i: rank(results[i]))
     head = results[order[0]]
+    if head.loss_peak.source != "data":
+        # the µ'' peak from the winding whose trustworthy band holds it (fewer turns resonate higher)
+        seen = [results[i] for i in order if results[i].loss_peak.source == "data"]
+        if seen:
+            peak = seen[0].loss_peak
+            peak = replace(peak, note=f"{peak.note} (of the {seen[0].turns}-turn winding)")
+            material = head.material_class
+            if materials is not None:
+                material = _match(materials, head.initial_permeability, head.initial_permeability_stderr, peak,
+                                  dc_resistance, head.model.poor)
+            head = replace(head, loss_peak=peak, material_class=material,
+                           warnings=tuple(w for w in head.warnings if "self-resonates below the loss peak" not in w))
     others = tuple(_winding_summary(results[i], labels[i]) for i in order[1:])
     extra = []
     if leads is not None and not leads.determined:
         extra.append(f"the lead impedance could not be separated: {leads.note}")
     return replace(head, other_windings=others, warnings=tuple(extra) + head.warnings,
                    source={**head.source, "winding": labels[order[0]]})
+
+
+# ---------------------------------------------------------------- LCR readings
+
+LCR_RELATIVE_UNCERTAINTY = 0.01   # a bench LCR meter's basic accuracy on L, about 1 % (from memory)
+
+
+@dataclass(frozen=True, eq=False)
+class ReadingsAnalysis:
+    """µ', µ'' and A_L at each LCR reading of one winding (leads removed when known).
+
+    initial_permeability  the median µ' of the low-loss readings (µ''/µ' < 0.1) at the lowest
+                          frequencies that agree within 3 %; None when no reading is low-loss
+    """
+
+    turns: int
+    geometry: CoreGeometry
+    f_Hz: np.ndarray
+    mu_real: np.ndarray
+    mu_imag: np.ndarray
+    inductance_factor_H_per_turn2: np.ndarray
+    initial_permeability: float | None
+    initial_permeability_stderr: float | None
+    readings_used: int
+    leads: LeadEstimate
+    form: str
+    path: str
+    warnings: tuple[str, ...] = ()
+
+    def to_dict(self) -> dict:
+        return {"turns": int(self.turns), "core": self.geometry.to_dict(), "form": self.form, "file": self.path,
+                "initial_permeability": {**_estimate(self.initial_permeability, self.initial_permeability_stderr),
+                                         "source": "LCR readings", "readings_used": int(self.readings_used)},
+                "readings": [{"frequency_Hz": float(f), "mu_real": float(mr), "mu_imag": float(mi),
+                              "inductance_factor_nH_per_turn2": float(al / _NH)}
+                             for f, mr, mi, al in zip(self.f_Hz, self.mu_real, self.mu_imag,
+                                                      self.inductance_factor_H_per_turn2)],
+                "leads": self.leads.to_dict(), "warnings": list(self.warnings)}
+
+
+def analyze_readings(f_Hz, impedance_ohm, turns: int, geometry: CoreGeometry, leads: LeadEstimate | None = None,
+                     form: str = "", path: str = "") -> ReadingsAnalysis:
+    """µ = (Z − Rl − jω·Ll)/(jω·L0) at each reading; A_L = Ls/N² with the leads removed."""
+    if isinstance(turns, bool) or not isinstance(turns, (int, np.integer)) or turns <= 0:
+        raise InputError(f"turns must be a positive whole number, not {turns!r}", path or None)
+    f = np.asarray(f_Hz, dtype=float)
+    z = np.asarray(impedance_ohm, dtype=complex)
+    lead = leads if leads is not None else NO_LEADS
+    warnings = []
+    if leads is None or not leads.determined:
+        warnings.append("the test leads' inductance is part of these readings (no lead measurement given)")
+    mu = permeability_from_impedance(f, z, turns, geometry, lead.resistance_ohm, lead.inductance_H)
+    l0 = air_core_inductance_H(turns, geometry)
+    al = mu.real * l0 / turns**2
+    low_loss = np.flatnonzero((-mu.imag < PLATEAU_LOSS_RATIO * mu.real) & (mu.real > 0))
+    value = se = None
+    used = 0
+    if low_loss.size:
+        base = mu.real[low_loss[0]]
+        agree = low_loss[np.abs(mu.real[low_loss] / base - 1) <= PLATEAU_FLATNESS]
+        value = float(np.median(mu.real[agree]))
+        used = int(agree.size)
+        scatter = 1.4826 * float(np.median(np.abs(mu.real[agree] - value))) / math.sqrt(used)
+        lead_part = (lead.inductance_stderr_H or 0.0) / l0
+        se = math.sqrt(scatter**2 + (LCR_RELATIVE_UNCERTAINTY * value) ** 2 + lead_part**2)
+    else:
+        warnings.append("no reading has µ'' ≪ µ': the readings lie above the core's low-frequency plateau")
+    return ReadingsAnalysis(int(turns), geometry, f, mu.real.copy(), -mu.imag, al, value, se, used, lead, form,
+                            path, tuple(warnings))
+
+
+def analyze_readings_file(path, turns: int, geometry: CoreGeometry, leads: LeadEstimate | None = None
+                          ) -> ReadingsAnalysis:
+    """`analyze_readings` on a CSV or TOML file of LCR readings (rfmeas.io.readings)."""
+    from .io.readings import load_readings
+
+    readings = load_readings(path)
+    result = analyze_readings(readings.f_Hz, readings.impedance_ohm, turns, geometry, leads, readings.form,
+                              str(path))
+    return replace(result, warnings=tuple(readings.warnings) + result.warnings)
 
 
 # ---------------------------------------------------------------- I/O wrapper
@@ -1219,7 +1376,7 @@ def _pick_sweep(mset, path):
                      "and more than one sweep to choose from", path)
 
 
-__all__ = ["CoreAnalysis", "DispersionFit", "LeadEstimate", "LossPeak", "LossPoint", "MODELS", "analyze_core",
+__all__ = ["ReadingsAnalysis", "analyze_readings", "analyze_readings_file", "CoreAnalysis", "DispersionFit", "LeadEstimate", "LossPeak", "LossPoint", "MODELS", "analyze_core",
            "analyze_core_file", "analyze_core_windings", "fit_dispersion", "given_leads", "leads_from_short",
            "leads_from_turns", "load_core_set", "permeability_from_impedance", "winding_impedance",
            "VnaErrorModel", "RESONANCE", "RELAXATION", "SUM"]
