@@ -4,16 +4,23 @@ The table ships as rfmeas/data/materials.toml; users extend it with their own
 TOML file of the same layout (`--materials FILE` or RFMEAS_MATERIALS). The
 match never names a brand: a class is a family and a typical permeability.
 
-Matching. For each class the distance is the root sum of squares of
+Matching uses three things together: the plateau µi, the frequency of the µ″
+peak and the DC-resistance hint. For each class the distance is the root sum
+of squares of
 
     d_µ  = |ln µi − c_µ| / (h_µ + tol_µ)      (c, h: centre and half-width of the
-    d_fr = |ln fr − c_f| / (h_f + tol_f)       class range in ln units)
-    d_S  = same for the Snoek product (µi − 1)·fr, when the family has one
+    d_fp = |ln fp − c_f| / (h_f + tol_f)       class range in ln units)
+    d_S  = same for the Snoek product (µi − 1)·fp, when the family has one
 
-where tol is a factor of 1.5 (µi), 2 (fr, Snoek) widened by the measurement's
-own relative uncertainty. A DC-resistance hint that contradicts the class
-adds RESISTIVITY_PENALTY. Scores exp(−d²/2) normalised over all classes give
-the confidence number; the words follow the best class's distance.
+where tol is a factor of 1.5 (µi), 2 (fp, Snoek) widened by the measurement's
+own relative uncertainty. When the peak is not inside the sweep only a bound
+is known (above the top, or below the bottom): d_fp and d_S are then the
+distance to the nearest value the bound allows. A DC-resistance hint that
+contradicts the class adds RESISTIVITY_PENALTY. Scores exp(−d²/2) normalised
+over all classes give the confidence number; the words follow the best
+class's distance, and are capped (never "likely") when the fit is poor, the
+peak is not seen, the hint contradicts the class, or a class of the other
+resistivity is nearly as near and no hint was given.
 """
 
 from __future__ import annotations
@@ -37,20 +44,22 @@ _TOL_MU = math.log(1.5)
 _TOL_FR = math.log(2.0)
 _TOL_SNOEK = math.log(2.0)
 _CLASS_KEYS = {"id": True, "name": True, "family": True, "initial_permeability": True,
-               "relaxation_frequency_Hz": True, "resistivity": True, "source": True, "notes": False}
+               "peak_frequency_Hz": False, "relaxation_frequency_Hz": False, "resistivity": True, "source": True,
+               "notes": False}
+_OLD_PEAK_KEY = "relaxation_frequency_Hz"  # the earlier spelling of peak_frequency_Hz, still read
 _FAMILY_KEYS = {"snoek_product_Hz": True, "source": True}
 _ID = re.compile(r"[A-Za-z0-9_-]+")
 
 
 @dataclass(frozen=True)
 class MaterialClass:
-    """One generic class: typical ranges of µi and relaxation frequency, resistivity, family."""
+    """One generic class: typical ranges of µi and of the µ″ peak frequency, resistivity, family."""
 
     id: str
     name: str
     family: str
     initial_permeability: tuple[float, float]
-    relaxation_frequency_Hz: tuple[float, float]
+    peak_frequency_Hz: tuple[float, float]
     resistivity: str
     source: str
     notes: str = ""
@@ -59,7 +68,7 @@ class MaterialClass:
     def to_dict(self) -> dict:
         return {"id": self.id, "name": self.name, "family": self.family,
                 "initial_permeability": list(self.initial_permeability),
-                "relaxation_frequency_Hz": list(self.relaxation_frequency_Hz),
+                "peak_frequency_Hz": list(self.peak_frequency_Hz),
                 "resistivity": self.resistivity, "source": self.source, "notes": self.notes,
                 "origin": self.origin}
 
@@ -104,7 +113,13 @@ class Candidate:
 
 @dataclass(frozen=True)
 class MaterialMatch:
-    """The nearest class, up to three alternatives and how sure the match is."""
+    """The nearest class, up to three alternatives and how sure the match is.
+
+    confidence_level  "likely" | "possible" | "poor match" | "not determined"
+    peak_evidence     how the µ″ peak entered: "measured", "above the sweep",
+                      "below the sweep" or "not known"
+    limits            why the level was held below what the distances allow
+    """
 
     best: Candidate
     alternatives: tuple[Candidate, ...]
@@ -112,11 +127,16 @@ class MaterialMatch:
     confidence: float
     dc_resistance: str | None
     explanation: str
+    peak_evidence: str = "measured"
+    limits: tuple[str, ...] = ()
+    fit_is_poor: bool = False
 
     def to_dict(self) -> dict:
         return {"best": self.best.to_dict(), "alternatives": [a.to_dict() for a in self.alternatives],
                 "confidence": {"level": self.confidence_level, "value": float(self.confidence)},
                 "dc_resistance_hint": self.dc_resistance, "explanation": self.explanation,
+                "peak_evidence": self.peak_evidence, "limits": list(self.limits),
+                "fit_is_poor": self.fit_is_poor,
                 "note": "a generic class of material, not a brand or a catalogue material"}
 
 
@@ -137,6 +157,16 @@ def _text(table, key, where, path) -> str:
     if not isinstance(value, str):
         raise InputError(f"{where}.{key} must be a string", path)
     return value
+
+
+def _peak_range(table, where, path) -> tuple[float, float]:
+    given = [key for key in ("peak_frequency_Hz", _OLD_PEAK_KEY) if key in table]
+    if not given:
+        raise InputError(f"{where} needs 'peak_frequency_Hz'", path)
+    if len(given) == 2:
+        raise InputError(f"{where} gives both peak_frequency_Hz and {_OLD_PEAK_KEY} (its older name): keep one",
+                         path)
+    return _range(table[given[0]], given[0], where, path)
 
 
 def parse_materials(text: str, path, origin: str) -> tuple[list[MaterialClass], dict]:
@@ -172,8 +202,7 @@ def parse_materials(text: str, path, origin: str) -> tuple[list[MaterialClass], 
         classes.append(MaterialClass(
             id=ident, name=_text(table, "name", where, path), family=_text(table, "family", where, path),
             initial_permeability=_range(table["initial_permeability"], "initial_permeability", where, path),
-            relaxation_frequency_Hz=_range(table["relaxation_frequency_Hz"], "relaxation_frequency_Hz",
-                                           where, path),
+            peak_frequency_Hz=_peak_range(table, where, path),
             resistivity=resistivity, source=_text(table, "source", where, path),
             notes=_text(table, "notes", where, path), origin=origin))
     ids = [c.id for c in classes]
@@ -220,10 +249,27 @@ def load_materials(extra_file=None, use_environment: bool = True) -> MaterialTab
 
 # ---------------------------------------------------------------- matching
 
-def _log_distance(value: float, rng: tuple[float, float], tolerance: float) -> float:
-    centre = 0.5 * (math.log(rng[0]) + math.log(rng[1]))
-    half = 0.5 * (math.log(rng[1]) - math.log(rng[0]))
-    return abs(math.log(value) - centre) / (half + tolerance)
+LEVELS = ("likely", "possible", "poor match", "not determined")
+_CAPPED_CONFIDENCE = 0.5
+
+
+def _centre_half(rng: tuple[float, float]) -> tuple[float, float]:
+    return 0.5 * (math.log(rng[0]) + math.log(rng[1])), 0.5 * (math.log(rng[1]) - math.log(rng[0]))
+
+
+def _log_distance(value: float, rng: tuple[float, float], tolerance: float, bound: str | None = None) -> float:
+    """Distance of ln(value) from the class range, in units of its half-width plus tolerance.
+
+    bound "above": only value < true is known (the true one lies above `value`); "below": the
+    reverse. The distance is then that of the nearest value the bound allows.
+    """
+    centre, half = _centre_half(rng)
+    offset = math.log(value) - centre
+    if bound == "above":
+        offset = max(offset, 0.0)
+    elif bound == "below":
+        offset = min(offset, 0.0)
+    return abs(offset) / (half + tolerance)
 
 
 def _relative(stderr, value) -> float:
@@ -232,32 +278,67 @@ def _relative(stderr, value) -> float:
     return min(stderr / value, 3.0)
 
 
+def _optional_positive(name: str, value) -> float | None:
+    if value is None:
+        return None
+    if isinstance(value, bool) or not isinstance(value, (int, float)) or not math.isfinite(value) or value <= 0:
+        raise InputError(f"a material match needs {name} positive and finite, not {value!r}")
+    return float(value)
+
+
+def _peak_evidence(peak_Hz, bottom_Hz, top_Hz) -> tuple[str, float | None, str | None]:
+    """(evidence, frequency used, bound) for the µ″ peak against the sweep's span."""
+    if peak_Hz is None:
+        return ("above the sweep", top_Hz, "above") if top_Hz is not None else ("not known", None, None)
+    if top_Hz is not None and peak_Hz > top_Hz:
+        return "above the sweep", top_Hz, "above"
+    if bottom_Hz is not None and peak_Hz < bottom_Hz:
+        return "below the sweep", bottom_Hz, "below"
+    return "measured", peak_Hz, None
+
+
 def match_material(table: MaterialTable, mu_initial: float, mu_initial_stderr: float | None,
-                   relaxation_frequency_Hz: float, relaxation_frequency_stderr_Hz: float | None,
-                   dc_resistance: str | None = None) -> MaterialMatch:
-    """Rank the table's classes by distance from the measured µi, fr and Snoek product."""
+                   peak_frequency_Hz: float | None, peak_frequency_stderr_Hz: float | None,
+                   dc_resistance: str | None = None, fit_is_poor: bool = False,
+                   sweep_top_Hz: float | None = None, sweep_bottom_Hz: float | None = None) -> MaterialMatch:
+    """Rank the table's classes by distance from the measured plateau µi, µ″ peak and Snoek product.
+
+    `peak_frequency_Hz` None means no peak inside the sweep: with `sweep_top_Hz`
+    the peak is taken to lie above the sweep's top; without it the peak is not
+    used at all. A peak outside [sweep_bottom_Hz, sweep_top_Hz] is a model's
+    extrapolation and enters only as that bound; a peak below the sweep also
+    means the µi plateau was not seen, and then no class is named
+    ("not determined"). `fit_is_poor` and a contradicting or missing DC hint
+    hold the level at "possible" at best, and the reasons are in `limits`.
+    """
     if dc_resistance is not None and dc_resistance not in RESISTIVITY:
         raise InputError(f"DC-resistance hint must be one of {', '.join(RESISTIVITY)}, not {dc_resistance!r}")
     if not table.classes:
         raise InputError("the material table has no classes")
-    if not (mu_initial > 0 and relaxation_frequency_Hz > 0):
-        raise InputError("a material match needs a positive permeability and relaxation frequency")
+    mu_initial = _optional_positive("the initial permeability", mu_initial)
+    if mu_initial is None:
+        raise InputError("a material match needs the initial permeability")
+    peak = _optional_positive("the µ″ peak frequency", peak_frequency_Hz)
+    top = _optional_positive("the sweep's top frequency", sweep_top_Hz)
+    bottom = _optional_positive("the sweep's bottom frequency", sweep_bottom_Hz)
+    evidence, f_used, bound = _peak_evidence(peak, bottom, top)
     rel_mu = _relative(mu_initial_stderr, mu_initial)
-    rel_fr = _relative(relaxation_frequency_stderr_Hz, relaxation_frequency_Hz)
+    rel_fr = _relative(peak_frequency_stderr_Hz, peak) if evidence == "measured" else 0.0
     tol_mu = math.hypot(_TOL_MU, rel_mu)
     tol_fr = math.hypot(_TOL_FR, rel_fr)
     tol_snoek = math.hypot(_TOL_SNOEK, rel_mu, rel_fr)
-    snoek = max(mu_initial - 1.0, 1e-6) * relaxation_frequency_Hz
+    snoek = None if f_used is None else max(mu_initial - 1.0, 1e-6) * f_used
     candidates = []
     for c in table.classes:
         d_mu = _log_distance(mu_initial, c.initial_permeability, tol_mu)
-        d_fr = _log_distance(relaxation_frequency_Hz, c.relaxation_frequency_Hz, tol_fr)
+        d_fr = None if f_used is None else _log_distance(f_used, c.peak_frequency_Hz, tol_fr, bound)
         family = table.families.get(c.family)
-        d_snoek = None if family is None else _log_distance(snoek, family.snoek_product_Hz, tol_snoek)
+        d_snoek = (None if family is None or snoek is None
+                   else _log_distance(snoek, family.snoek_product_Hz, tol_snoek, bound))
         penalty = RESISTIVITY_PENALTY if dc_resistance not in (None, c.resistivity) else 0.0
-        distance = math.sqrt(d_mu**2 + d_fr**2 + (d_snoek or 0.0) ** 2) + penalty
+        distance = math.sqrt(d_mu**2 + (d_fr or 0.0) ** 2 + (d_snoek or 0.0) ** 2) + penalty
         candidates.append(Candidate(c, distance, math.exp(-0.5 * distance**2),
-                                    {"permeability": d_mu, "relaxation_frequency": d_fr, "snoek": d_snoek,
+                                    {"permeability": d_mu, "peak_frequency": d_fr, "snoek": d_snoek,
                                      "resistivity_penalty": penalty}))
     candidates.sort(key=lambda k: k.distance)
     total = sum(k.score for k in candidates)
@@ -269,12 +350,57 @@ def match_material(table: MaterialTable, mu_initial: float, mu_initial_stderr: f
         level = "possible"
     else:
         level = "poor match"
+    limits = _limits(best, candidates, evidence, dc_resistance, fit_is_poor)
+    if evidence == "below the sweep":
+        level = "not determined"
+    elif limits and level == "likely":
+        level = "possible"
+    if limits:
+        confidence = min(confidence, _CAPPED_CONFIDENCE)
+    return MaterialMatch(best, tuple(candidates[1:4]), level, confidence, dc_resistance,
+                         _explain(level, mu_initial, evidence, f_used, snoek, dc_resistance, limits),
+                         evidence, tuple(limits), bool(fit_is_poor))
+
+
+def _limits(best: Candidate, candidates, evidence: str, dc_resistance, fit_is_poor: bool) -> list[str]:
+    """Why the words must stay below "likely" (empty when nothing holds them back)."""
+    limits = []
+    if fit_is_poor:
+        limits.append("the fit is poor (its misfit is far above the measurement's error), so µi and the µ″ "
+                      "peak it gives may be wrong")
+    if evidence == "below the sweep":
+        limits.append("the µ″ peak lies below the sweep, so the sweep never shows the µi plateau: µi is an "
+                      "extrapolation, not a measurement; sweep lower or wind more turns")
+    elif evidence == "not known":
+        limits.append("no µ″ peak inside the sweep and no sweep limit given, so only µi was compared")
+    if dc_resistance is not None and best.material.resistivity != dc_resistance:
+        limits.append(f"the nearest class is {best.material.resistivity} but the core measured {dc_resistance}")
+    if dc_resistance is None:
+        other = next((k for k in candidates[1:] if k.material.resistivity != best.material.resistivity), None)
+        if other is not None and other.distance <= best.distance + 1.0:
+            limits.append(f"{other.material.name} ({other.material.resistivity}) is nearly as near; an ohmmeter "
+                          "across the bare core tells them apart (--dc-resistance)")
+    return limits
+
+
+def _explain(level, mu_initial, evidence, f_used, snoek, dc_resistance, limits) -> str:
     words = {"likely": "the measured core lies within the class's typical ranges and clearly nearer it than "
                        "any other class",
-             "possible": "the core is near this class, but close to others too or outside its typical ranges",
-             "poor match": "no class in the table is near; extend the table with your own classes"}[level]
-    explanation = (f"µi {mu_initial:.4g}, fr {relaxation_frequency_Hz:.3g} Hz, (µi − 1)·fr {snoek:.3g} Hz: "
-                   f"{words}")
+             "possible": "the core is near this class, but close to others too, outside its typical ranges, "
+                         "or the evidence is incomplete",
+             "poor match": "no class in the table is near; extend the table with your own classes",
+             "not determined": "no class is named"}[level]
+    if evidence == "measured":
+        peak = f"µ″ peak {f_used:.3g} Hz, (µi − 1)·fp {snoek:.3g} Hz"
+    elif evidence == "above the sweep":
+        peak = f"µ″ peak above the sweep's top ({f_used:.3g} Hz), (µi − 1)·fp above {snoek:.3g} Hz"
+    elif evidence == "below the sweep":
+        peak = f"µ″ peak below the sweep's bottom ({f_used:.3g} Hz)"
+    else:
+        peak = "µ″ peak not known"
+    text = f"µi {mu_initial:.4g}, {peak}: {words}"
     if dc_resistance is not None:
-        explanation += f"; DC-resistance hint '{dc_resistance}' applied"
-    return MaterialMatch(best, tuple(candidates[1:4]), level, confidence, dc_resistance, explanation)
+        text += f"; DC-resistance hint '{dc_resistance}' applied"
+    if limits:
+        text += "; held back because " + "; ".join(limits)
+    return text

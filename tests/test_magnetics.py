@@ -239,9 +239,10 @@ def test_two_hole_worked_example():
     assert g.effective_area_m2 / MM**2 == pytest.approx((c1_half / 2) / (c2_half / 4), rel=1e-6)
     # bounds by hand, from rings inside and around a half's section (a ring's C1 = 2π/(ℓ·ln(r2/r1))):
     # the ring to the nearest side (r2 = 3 mm) has less section, the ring to the far corner
-    # (r2 = √(4² + 4²) = 5.657 mm) more: 2π/(12·ln(5.657/2)) = 0.5036 ≤ C1_half ≤ 2π/(12·ln 1.5) = 1.2914 mm⁻¹
+    # (r2 = √(4² + 4²) = 5.657 mm) more:
+    # 2π/(12·ln(5.657/2)) = 0.5036 ≤ C1_half ≤ 2π/(12·ln 1.5) = 1.2914 mm⁻¹
     assert 0.5036 / 2 < g.core_constant_per_m * MM < 1.2914 / 2
-    assert g.core_constant_per_m * MM == pytest.approx(0.3818, abs=5e-4)  # the value these checks pin down
+    assert g.core_constant_per_m * MM == pytest.approx(0.3818, abs=5e-4)  # the quadrature's value, quoted in README
     # A_L = µ0·µ/C1 (IEC 60205): µ = 100 gives 1.2566e-6·100/381.8 = 329 nH per turn²
     assert inductance_from_permeability(100.0, 1, g) * 1e9 == pytest.approx(329.1, abs=0.5)
     # a two-dimensional field solution of the same half block: the sector sum allows a little
@@ -270,6 +271,8 @@ def test_square_section_lies_between_its_inscribed_and_circumscribed_rings():
     assert c1 < 2 * math.pi / math.log(2.0)
     assert c1 > 2 * math.pi / math.log(2.0 * math.sqrt(2))
     assert c2 < 2 * math.pi * (1 - 1 / 2.0) / math.log(2.0) ** 3
+    with pytest.raises(InputError):
+        hole_in_rectangle_constants((2.0, 0.9, 2.0, 2.0), 1.0, 1.0)  # the hole breaks through a side
 
 
 @pytest.mark.parametrize("table, words", [

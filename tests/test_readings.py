@@ -90,6 +90,16 @@ def test_magnitude_and_phase(tmp_path):
     assert r.impedance_ohm[0] == pytest.approx(5 + 8.660254038j, rel=1e-9)
 
 
+def test_readings_as_a_one_port_network(tmp_path):
+    # S11 = (Z − Z0)/(Z + Z0) (standard circuit texts): Z = 50 + j50 Ω against 50 Ω gives
+    # j50/(100 + j50) = j50·(100 − j50)/12500 = 0.2 + 0.4j.
+    r = load_readings(write(tmp_path, "net.csv", "frequency_Hz, Rs_ohm, Xs_ohm\n1e6, 50, 50\n2e6, 50, 0\n"))
+    network = r.to_network()
+    np.testing.assert_allclose(network.s[:, 0, 0], [0.2 + 0.4j, 0.0], atol=1e-12)
+    np.testing.assert_array_equal(network.f, [1e6, 2e6])
+    assert r.to_dict()["series_resistance_ohm"] == [50.0, 50.0]
+
+
 def test_resistance_and_reactance(tmp_path):
     r = load_readings(write(tmp_path, "rx.csv", "frequency_Hz, Rs_ohm, Xs_ohm\n# a comment\n\n1e6, 2, 30\n"))
     assert r.form == "Rs_Xs" and r.impedance_ohm[0] == 2 + 30j
@@ -135,6 +145,13 @@ def test_round_trip_every_form(tmp_path, form):
     np.testing.assert_array_equal(r.f_Hz, f)
     np.testing.assert_allclose(r.impedance_ohm, z, rtol=1e-10)
     assert format_readings_csv(f, z, form) == path.read_text()
+
+
+def test_writer_refuses_a_form_that_cannot_hold_the_impedance():
+    # a pure resistance has no parallel inductance (Lp = ∞) and Q = 0
+    with pytest.raises(InputError, match="Lp_Rp"):
+        format_readings_csv([1e6], [50 + 0j], "Lp_Rp")
+    assert format_readings_csv([1e6], [50 + 0j], "Rs_Xs").splitlines()[1] == "1000000.0, 50.0, 0.0"
 
 
 # ------------------------------------------------------------------ malformed files
@@ -241,3 +258,55 @@ def test_files_that_are_not_readings(tmp_path):
         load_readings(binary)
     with pytest.raises(InputError, match=r"\.csv"):
         load_readings(write(tmp_path, "r.s1p", "frequency_Hz, Ls_H, Rs_ohm\n1e6, 1e-6, 1\n"))
+
+
+# ------------------------------------------------------------------ any text at all
+
+from hypothesis import HealthCheck, given, settings  # noqa: E402
+from hypothesis import strategies as st  # noqa: E402
+
+CELLS = st.one_of(st.sampled_from(["1e6", "10k", "2.2u", "-1", "0", "nan", "", "1e400", "3 kHz", "x", "90",
+                                   "200", "1M", "°", "1e-300"]),
+                  st.floats(allow_nan=True, allow_infinity=True).map(repr), st.text(max_size=6))
+HEADS = st.sampled_from(["frequency_Hz", "frequency_kHz", "Ls_H", "Ls_uH", "Rs_ohm", "Lp_H", "Rp_kohm", "L_H",
+                         "Q", "Z_ohm", "theta_deg", "Xs_ohm", "|Z|_ohm", "Cs_F", "", "freq"])
+
+
+@settings(max_examples=300, deadline=2000, suppress_health_check=[HealthCheck.function_scoped_fixture])
+@given(st.lists(HEADS, min_size=1, max_size=4), st.lists(st.lists(CELLS, min_size=1, max_size=4), max_size=5),
+       st.sampled_from([",", ";", "\t"]))
+def test_any_csv_gives_readings_or_an_input_error(tmp_path, heads, rows, separator):
+    text = separator.join(heads) + "\n" + "".join(separator.join(r) + "\n" for r in rows)
+    path = tmp_path / "fuzz.csv"
+    path.write_text(text, encoding="utf-8")
+    try:
+        r = load_readings(path)
+    except InputError as exc:
+        assert "fuzz.csv" in str(exc)
+        return
+    assert np.all(np.diff(r.f_Hz) > 0) and np.all(r.f_Hz > 0)
+    assert np.all(np.isfinite(r.impedance_ohm)) and r.form in FORMS
+
+
+@settings(max_examples=200, deadline=2000, suppress_health_check=[HealthCheck.function_scoped_fixture])
+@given(st.dictionaries(st.sampled_from(["frequency_Hz", "Ls_H", "Rs_ohm", "Z_ohm", "theta_deg", "form", "Q"]),
+                       st.one_of(st.floats(allow_nan=True), st.text(max_size=5), st.booleans(),
+                                 st.sampled_from(["Ls_Rs", "Z_theta", "10k"])), max_size=5),
+       st.integers(1, 3))
+def test_any_toml_gives_readings_or_an_input_error(tmp_path, reading, copies):
+    import json
+
+    def value(v):
+        if isinstance(v, float) and not math.isfinite(v):
+            return "nan" if math.isnan(v) else ("inf" if v > 0 else "-inf")
+        return json.dumps(v) if isinstance(v, (str, bool)) else repr(v)
+
+    body = "".join(f"{k} = {value(v)}\n" for k, v in reading.items())
+    path = tmp_path / "fuzz.toml"
+    path.write_text("".join("[[reading]]\n" + body for _ in range(copies)), encoding="utf-8")
+    try:
+        r = load_readings(path)
+    except InputError as exc:
+        assert "fuzz.toml" in str(exc)
+        return
+    assert copies == 1 and r.f_Hz.size == 1 and np.all(np.isfinite(r.impedance_ohm))

@@ -97,6 +97,14 @@ class LcrReadings:
     def series_resistance_ohm(self) -> np.ndarray:
         return self.impedance_ohm.real
 
+    def to_network(self, z0_ohm: float = 50.0):
+        """The readings as a one-port scikit-rf Network (S11 against `z0_ohm`), for code that takes sweeps."""
+        import skrf as rf
+
+        frequency = rf.Frequency.from_f(self.f_Hz, unit="Hz")
+        return rf.Network.from_z(self.impedance_ohm[:, None, None], frequency=frequency, z0=z0_ohm,
+                                 name=Path(self.path).stem)
+
     def to_dict(self) -> dict:
         return {"path": self.path, "form": self.form, "frequency_Hz": self.f_Hz.tolist(),
                 "series_resistance_ohm": self.series_resistance_ohm.tolist(),
@@ -203,6 +211,17 @@ def _number(raw, column: _Column, where: str, path) -> float:
     return value * scale
 
 
+def _form_of_columns(columns: list, where: str, path) -> str:
+    """The form of a header's (or a reading's) columns: a frequency and the two quantities of one form."""
+    quantities = [c.quantity for c in columns]
+    repeated = sorted({q for q in quantities if quantities.count(q) > 1})
+    if repeated:
+        raise InputError(f"{where}: {', '.join(repeated)} given twice", path)
+    if "frequency" not in quantities:
+        raise InputError(f"{where}: frequency_Hz is missing (every reading needs its frequency)", path)
+    return _form_of([q for q in quantities if q != "frequency"], where, path)
+
+
 def _form_of(quantities, where: str, path) -> str:
     """The form given by a set of quantities (without the frequency)."""
     wanted = set(quantities)
@@ -279,19 +298,10 @@ def _parse_csv(text: str, path) -> tuple[list, str, list]:
         where = f"line {number}"
         if header is None:
             delimiter = "," if "," in stripped else (";" if ";" in stripped else ("\t" if "\t" in stripped else ","))
-            names = _split_row(stripped, delimiter)
-            columns = [_column(name, where, path) for name in names]
-            quantities = [c.quantity for c in columns]
-            repeated = sorted({q for q in quantities if quantities.count(q) > 1})
-            if repeated:
-                raise InputError(f"{where}: column for {', '.join(repeated)} given twice", path)
-            if "frequency" not in quantities:
-                raise InputError(f"{where}: the header needs a frequency column (frequency_Hz)", path)
-            form = _form_of([q for q in quantities if q != "frequency"], where, path)
-            index = {q: i for i, q in enumerate(quantities)}
-            header = (delimiter, columns, form, index)
+            columns = [_column(name, where, path) for name in _split_row(stripped, delimiter)]
+            header = (delimiter, columns, _form_of_columns(columns, where, path))
             continue
-        delimiter, columns, form, index = header
+        delimiter, columns, form = header
         cells = _split_row(stripped, delimiter)
         if len(cells) != len(columns):
             raise InputError(f"{where}: {len(cells)} values, but the header names {len(columns)} columns", path)
@@ -336,17 +346,11 @@ def _parse_toml(text: str, path) -> tuple[list, str, list]:
         if own is not None and own not in FORMS:
             raise InputError(f"{where}: form {own!r} is not known (use one of {', '.join(FORMS)})", path)
         columns = {key: _column(key, where, path) for key in entry if key != "form"}
-        quantities = [c.quantity for c in columns.values()]
-        repeated = sorted({q for q in quantities if quantities.count(q) > 1})
-        if repeated:
-            raise InputError(f"{where}: {', '.join(repeated)} given twice", path)
-        if "frequency" not in quantities:
-            raise InputError(f"{where}: frequency_Hz is missing", path)
-        given = _form_of([q for q in quantities if q != "frequency"], where, path)
+        given = _form_of_columns(list(columns.values()), where, path)
         expected = own or declared
         if expected is not None and given != expected:
             raise InputError(f"{where}: declared form {expected} needs {' and '.join(FORMS[expected])}, "
-                             f"the reading gives {', '.join(sorted(set(quantities) - {'frequency'}))}", path)
+                             f"the reading gives {' and '.join(FORMS[given])}", path)
         forms.append((expected is not None, given, where))
         values = {c.quantity: _number(entry[key], c, where, path) for key, c in columns.items()}
         first, second = FORMS[given]
@@ -397,7 +401,11 @@ def format_readings_csv(f_Hz, impedance_ohm, form: str = "Ls_Rs") -> str:
     if form not in FORMS:
         raise InputError(f"form {form!r} is not known (use one of {', '.join(FORMS)})")
     f = np.asarray(f_Hz, dtype=float)
-    a, b = form_values(form, f, impedance_ohm)
+    with np.errstate(divide="ignore", invalid="ignore"):
+        a, b = form_values(form, f, impedance_ohm)
+    if not (np.all(np.isfinite(a)) and np.all(np.isfinite(b))):
+        raise InputError(f"these impedances cannot be written as {form} (a zero resistance or reactance); "
+                         "use Rs_Xs or Z_theta")
     first, second = FORMS[form]
     names = ["frequency_Hz"] + [f"{q}_{_BASE_UNIT[q]}" if _BASE_UNIT[q] else q for q in (first, second)]
     lines = [", ".join(names)] + [f"{fi!r}, {ai!r}, {bi!r}" for fi, ai, bi in

@@ -147,6 +147,9 @@ def hole_in_rectangle_constants(edge_distances_m, hole_radius_m: float, length_m
     """
     d_left, d_right, d_bottom, d_top = (float(d) for d in edge_distances_m)
     r1 = float(hole_radius_m)
+    if not (r1 > 0 and min(d_left, d_right, d_bottom, d_top) > r1 and length_m > 0):
+        raise InputError("a hole in a rectangle needs every side farther from its centre than its radius, "
+                         "and a positive length")
     corners = [math.atan2(d_top, d_right), math.pi - math.atan2(d_top, d_left),
                math.pi + math.atan2(d_bottom, d_left), 2 * math.pi - math.atan2(d_bottom, d_right)]
     # between consecutive corner directions the ray leaves through one side, whose normal
