@@ -870,23 +870,13 @@ def _loss_points(f, mu_real, mu_imag, real_se, imag_se, trust, mu_i, fit, freque
     return tuple(out)
 
 
-def _match(materials, mu_i, mu_i_se, peak: LossPeak, dc_resistance, poor: bool):
-    """The material match, with the fit's quality passed on (a poor fit names no class with confidence)."""
-    import inspect
-
+def _match(materials, mu_i, mu_i_se, peak: LossPeak, dc_resistance, poor: bool, f_lo: float, f_hi: float):
+    """The material match from the headline µi, the µ'' peak (None when not inside the sweep: then it
+    lies above or below it) and the DC hint; a poor fit names no class with confidence."""
     from .materials import match_material
 
-    parameters = inspect.signature(match_material).parameters
-    if "fit_is_poor" in parameters:
-        return match_material(materials, mu_i, mu_i_se, peak.frequency_Hz, None, dc_resistance, fit_is_poor=poor)
-    if peak.frequency_Hz is None:
-        return None
-    match = match_material(materials, mu_i, mu_i_se, peak.frequency_Hz, None, dc_resistance)
-    if poor and match.confidence_level != "poor match":
-        match = replace(match, confidence_level="poor match",
-                        explanation=match.explanation + "; the dispersion fit is poor, so no class is named "
-                                                        "with confidence")
-    return match
+    return match_material(materials, mu_i, mu_i_se, peak.frequency_Hz, None, dc_resistance, fit_is_poor=poor,
+                          sweep_top_Hz=f_hi, sweep_bottom_Hz=f_lo)
 
 
 def analyze_core(f_Hz, impedance_ohm, turns: int, geometry: CoreGeometry, z0_ohm: float = 50.0,
@@ -991,9 +981,7 @@ def analyze_core(f_Hz, impedance_ohm, turns: int, geometry: CoreGeometry, z0_ohm
 
     material = None
     if materials is not None:
-        material = _match(materials, mu_i, mu_i_se, peak, dc_resistance, fit.poor)
-        if material is None:
-            warnings.append("no material class: the µ'' peak is not inside the sweep")
+        material = _match(materials, mu_i, mu_i_se, peak, dc_resistance, fit.poor, float(f[0]), float(f[-1]))
 
     return CoreAnalysis(
         turns=int(turns), geometry=geometry, method=method, z0_ohm=float(z0_ohm),
@@ -1052,7 +1040,7 @@ def analyze_core_windings(windings, geometry: CoreGeometry, z0_ohm: float = 50.0
             material = head.material_class
             if materials is not None:
                 material = _match(materials, head.initial_permeability, head.initial_permeability_stderr, peak,
-                                  dc_resistance, head.model.poor)
+                                  dc_resistance, head.model.poor, float(head.f_Hz[0]), float(head.f_Hz[-1]))
             head = replace(head, loss_peak=peak, material_class=material,
                            warnings=tuple(w for w in head.warnings if "self-resonates below the loss peak" not in w))
     others = tuple(_winding_summary(results[i], labels[i]) for i in order[1:])

@@ -296,3 +296,23 @@ def test_cli_errors_are_one_line(pair_files, tmp_path):
     assert result.exit_code == 2 and "colour" in result.output
     result = CliRunner().invoke(app, ["core", str(p1), "--turns", "1", "--toroid", size, "--directivity", "3"])
     assert result.exit_code == 2
+
+
+def test_cli_lcr_readings_alone(tmp_path):
+    # Ls/Rs readings of the 8-turn winding written by the readings writer, read back by `core`
+    from rfmeas.io.readings import write_readings
+
+    f = np.array([10e3, 100e3, 1e6])
+    z = winding_z(f, CORE, 8, Leads(0.0, 0.0), 2e-12, copper_ohm_per_turn=0.0)
+    path = tmp_path / "lcr.csv"
+    write_readings(path, f, z, "Ls_Rs")
+    size = f"{CORE.od_mm},{CORE.id_mm},{CORE.h_mm}"
+    result = CliRunner().invoke(app, ["core", "--readings", str(path), "--turns", "8", "--toroid", size, "--json"])
+    assert result.exit_code == 0, result.output
+    doc = json.loads(result.stdout)
+    assert doc["initial_permeability"]["value"] == pytest.approx(CORE.mu_i, rel=0.01)
+    # A_L = µ0·µ'/C1 (IEC 60205 with the ring's C1 written out in tests/reference/core_sweeps.py)
+    al = doc["readings"][0]["inductance_factor_nH_per_turn2"] * 1e-9
+    assert al == pytest.approx(MU0 * CORE.mu(f[:1]).real[0] / CORE.c1_per_m, rel=1e-3)
+    result = CliRunner().invoke(app, ["core", "--readings", str(path), "--toroid", size])
+    assert result.exit_code == 2 and "turns" in result.output

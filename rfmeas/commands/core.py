@@ -147,6 +147,8 @@ def render_core(analysis, console=None) -> None:
     if match is not None:
         console.print(f"Material class: [bold]{escape(match.best.material.name)}[/] — {match.confidence_level} "
                       f"(confidence {match.confidence:.2f}). {match.explanation}.")
+        for limit in getattr(match, "limits", ()):
+            console.print(f"  held back: {escape(limit)}")
         if match.alternatives:
             console.print("Alternatives: " + "; ".join(
                 f"{a.material.name} (distance {a.distance:.2f})" for a in match.alternatives))
