@@ -63,6 +63,7 @@ from .units import format_engineering as eng
 log = logging.getLogger(__name__)
 
 TRUST_RELATIVE_UNCERTAINTY = 0.10   # trustworthy: the error model resolves µ to 10 %
+ROUGH_RELATIVE_UNCERTAINTY = 0.30   # a model's µ'' peak is given only where the data resolve µ to 30 %
 PLATEAU_RELATIVE_UNCERTAINTY = 0.10  # a plateau point: µ' resolved to 10 % by the error model
 PLATEAU_MIN_IMPEDANCE_OHM = 0.5     # below this a small VNA's R and X are not to be trusted (common practice)
 PLATEAU_LOSS_RATIO = 0.10           # µ'' ≪ µ': µ''/µ' below this
@@ -428,7 +429,7 @@ def _start_values(f, z, sigma, turns, geometry, fixed_ls):
     x = z.imag
     cross = idx[:-1][(x[idx[:-1]] > 0) & (x[idx[1:]] <= 0)]
     srf = float(f[cross[0] + 1]) if cross.size else math.inf
-    below = idx[f[idx] < 0.5 * srf]
+    below = idx[f[idx] < srf]
     if below.size >= 3:
         k = below[int(np.argmax(-mu_raw.imag[below]))]
         f_pk = float(f[k])
@@ -460,7 +461,9 @@ def _fit_family(problem: _Problem, f_all, z_all, sigma_all, turns, geometry, fix
     """Best trial of each model from a few starts."""
     mu_low, f_pk, cw0, _ = _start_values(f_all, z_all, sigma_all, turns, geometry, fixed_ls)
     chi0 = math.log(max(mu_low - 1.0, 1e-3))
-    rs0 = float(max(0.0, np.median(z_all.real[: max(3, z_all.size // 20)])))
+    # the series resistance from the lowest points only (core loss grows with f; a linear grid's
+    # first few percent can already reach the loss peak), clipped to what leads and copper can be
+    rs0 = float(np.clip(np.min(z_all.real[:3]), 0.0, 1.0))
 
     def circuit(ls0_nH, cw_F):
         return [rs0] + ([] if fixed_ls is not None else [ls0_nH]) + [cw_F / _PF]
@@ -473,7 +476,9 @@ def _fit_family(problem: _Problem, f_all, z_all, sigma_all, turns, geometry, fix
     for name in (RELAXATION, RESONANCE):
         lower, upper = _bounds(name, f_all, fixed_ls)
         for head in starts[name]:
-            for ls0, cw in ((10.0, cw0), (30.0, cw0 * 0.3)):
+            # the raw reactance may cross zero where a resonant material's µ' turns negative, not
+            # at the winding's self-resonance: Cw starts from a few typical values as well
+            for ls0, cw in ((10.0, cw0), (30.0, 1e-12), (20.0, 5e-12)):
                 trial = problem.fit(name, np.array(head + circuit(ls0, cw)), lower, upper, budget=20)
                 if name not in best or trial.chi2 < best[name].chi2:
                     best[name] = trial
@@ -488,8 +493,14 @@ def _fit_family(problem: _Problem, f_all, z_all, sigma_all, turns, geometry, fix
     chi_rel, ln_fr = rel.theta[0], rel.theta[1]
     heads += [[chi_rel + math.log(0.5), ln_fr + math.log(m0), math.log(b), chi_rel + math.log(0.5),
                ln_fr + math.log(mr)] for m0 in (1.0, 2.0) for b in (1.0, 0.5) for mr in (0.5, 1.5)]
-    for head in heads:
-        trial = problem.fit(SUM, np.array(head + list(rel.theta[2:])), lower, upper, budget=20)
+    starts = [np.array(head + list(rel.theta[2:])) for head in heads]
+    # and from the raw data alone, in case the single forms settled on a wrong winding capacitance
+    half = chi0 + math.log(0.5)
+    ln_pk = math.log(f_pk)
+    starts += [np.array([half, ln_pk + math.log(m0), 0.0, half, ln_pk + math.log(mr)] + circuit(ls0, cw))
+               for m0, mr in ((1.0, 0.5), (2.0, 1.0)) for ls0, cw in ((10.0, cw0), (30.0, 1e-12), (20.0, 5e-12))]
+    for theta0 in starts:
+        trial = problem.fit(SUM, theta0, lower, upper, budget=20)
         if SUM not in best or trial.chi2 < best[SUM].chi2:
             best[SUM] = trial
     best[SUM] = problem.fit(SUM, best[SUM].theta, lower, upper)
@@ -813,8 +824,9 @@ def _plateau(f, z, mu, real_se, resolution, below_srf):
     return None
 
 
-def _loss_peak(f, mu_imag, trust, fit: DispersionFit, f_lo, f_hi) -> LossPeak:
-    """µ'' peak from the data inside the trustworthy band, else from the model inside the sweep."""
+def _loss_peak(f, mu_imag, trust, roughly_resolved, fit: DispersionFit, f_lo, f_hi) -> LossPeak:
+    """µ'' peak from the data inside the trustworthy band, else from the model where the data still
+    resolve µ roughly (a model peak where nothing is resolved, e.g. above the self-resonance, is not given)."""
     grid = np.geomspace(f_lo, f_hi, 600)
     model_imag = -fit.permeability(grid).imag
     k = int(np.argmax(model_imag))
@@ -831,10 +843,15 @@ def _loss_peak(f, mu_imag, trust, fit: DispersionFit, f_lo, f_hi) -> LossPeak:
             if 2 <= j <= idx.size - 3:
                 return LossPeak(float(ff[idx[j]]), float(sm[j]), "data", model_f,
                                 "the largest µ'' inside the trustworthy band")
-    if model_f is not None:
+    near = None if model_f is None else int(np.clip(np.searchsorted(f, model_f), 0, f.size - 1))
+    if model_f is not None and roughly_resolved[near]:
         return LossPeak(model_f, float(model_imag[k]), "model", model_f,
-                        "the data's trustworthy band does not hold the peak; the fitted model places it "
-                        "inside the sweep")
+                        "the data's trustworthy band does not hold the peak; the fitted model places it where "
+                        "the data still resolve µ roughly (to 30 %)")
+    if model_f is not None:
+        return LossPeak(None, None, "none", model_f,
+                        "the model's µ'' peak lies where the data do not resolve µ (beyond the trustworthy "
+                        "band, e.g. above the winding's self-resonance): not given; fewer turns may show it")
     side = "below" if k == 0 else "above"
     return LossPeak(None, None, "none", None,
                     f"µ'' rises to the {'lower' if k == 0 else 'upper'} end of the sweep: its peak lies {side} "
@@ -959,7 +976,8 @@ def analyze_core(f_Hz, impedance_ohm, turns: int, geometry: CoreGeometry, z0_ohm
                             f"test leads would be about {100 * share:.0f} % of this {turns}-turn winding's "
                             "inductance; measure a second turn count or the shorted leads (--leads-short)")
 
-    peak = _loss_peak(f, -mu.imag, trust, fit, f[0], f[-1])
+    roughly = np.isfinite(resolution) & (resolution < ROUGH_RELATIVE_UNCERTAINTY) & below_srf
+    peak = _loss_peak(f, -mu.imag, trust, roughly, fit, f[0], f[-1])
     if band is None:
         warnings.append("no frequency where the VNA's error model resolves µ to 10 %: the winding's impedance is "
                         f"too far from {z0_ohm:g} Ω for this method")
@@ -1163,7 +1181,12 @@ def _read_impedance(path: Path, method: str | None):
     from .io.touchstone import read_touchstone
 
     data = read_touchstone(path)
-    network = data.network
+    z, method, z0 = _network_impedance(data.network, method, path)
+    return data.network.f, z, method, z0, list(data.warnings), int(data.network.f.size)
+
+
+def _network_impedance(network, method: str | None, path):
+    """(Z, method, z0) of a winding's sweep: S11 of a one-port, or S11/S21 of a two-port by `method`."""
     if network.nports == 2:
         method = method or REFLECTION
         s = network.s[:, 0, 0] if method == REFLECTION else network.s[:, 1, 0]
@@ -1173,7 +1196,7 @@ def _read_impedance(path: Path, method: str | None):
         method = REFLECTION
         s = network.s[:, 0, 0]
     z0 = float(np.real(network.z0[0, 0]))
-    return network.f, impedance_from_s(method, s, z0), method, z0, list(data.warnings), int(network.f.size)
+    return impedance_from_s(method, s, z0), method, z0
 
 
 def _is_core_set(path: Path) -> Path | None:
@@ -1297,17 +1320,10 @@ def analyze_core_file(path, turns: int | None = None, geometry: CoreGeometry | N
             geometry = geometry_from_table(mset.core, mset.manifest_path)
         elif mset.core is not None:
             warnings.append("the core given as an option replaces the manifest's [core] table")
-        m = method or REFLECTION
-        if network.nports == 2:
-            s = network.s[:, 0, 0] if m == REFLECTION else network.s[:, 1, 0]
-        else:
-            if m != REFLECTION:
-                raise InputError(f"--method {m} needs a two-port (.s2p) sweep", path)
-            s = network.s[:, 0, 0]
-        z0 = float(np.real(network.z0[0, 0]))
+        z, m, z0 = _network_impedance(network, method, path)
         if turns is None:
             raise InputError("the number of turns is needed (--turns N, or primary_turns in a manifest)", path)
-        windings.append((network.f, impedance_from_s(m, s, z0), int(turns), str(sweep.path), m, z0))
+        windings.append((network.f, z, int(turns), str(sweep.path), m, z0))
         points = int(network.f.size)
         label0 = str(sweep.path)
     else:

@@ -316,3 +316,21 @@ def test_cli_lcr_readings_alone(tmp_path):
     assert al == pytest.approx(MU0 * CORE.mu(f[:1]).real[0] / CORE.c1_per_m, rel=1e-3)
     result = CliRunner().invoke(app, ["core", "--readings", str(path), "--toroid", size])
     assert result.exit_code == 2 and "turns" in result.output
+
+
+def test_seeded_population_of_cores_set_analysis():
+    # A small seeded population (µi 40–5000, resonance plus relaxation, 1, 2 and 8 turns through
+    # the same leads and calibration, linear stitched grids): the turn-count analysis must land
+    # µi within 5 % on nearly all and never be far off. The larger run with its figures is
+    # tests/bench/test_core_population.py.
+    from tests.bench.test_core_population import simulate_core
+
+    rng = np.random.default_rng(7)
+    errors = []
+    for _ in range(6):
+        core, leads, windings, _short = simulate_core(rng)
+        a = analyze_core_windings(windings, _geometry(core))
+        errors.append(a.initial_permeability / core.mu_i - 1)
+    errors = np.abs(errors)
+    assert np.sum(errors <= 0.05) >= 5, errors
+    assert np.all(errors <= 0.15), errors
