@@ -452,7 +452,8 @@ def _bounds(name, f, fixed_ls):
     damping = (math.log(0.05), math.log(50.0))
     pieces = {RELAXATION: [chi, (lo_f, hi_f)], RESONANCE: [chi, (lo_f, hi_f), damping],
               SUM: [chi, (lo_f, hi_f), damping, chi, (lo_f, hi_f)]}[name]
-    circuit = [(0.0, np.inf)] + ([] if fixed_ls is not None else [(0.0, 1e4)]) + [(0.0, 1e5)]
+    # series lead inductance up to 500 nH (a metre of wire); winding capacitance up to 100 nF
+    circuit = [(0.0, np.inf)] + ([] if fixed_ls is not None else [(0.0, 500.0)]) + [(0.0, 1e5)]
     pieces = pieces + circuit
     return np.array([p[0] for p in pieces]), np.array([p[1] for p in pieces])
 
@@ -927,8 +928,15 @@ def analyze_core(f_Hz, impedance_ohm, turns: int, geometry: CoreGeometry, z0_ohm
     else:
         ls_ok = fit.lead_inductance_stderr_H is not None and fit.lead_inductance_stderr_H < 0.3 * max(
             fit.lead_inductance_H, 1e-30) and fit.lead_inductance_H > 1e-3 * _NH
-        lead = LeadEstimate(fit.lead_inductance_H, fit.lead_inductance_stderr_H, 0.0, None, "single sweep",
-                            bool(ls_ok), None, "fitted with the dispersion model of this one sweep")
+        if ls_ok:
+            lead = LeadEstimate(fit.lead_inductance_H, fit.lead_inductance_stderr_H, 0.0, None, "single sweep",
+                                True, None, "fitted with the dispersion model of this one sweep")
+        else:
+            # Where µ hardly disperses inside the sweep, a series inductance and the core's are one
+            # and the same to the data: the leads stay in (never a guessed split) and a warning says so.
+            fit = fit_dispersion(f, z_fit, sigma, int(turns), geometry, 0.0)
+            lead = replace(NO_LEADS, note="this one sweep cannot tell the lead inductance from the core's; the "
+                                          "leads are left in")
     l0 = air_core_inductance_H(int(turns), geometry)
     w = 2 * np.pi * f
     zc = permeability_from_impedance(f, z_fit, turns, geometry, fit.series_resistance_ohm, fit.lead_inductance_H,

@@ -334,3 +334,43 @@ def test_seeded_population_of_cores_set_analysis():
     errors = np.abs(errors)
     assert np.sum(errors <= 0.05) >= 5, errors
     assert np.all(errors <= 0.15), errors
+
+
+def test_cli_shorted_leads_file(pair_files, tmp_path):
+    # the leads swept shorted after the same kind of calibration, given with --leads-short
+    folder, (p1, _) = pair_files
+    rng = np.random.default_rng(9)
+    cal = Calibration.random(rng)
+    f = linear_grid(1010)
+    s = cal.apply(f, s11_of(f, LEADS.resistance_ohm + 2j * np.pi * f * LEADS.inductance_H), rng)
+    short = tmp_path / "short.s1p"
+    write_touchstone(rf.Network(frequency=rf.Frequency.from_f(f, unit="Hz"), s=s[:, None, None], z0=50), short)
+    size = f"{CORE.od_mm},{CORE.id_mm},{CORE.h_mm}"
+    result = CliRunner().invoke(app, ["core", str(p1), "--turns", "1", "--toroid", size, "--leads-short", str(short),
+                                      "--json"])
+    assert result.exit_code == 0, result.output
+    doc = json.loads(result.stdout)
+    assert doc["leads"]["source"] == "shorted leads"
+    assert doc["leads"]["inductance_H"]["value"] == pytest.approx(LEADS.inductance_H, rel=0.05)
+    result = CliRunner().invoke(app, ["core", str(p1), "--turns", "1", "--toroid", size, "--leads-short", str(short),
+                                      "--lead-inductance", "30n"])
+    assert result.exit_code == 2
+
+
+def test_rod_reports_the_material_permeability():
+    # a rod shows the apparent µ; the material's µ follows from Nd (rfmeas.magnetics.geometry,
+    # prolate spheroid of the same length/diameter): µ = µapp(1 − Nd)/(1 − Nd·µapp)
+    from rfmeas.magnetics.geometry import rod_geometry
+
+    g = rod_geometry(10.0, 80.0)
+    nd = g.demagnetising_factor
+    mu_app = 20.0
+    core = Core(mu_i=mu_app, resonance_share=0.5, f0_Hz=2e9, damping=1.0, fr_Hz=2e9)
+    f = linear_grid(1010)
+    w = 2 * np.pi * f
+    z = 1j * w * core.mu(f) * MU0 * 20**2 / g.core_constant_per_m
+    a = analyze_core(f, z, 20, g)
+    doc = a.to_dict()["material_permeability"]
+    assert a.initial_permeability == pytest.approx(mu_app, rel=0.02)
+    assert doc["value"] == pytest.approx(a.initial_permeability * (1 - nd) / (1 - nd * a.initial_permeability),
+                                         rel=1e-9)
