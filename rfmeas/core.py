@@ -926,7 +926,8 @@ def analyze_core(f_Hz, impedance_ohm, turns: int, geometry: CoreGeometry, z0_ohm
         fit = replace(fit, lead_inductance_stderr_H=leads.inductance_stderr_H)
         lead = leads
     else:
-        ls_ok = fit.lead_inductance_stderr_H is not None and fit.lead_inductance_stderr_H < 0.3 * max(
+        # kept when resolved to better than ±70 % (its uncertainty is carried into µ); else left in
+        ls_ok = fit.lead_inductance_stderr_H is not None and fit.lead_inductance_stderr_H < 0.7 * max(
             fit.lead_inductance_H, 1e-30) and fit.lead_inductance_H > 1e-3 * _NH
         if ls_ok:
             lead = LeadEstimate(fit.lead_inductance_H, fit.lead_inductance_stderr_H, 0.0, None, "single sweep",
