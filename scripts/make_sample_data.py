@@ -12,10 +12,12 @@ quirks small VNAs produce: mixed formats and frequency units, a forward-only
 two-port file (S12, S22 written as zeros) joined from two sweep segments that
 share the 10 MHz point.
 
-A third set, "unknown-core", is one test winding of 10 turns on an unmarked
-ring core (10 / 5 / 4 mm) from a parts drawer, for `rfmeas core`: the core is
-an invented NiZn ferrite with µi ≈ 125 and a first-order relaxation at 25 MHz
-(Lm with Rc across it), the winding has 0.08 ohm and 2 pF of its own.
+A third set, "unknown-core", is two test windings (1 and 4 turns) through the
+same test leads on an unmarked ring core (16 / 9 / 6 mm) from a parts drawer,
+for `rfmeas core`: the core is an invented NiZn ferrite with µi ≈ 125 whose
+dispersion is a damped resonance plus a relaxation (ngspice: parallel L, C, R
+and L ∥ R networks), the leads add 28 nH and 40 mohm, and the sweeps are linear
+50 kHz – 300 MHz in two joined segments with a small VNA's calibration residue.
 
 Usage: python scripts/make_sample_data.py [OUTPUT_FOLDER]  (default: sample_data/)
 """
@@ -195,44 +197,115 @@ def make_set(folder: Path, spec: dict, params: TransformerParams, rng: np.random
     (folder / "manifest.toml").write_text(manifest(spec), encoding="utf-8")
 
 
-# the unknown core: an invented NiZn ferrite, µi ≈ 125, relaxing at 25 MHz
-CORE_OD_MM, CORE_ID_MM, CORE_HEIGHT_MM = 10.0, 5.0, 4.0
+# the unknown core: an invented NiZn ferrite, µi ≈ 125, a damped resonance plus a relaxation,
+# measured with 1 and 4 turns through the same test leads on a linear 50 kHz – 300 MHz grid
+CORE_OD_MM, CORE_ID_MM, CORE_HEIGHT_MM = 16.0, 9.0, 6.0
 CORE_MU_R = 125.0
-CORE_RELAXATION_HZ = 25e6
-CORE_TURNS = 10
+CORE_RESONANCE_SHARE = 0.7          # χs/(χs + χr)
+CORE_RESONANCE_HZ = 40e6            # f0 of χs/(1 − (f/f0)² + jβ·f/f0)
+CORE_DAMPING = 0.8                  # β < 1: µ' rises a few % before it falls
+CORE_RELAXATION_HZ = 20e6           # fr of χr/(1 + j·f/fr)
+CORE_WINDINGS = ((1, 0.4e-12, 0.004), (4, 1.0e-12, 0.014))   # turns, winding capacitance, copper resistance
+LEAD_INDUCTANCE_H = 28e-9
+LEAD_RESISTANCE_OHM = 0.04
+CORE_SEGMENTS_HZ = (np.linspace(50e3, 150e6, 1000), np.linspace(150e6, 300e6, 501))
+# residual errors after a hobby SOL calibration (three-term one-port model, from memory):
+# directivity −40 dB, source match −35 dB, tracking +0.04 dB, slowly turning phases; one per segment
+CORE_CALIBRATIONS = ((0.010, 0.55, 2.0e-9, 0.018, 2.1, 1.2e-9, 0.04), (0.009, 4.0, 1.1e-9, 0.016, 0.3, 2.5e-9, -0.03))
 
 
-def core_winding_params() -> TransformerParams:
-    """One winding as the circuit's primary with an idle, unconnected secondary.
+def core_susceptibility(f_Hz):
+    """χ(f) of the invented core: a damped resonance plus a relaxation (µ = 1 + χ, µ' − jµ'')."""
+    f = np.asarray(f_Hz, dtype=float)
+    chi = CORE_MU_R - 1
+    x = f / CORE_RESONANCE_HZ
+    return (chi * CORE_RESONANCE_SHARE / (1 - x**2 + 1j * CORE_DAMPING * x)
+            + chi * (1 - CORE_RESONANCE_SHARE) / (1 + 1j * f / CORE_RELAXATION_HZ))
 
-    k is within 1e-9 of 1 and the secondary has no capacitance, so the primary
-    is Rw in series with (L ∥ Rc), with Cw across the terminals: a winding on a
-    core with a first-order (Debye) relaxation, 2π·fr = Rc/L.
+
+def core_netlist(turns: int, cw_F: float, copper_ohm: float, f_Hz) -> str:
+    """The winding as a lumped network for ngspice, driven by a 1 A AC source (v(a) = Z).
+
+    jω·L0·χ of the damped resonance is L0χs ∥ C ∥ R with C = 1/(ω0²L0χs), R = ω0L0χs/β; the
+    relaxation is L0χr ∥ R with R = 2π·fr·L0χr; L0 = µ0·N²/C1 is the air part. The leads
+    (Rl, Ll) are in series; Cw sits across the N² part.
     """
-    L_H = MU0 * CORE_MU_R / toroid_c1_per_m(CORE_OD_MM, CORE_ID_MM, CORE_HEIGHT_MM) * CORE_TURNS ** 2
-    return TransformerParams(L1_H=L_H, L2_H=L_H, k=1 - 1e-9, R1_ohm=0.08, R2_ohm=0.0,
-                             Rc_ohm=2 * math.pi * CORE_RELAXATION_HZ * L_H, C1_F=2e-12)
+    l0 = MU0 * turns**2 / toroid_c1_per_m(CORE_OD_MM, CORE_ID_MM, CORE_HEIGHT_MM)
+    chi = CORE_MU_R - 1
+    ls, lr = l0 * chi * CORE_RESONANCE_SHARE, l0 * chi * (1 - CORE_RESONANCE_SHARE)
+    w0 = 2 * math.pi * CORE_RESONANCE_HZ
+    lines = ["* test winding on the invented core", "I1 0 a AC 1",
+             f"Rl a b {LEAD_RESISTANCE_OHM + copper_ohm:.12e}", f"Ll b c {LEAD_INDUCTANCE_H:.12e}",
+             f"Cw c 0 {cw_F:.12e}", f"L0 c d {l0:.12e}",
+             f"Ls d e {ls:.12e}", f"Cs d e {1 / (w0**2 * ls):.12e}", f"Rs d e {w0 * ls / CORE_DAMPING:.12e}",
+             f"Lr e 0 {lr:.12e}", f"Rr e 0 {2 * math.pi * CORE_RELAXATION_HZ * lr:.12e}",
+             ".control", "set filetype=binary"]
+    lines += [f"ac lin {f_Hz.size} {f_Hz[0]:.12e} {f_Hz[-1]:.12e}", "write out.raw v(a)"]
+    lines += ["quit", ".endc", ".end", ""]
+    return "\n".join(lines)
 
 
-def make_core_set(folder: Path, rng: np.random.Generator) -> TransformerParams:
+def winding_impedance_spice(turns, cw_F, copper_ohm, f_Hz) -> np.ndarray:
+    from tests.reference.spice import run_ngspice
+
+    plot = run_ngspice(core_netlist(turns, cw_F, copper_ohm, f_Hz))[0]
+    if not np.allclose(plot["frequency"].real, f_Hz, rtol=1e-9):
+        raise RuntimeError("ngspice analysed other frequencies than asked")
+    return plot["v(a)"]
+
+
+def vna_residue(f_Hz, s, calibration, rng) -> np.ndarray:
+    """S as a calibrated small VNA reports it: e00 + e01e10·S/(1 − e11·S) plus trace noise."""
+    d, dp, dt, m, mp, mt, track_db = calibration
+    e00 = d * np.exp(1j * (dp + 2 * np.pi * f_Hz * dt))
+    e11 = m * np.exp(1j * (mp + 2 * np.pi * f_Hz * mt))
+    s_meas = e00 + 10 ** (track_db / 20) * s / (1 - e11 * s)
+    return s_meas + ADDITIVE_RMS * (rng.standard_normal(f_Hz.size) + 1j * rng.standard_normal(f_Hz.size)) / math.sqrt(2)
+
+
+def core_truth() -> dict:
+    """The invented core's true values, with its µ'' peak found on a fine grid."""
+    grid = np.geomspace(1e5, 1e9, 200001)
+    peak = float(grid[np.argmax(-core_susceptibility(grid).imag)])
+    return {"mu_initial": CORE_MU_R, "loss_peak_Hz": peak, "relaxation_frequency_Hz": peak,
+            "resonance_share": CORE_RESONANCE_SHARE, "resonance_frequency_Hz": CORE_RESONANCE_HZ,
+            "resonance_damping": CORE_DAMPING, "relaxation_model_frequency_Hz": CORE_RELAXATION_HZ,
+            "lead_inductance_H": LEAD_INDUCTANCE_H, "lead_resistance_ohm": LEAD_RESISTANCE_OHM,
+            "windings": [{"turns": n, "winding_capacitance_F": c, "copper_resistance_ohm": r}
+                         for n, c, r in CORE_WINDINGS],
+            "core_mm": [CORE_OD_MM, CORE_ID_MM, CORE_HEIGHT_MM]}
+
+
+def make_core_set(folder: Path, rng: np.random.Generator) -> dict:
     folder.mkdir(parents=True, exist_ok=True)
-    params = core_winding_params()
-    f = np.geomspace(100e3, 100e6, 601)
-    s11 = add_noise(simulate_spice(params, f, OnePort("primary", "open", Z0_OHM)), rng)
-    header = [
-        "Invented demo data, not a measurement: ngspice simulation plus simulated VNA noise",
-        "(scripts/make_sample_data.py).",
-        f"Scenario: an unmarked ring core {CORE_OD_MM:g} / {CORE_ID_MM:g} / {CORE_HEIGHT_MM:g} mm from a parts",
-        f"drawer, {CORE_TURNS} turns wound on it to find out what it is. One-port, winding on port 1.",
-    ]
-    (folder / "winding.s1p").write_text(touchstone(f, [s11], "MHz", "RI", header), encoding="utf-8")
-    (folder / "manifest.toml").write_text(f'''# Invented demo data made by scripts/make_sample_data.py: a test winding on an unknown core.
+    for old in folder.glob("*.s1p"):
+        old.unlink()
+    entries = []
+    for turns, cw, copper in CORE_WINDINGS:
+        f_parts, s_parts = [], []
+        for seg, cal in zip(CORE_SEGMENTS_HZ, CORE_CALIBRATIONS):
+            z = winding_impedance_spice(turns, cw, copper, seg)
+            f_parts.append(seg)
+            s_parts.append(vna_residue(seg, (z - Z0_OHM) / (z + Z0_OHM), cal, rng))
+        header = [
+            "Invented demo data, not a measurement: ngspice simulation of a test winding plus simulated",
+            "calibration residue and trace noise of a small VNA (scripts/make_sample_data.py).",
+            f"Scenario: an unmarked ring core {CORE_OD_MM:g} / {CORE_ID_MM:g} / {CORE_HEIGHT_MM:g} mm from a parts",
+            f"drawer, {turns} turns wound on it through 10 cm test leads. One-port, winding on port 1.",
+            "Two segments joined as written by the instrument: 50 kHz-150 MHz and 150-300 MHz (150 MHz twice).",
+        ]
+        name = f"winding_{turns}t.s1p"
+        (folder / name).write_text(touchstone(np.concatenate(f_parts), [np.concatenate(s_parts)], "Hz", "RI",
+                                              header), encoding="utf-8")
+        entries.append((name, turns))
+    windings = "".join(f'[[winding]]\nfile = "{name}"\nturns = {turns}\nlabel = "{turns} turns"\n\n'
+                       for name, turns in entries)
+    (folder / "manifest.toml").write_text(f'''# Invented demo data made by scripts/make_sample_data.py: test windings on an unknown core.
 # Analyse it with: rfmeas core sample_data/unknown-core
+# Two turn counts through the same leads let rfmeas separate the leads' series inductance.
 
-[transformer]
 name = "unmarked ring core, drawer 4"
-notes = "{CORE_TURNS} turns of enamelled wire, evenly spread, to identify the material"
-primary_turns = {CORE_TURNS}
+notes = "1 and 4 turns of enamelled wire, evenly spread, to identify the material"
 
 [core]
 shape = "toroid"
@@ -240,12 +313,12 @@ outer_diameter_mm = {CORE_OD_MM}
 inner_diameter_mm = {CORE_ID_MM}
 height_mm = {CORE_HEIGHT_MM}
 
-[[sweep]]
-file = "winding.s1p"
-port1 = "primary"
-termination = "open"
+{windings}[vna]     # the residual errors assumed after calibration (these are the defaults)
+directivity_dB = -40
+source_match_dB = -35
+tracking_dB = 0.05
 ''', encoding="utf-8")
-    return params
+    return core_truth()
 
 
 def main(argv: list[str]) -> int:
@@ -256,8 +329,7 @@ def main(argv: list[str]) -> int:
         params = true_params(spec["secondary_turns"], spec["C2_F"], spec["k"])
         make_set(out / folder, spec, params, rng)
         truth[folder] = params.to_dict()
-    core = make_core_set(out / "unknown-core", rng)
-    truth["unknown-core"] = dict(core.to_dict(), mu_initial=CORE_MU_R, relaxation_frequency_Hz=CORE_RELAXATION_HZ)
+    truth["unknown-core"] = make_core_set(out / "unknown-core", rng)
     (out / "truth.json").write_text(json.dumps(truth, indent=2) + "\n", encoding="utf-8")
     a_l = inductance_factor_H()
     print(f"A_L = {a_l * 1e9:.2f} nH/turn², C1 = {toroid_c1_per_m(OD_MM, ID_MM, HEIGHT_MM):.1f} 1/m")

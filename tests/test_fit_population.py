@@ -18,7 +18,6 @@ from reference.spice import spice_available
 from rfmeas.analysis import analyze_manifest
 
 SEED = 31
-NOT_YET = pytest.mark.xfail(strict=False, reason="issue 12: fit not yet robust")
 
 # (unit index, overrides, expectation). "recover": the tolerances are within reach (Cramer-Rao
 # bound and the model's best fit to the noise-free data well inside them), so the fit must
@@ -39,9 +38,6 @@ CASES = [
     (2, dict(sweeps="four", core_loss="magnetizing"), "flag"),
     (9, dict(sweeps="four", core_loss="primary"), "flag"),
 ]
-# cases the fit of today gets wrong or silently off (issue 12); the integrator removes the marks
-FAILING_TODAY = {"unit0-four-magnetizing", "unit6-four-primary", "unit7-four-primary", "unit0-three-primary",
-                 "unit1-three-oneport-magnetizing"}
 
 pytestmark = [pytest.mark.spice, pytest.mark.skipif(not spice_available(), reason="ngspice not installed")]
 
@@ -49,8 +45,7 @@ pytestmark = [pytest.mark.spice, pytest.mark.skipif(not spice_available(), reaso
 def _params(cases):
     for index, overrides, expect in cases:
         name = f"unit{index}-{overrides['sweeps']}-{overrides['core_loss']}"
-        yield pytest.param(index, overrides, expect, id=name,
-                           marks=[NOT_YET] if name in FAILING_TODAY else [])
+        yield pytest.param(index, overrides, expect, id=name)
 
 
 @pytest.mark.parametrize("index,overrides,expect", list(_params(CASES)))

@@ -24,17 +24,48 @@ def _numbers(option: str, text: str, count: int) -> list[float]:
         raise InputError(f"{option}: {exc.message}") from None
 
 
-def _geometry(toroid: str | None, effective: str | None):
+def _geometry(toroid: str | None, effective: str | None, two_hole: str | None = None, rod: str | None = None):
     from ..errors import InputError
-    from ..magnetics import effective_geometry, toroid_geometry
+    from ..magnetics.geometry import effective_geometry, rod_geometry, toroid_geometry, two_hole_geometry
 
-    if toroid and effective:
-        raise InputError("give the core either as --toroid or as --effective, not both")
-    if toroid:
-        return toroid_geometry(*_numbers("--toroid", toroid, 3))
-    if effective:
-        return effective_geometry(*_numbers("--effective", effective, 2))
-    return None
+    given = [(name, text) for name, text in (("--toroid", toroid), ("--effective", effective),
+                                             ("--two-hole", two_hole), ("--rod", rod)) if text]
+    if len(given) > 1:
+        raise InputError("give the core one way only: " + " or ".join(name for name, _ in given))
+    if not given:
+        return None
+    name, text = given[0]
+    builder, count = {"--toroid": (toroid_geometry, 3), "--effective": (effective_geometry, 2),
+                      "--two-hole": (two_hole_geometry, 5), "--rod": (rod_geometry, 2)}[name]
+    return builder(*_numbers(name, text, count))
+
+
+def _turn_counts(text: str | None) -> list[int]:
+    from ..errors import InputError
+
+    if text is None:
+        return []
+    counts = []
+    for part in text.replace(";", ",").split(","):
+        try:
+            n = int(part.strip())
+        except ValueError:
+            raise InputError(f"--turns takes whole numbers, one per sweep (e.g. 1,2), not {text!r}") from None
+        if n <= 0:
+            raise InputError(f"--turns must be positive whole numbers, not {text!r}")
+        counts.append(n)
+    return counts
+
+
+def _error_model(directivity, source_match, tracking):
+    from ..magnetics.dispersion import DEFAULT_VNA_ERRORS, VnaErrorModel
+
+    if directivity is None and source_match is None and tracking is None:
+        return None
+    d = DEFAULT_VNA_ERRORS
+    return VnaErrorModel(d.directivity_db if directivity is None else directivity,
+                         d.source_match_db if source_match is None else source_match,
+                         d.tracking_db if tracking is None else tracking)
 
 
 def render_core(analysis, console=None) -> None:
@@ -50,26 +81,51 @@ def render_core(analysis, console=None) -> None:
                   f"{analysis.method} measurement against {analysis.z0_ohm:g} Ω")
     summary = Table(title="Summary", box=box.SIMPLE_HEAD, pad_edge=False, show_header=False)
     summary.add_column("", no_wrap=True)
-    summary.add_column("", no_wrap=True)
-    summary.add_row("initial permeability µi",
-                    format_with_error(analysis.initial_permeability, analysis.initial_permeability_stderr))
-    summary.add_row("relaxation frequency (µ″ peak)",
-                    format_with_error(analysis.relaxation_frequency_Hz, analysis.relaxation_frequency_stderr_Hz,
-                                      "Hz"))
-    summary.add_row("(µi − 1)·fr (Snoek product)",
-                    eng((analysis.initial_permeability - 1) * analysis.relaxation_frequency_Hz, "Hz", 3))
+    summary.add_column("", no_wrap=False)
+    mu_text = format_with_error(analysis.initial_permeability, analysis.initial_permeability_stderr) \
+        if analysis.initial_permeability_stderr is not None else f"{analysis.initial_permeability:.4g} (uncertain)"
+    if analysis.initial_permeability_source == "plateau":
+        lo, hi = analysis.plateau_band_Hz
+        mu_text += f"  (plateau of µ′, {eng(lo, 'Hz')} – {eng(hi, 'Hz')}, {analysis.plateau_points} points)"
+    else:
+        mu_text += "  (model extrapolation: the data hold no plateau)"
+    summary.add_row("initial permeability µi", mu_text)
+    summary.add_row("A_L", eng(analysis.inductance_factor_H_per_turn2, "H", 4) + "/turn²")
+    material_mu = analysis._material_permeability()
+    if material_mu is not None and material_mu["value"] is not None:
+        summary.add_row("material µi (open core)", f"{material_mu['value']:.4g}  (estimate from Nd)")
+    peak = analysis.loss_peak
+    summary.add_row("µ″ peak", "not inside the sweep" if peak.frequency_Hz is None else
+                    f"{eng(peak.frequency_Hz, 'Hz', 3)} (from the {peak.source})")
+    if peak.frequency_Hz is not None:
+        summary.add_row("(µi − 1)·f at the peak (Snoek product)",
+                        eng((analysis.initial_permeability - 1) * peak.frequency_Hz, "Hz", 3))
     m = analysis.model
-    form = m.name + (f", α = {m.alpha:.3f} ± {m.alpha_stderr:.3f}" if m.name == "broadened" else "")
-    summary.add_row("relaxation model", form)
-    summary.add_row("winding resistance Rw",
-                    format_with_error(analysis.series_resistance_ohm, analysis.series_resistance_stderr_ohm, "Ω"))
-    summary.add_row("winding capacitance Cw",
-                    format_with_error(analysis.self_capacitance_F, analysis.self_capacitance_stderr_F, "F"))
+    summary.add_row("dispersion model", f"{m.name} (misfit {m.misfit:.2f}× the VNA error model"
+                    + (", POOR)" if m.poor else ")"))
+    leads = analysis.leads
+    summary.add_row("test leads", "not removed" if not leads.determined else
+                    f"{format_with_error(leads.inductance_H, leads.inductance_stderr_H, 'H')}, "
+                    f"{eng(leads.resistance_ohm, 'Ω', 3)} ({leads.source})")
+    summary.add_row("series resistance Rs", _value(m.series_resistance_ohm, m.series_resistance_stderr_ohm, "Ω"))
+    summary.add_row("winding capacitance Cw", _value(m.winding_capacitance_F, m.winding_capacitance_stderr_F, "F"))
     summary.add_row("self-resonance", eng(analysis.self_resonance_Hz, "Hz"))
     band = analysis.trustworthy_band_Hz
     summary.add_row("trustworthy band", "none" if band is None else f"{eng(band[0], 'Hz')} – {eng(band[1], 'Hz')}")
     console.print(summary)
     console.print(f"Model: {m.reason}.")
+    for other in analysis.other_windings:
+        mu = other["initial_permeability"]
+        value = "not determined" if mu["value"] is None else f"{mu['value']:.4g} ({mu['source']})"
+        label = str(other["label"])
+        label = f"{other['turns']} turns" + ("" if label == f"{other['turns']} turns" else f" ({label})")
+        console.print(f"Also measured: {markup(label)}: µi {value}")
+    if analysis.lcr is not None:
+        lcr = analysis.lcr
+        value = "none" if lcr.initial_permeability is None else format_with_error(
+            lcr.initial_permeability, lcr.initial_permeability_stderr)
+        console.print(f"LCR readings ({markup(lcr.path)}, {lcr.turns} turns): µi {value} from "
+                      f"{lcr.readings_used} reading(s)")
 
     spectrum = Table(title="Spectrum", box=box.SIMPLE_HEAD, pad_edge=False)
     for heading in ("frequency", "µ′", "µ″", "tan δ", "tan δ/µi", "trustworthy"):
@@ -82,20 +138,32 @@ def render_core(analysis, console=None) -> None:
         k = min(range(analysis.f_Hz.size), key=lambda i: abs(analysis.f_Hz[i] - fq))
         spectrum.add_row(eng(fq, "Hz"), f"{mr:.4g}", f"{mi:.4g}", f"{tan_d:.3g}",
                          f"{tan_d / analysis.initial_permeability:.3g}" if p is None or p.tan_delta_over_mu is None
+                         or p.tan_delta_over_mu_stderr is None
                          else format_with_error(p.tan_delta_over_mu, p.tan_delta_over_mu_stderr),
                          "yes" if analysis.trustworthy[k] else "no")
     console.print(spectrum)
 
     match = analysis.material_class
     if match is not None:
-        console.print(f"Material class: [bold]{match.best.material.name}[/] — {match.confidence_level} "
+        console.print(f"Material class: [bold]{markup(match.best.material.name)}[/] — {match.confidence_level} "
                       f"(confidence {match.confidence:.2f}). {match.explanation}.")
+        for limit in getattr(match, "limits", ()):
+            console.print(f"  held back: {markup(limit)}")
         if match.alternatives:
             console.print("Alternatives: " + "; ".join(
                 f"{a.material.name} (distance {a.distance:.2f})" for a in match.alternatives))
         console.print("A generic class, not a brand: confirm with a datasheet before relying on it.")
     for warning in analysis.warnings:
         console.print(f"[yellow]warning:[/] {markup(warning)}")
+
+
+def _value(value, stderr, unit):
+    from ..units import format_engineering as eng
+    from ..units import format_with_error
+
+    if stderr is None:
+        return "0 (at its bound: not determined)" if abs(value) < 1e-15 else f"{eng(value, unit, 3)} (not determined)"
+    return format_with_error(value, stderr, unit)
 
 
 def _table_frequencies(analysis) -> list[float]:
@@ -113,14 +181,58 @@ def register(app: typer.Typer) -> None:
     app.command("core")(core_command)
 
 
+def render_readings(result, console=None) -> None:
+    """LCR readings alone: µ′, µ″ and A_L per reading, µi from the low-loss ones."""
+    from rich import box
+    from rich.table import Table
+
+    from ..units import format_engineering as eng
+    from ..units import format_with_error
+
+    console = console or stdout_console()
+    console.print(f"Core: {result.geometry.description}, {result.turns} turns, LCR readings "
+                  f"({markup(result.form)}) from {markup(result.path)}")
+    table = Table(box=box.SIMPLE_HEAD, pad_edge=False)
+    for heading in ("frequency", "µ′", "µ″", "A_L"):
+        table.add_column(heading, justify="right", no_wrap=True)
+    for f, mr, mi, al in zip(result.f_Hz, result.mu_real, result.mu_imag, result.inductance_factor_H_per_turn2):
+        table.add_row(eng(f, "Hz"), f"{mr:.4g}", f"{mi:.3g}", eng(al, "H", 4) + "/turn²")
+    console.print(table)
+    value = "none" if result.initial_permeability is None else format_with_error(
+        result.initial_permeability, result.initial_permeability_stderr)
+    console.print(f"initial permeability µi: {value} (from {result.readings_used} low-loss reading(s))")
+    for warning in result.warnings:
+        console.print(f"[yellow]warning:[/] {markup(warning)}")
+
+
 @handles_errors
 def core_command(
-    sweep: Path = typer.Argument(..., help="A one-port .s1p sweep of the winding, an .s2p with --method, "
-                                           "or a manifest (.toml or its folder) with a [core] table."),
-    turns: Optional[int] = typer.Option(None, "--turns", help="Turns of the test winding."),
+    sweeps: Optional[list[Path]] = typer.Argument(
+        None, help="One-port .s1p sweeps of test windings on the same core (one turn count each, see "
+                   "--turns), an .s2p with --method, or a manifest (.toml or its folder)."),
+    turns: Optional[str] = typer.Option(None, "--turns", help="Turns of each test winding, in the order of the "
+                                                              "sweeps, e.g. 8 or 1,2."),
     toroid: Optional[str] = typer.Option(None, "--toroid", help="Ring core OD,ID,HEIGHT in mm, e.g. 12.7,7.1,4.9."),
     effective: Optional[str] = typer.Option(None, "--effective",
                                             help="Datasheet effective area and path length AE_MM2,LE_MM."),
+    two_hole: Optional[str] = typer.Option(None, "--two-hole",
+                                           help="Two-hole core WIDTH,HEIGHT,LENGTH,HOLE_DIAMETER,HOLE_SPACING in mm."),
+    rod: Optional[str] = typer.Option(None, "--rod", help="Rod DIAMETER,LENGTH in mm (gives the apparent µ)."),
+    leads_short: Optional[Path] = typer.Option(None, "--leads-short",
+                                               help="A sweep of the test leads shorted where the winding goes."),
+    lead_inductance: Optional[str] = typer.Option(None, "--lead-inductance",
+                                                  help="Series inductance of the test leads, e.g. 30n."),
+    lead_resistance: Optional[str] = typer.Option(None, "--lead-resistance",
+                                                  help="Series resistance of the test leads, e.g. 50m."),
+    readings: Optional[Path] = typer.Option(None, "--readings",
+                                            help="LCR readings of a winding (CSV or TOML: Ls/Rs, Lp/Rp, L/Q or "
+                                                 "|Z|/θ); its turns are the last --turns value."),
+    directivity: Optional[float] = typer.Option(None, "--directivity",
+                                                help="VNA residual directivity after calibration, dB (default −40)."),
+    source_match: Optional[float] = typer.Option(None, "--source-match",
+                                                 help="VNA residual source match, dB (default −35)."),
+    tracking: Optional[float] = typer.Option(None, "--tracking",
+                                             help="VNA residual tracking error, ± dB (default 0.05)."),
     method: Optional[str] = typer.Option(None, "--method",
                                          help="How an .s2p was measured: reflection (S11), series-through "
                                               "or shunt-through (S21)."),
@@ -135,18 +247,60 @@ def core_command(
     plot: Optional[Path] = typer.Option(None, "--plot", help="Write the µ′, µ″ plot (PNG, SVG or PDF)."),
     json_output: bool = typer.Option(False, "--json", help="Print the JSON result on stdout and nothing else."),
 ):
-    """Identify an unknown core from a test winding: µi, relaxation, loss factor, material class."""
-    from ..core import analyze_core_file
+    """Identify an unknown core from test windings: µi, dispersion, loss factor, material class."""
+    from dataclasses import replace
+
+    from ..core import analyze_core_file, analyze_readings_file, given_leads
     from ..errors import InputError
     from ..materials import RESISTIVITY
+    from ..units import parse_engineering
 
     if dc_resistance is not None and dc_resistance not in RESISTIVITY:
         raise InputError(f"--dc-resistance must be one of {', '.join(RESISTIVITY)}, not {dc_resistance!r}")
-    if turns is not None and turns <= 0:
-        raise InputError(f"--turns must be a positive whole number, not {turns}")
+    sweeps = list(sweeps or [])
+    if not sweeps and readings is None:
+        raise InputError("give a sweep (or a manifest) of the winding, or --readings with LCR readings")
+    counts = _turn_counts(turns)
+    geometry = _geometry(toroid, effective, two_hole, rod)
+    errors = _error_model(directivity, source_match, tracking)
+    leads = None
+    if lead_inductance is not None or lead_resistance is not None:
+        if leads_short is not None:
+            raise InputError("give the leads either as --leads-short or as --lead-inductance/--lead-resistance")
+        leads = given_leads(None if lead_inductance is None else parse_engineering(lead_inductance),
+                            None if lead_resistance is None else parse_engineering(lead_resistance))
     loss = None if loss_at is None else _numbers("--loss-at", loss_at, 0)
-    analysis = analyze_core_file(sweep, turns=turns, geometry=_geometry(toroid, effective), method=method,
-                                 loss_frequencies_Hz=loss, materials_file=materials, dc_resistance=dc_resistance)
+    lcr = None
+    if readings is not None:
+        if geometry is None:
+            raise InputError("LCR readings need the core size as an option (--toroid, --effective, ...)")
+        if not counts:
+            raise InputError("LCR readings need the winding's turns (--turns N)")
+        lcr_leads = leads
+        if lcr_leads is None and leads_short is not None:
+            from ..core import leads_from_short, _read_impedance
+
+            f_s, z_s, m_s, z0_s, _, _ = _read_impedance(leads_short, None)
+            lcr_leads = leads_from_short(f_s, z_s, errors or _default_errors(), z0_s, m_s)
+        lcr = analyze_readings_file(readings, counts[-1], geometry, lcr_leads)
+        if not sweeps:
+            if json_output:
+                print_json(lcr.to_dict())
+            else:
+                render_readings(lcr)
+            return
+        if len(counts) == len(sweeps) + 1:
+            counts = counts[:-1]
+    if len(counts) > 1 and len(counts) != len(sweeps):
+        raise InputError(f"{len(sweeps)} sweep(s) but {len(counts)} turn counts: give one per sweep (--turns 1,2)")
+    if len(sweeps) > 1 and len(counts) != len(sweeps):
+        raise InputError(f"{len(sweeps)} sweeps need one turn count each (--turns 1,2,...)")
+    analysis = analyze_core_file(sweeps[0], turns=counts[0] if counts else None, geometry=geometry, method=method,
+                                 errors=errors, loss_frequencies_Hz=loss, materials_file=materials,
+                                 dc_resistance=dc_resistance, extra_files=sweeps[1:], extra_turns=counts[1:],
+                                 leads_short=leads_short, leads=leads)
+    if lcr is not None:
+        analysis = replace(analysis, lcr=lcr)
     if plot is not None:
         from ..plots.permeability import plot_permeability
 
@@ -157,3 +311,9 @@ def core_command(
         render_core(analysis)
         if plot is not None:
             stdout_console().print(f"Plot written to {markup(plot)}")
+
+
+def _default_errors():
+    from ..magnetics.dispersion import DEFAULT_VNA_ERRORS
+
+    return DEFAULT_VNA_ERRORS

@@ -1,4 +1,4 @@
-"""µ'(f) and µ''(f) of a core on log axes, with the fitted relaxation and the trustworthy band."""
+"""µ'(f) and µ''(f) of a core on log axes, with the fitted dispersion model, the plateau and the trustworthy band."""
 
 from __future__ import annotations
 
@@ -25,26 +25,33 @@ def plot_permeability(analysis, path=None):
     # log axes cannot show µ'' ≤ 0 (noise at the low end); those points are masked, not altered
     real = np.where(analysis.mu_real > 0, analysis.mu_real, np.nan)
     imag = np.where(analysis.mu_imag > 0, analysis.mu_imag, np.nan)
-    ax.plot(f, real, ".", color=PALETTE["data"], ms=3, label="µ′ measured", gid="measured-real")
-    ax.plot(f, imag, "x", color=PALETTE["third"], ms=3, label="µ″ measured", gid="measured-imag")
+    ax.plot(f, real, ".", color=PALETTE["data"], ms=2, label="µ′ measured", gid="measured-real")
+    ax.plot(f, imag, "x", color=PALETTE["third"], ms=2, label="µ″ measured", gid="measured-imag")
     model_f = np.geomspace(f[0], f[-1], MODEL_POINTS)
     mu = analysis.model_permeability(model_f)
     ax.plot(model_f, mu.real, "-", color=PALETTE["model"], lw=1.6,
             label=f"µ′ {analysis.model.name} model", gid="model-real")
     ax.plot(model_f, -mu.imag, "--", color=PALETTE["fourth"], lw=1.6,
             label=f"µ″ {analysis.model.name} model", gid="model-imag")
+    if analysis.plateau_band_Hz is not None:
+        lo, hi = analysis.plateau_band_Hz
+        ax.plot([lo, hi], [analysis.initial_permeability] * 2, "-", color=PALETTE["muted"], lw=3, alpha=0.8,
+                label="µi plateau", gid="plateau")
     fr = analysis.relaxation_frequency_Hz
-    if f[0] <= fr <= f[-1]:
-        ax.axvline(fr, color=PALETTE["muted"], lw=0.8, ls=":", label="relaxation frequency")
+    if fr is not None and f[0] <= fr <= f[-1]:
+        ax.axvline(fr, color=PALETTE["muted"], lw=0.8, ls=":", label="µ″ peak")
     ax.set_xscale("log")
     ax.set_yscale("log")
-    top = np.nanmax(np.concatenate([real, mu.real]))
+    # scale to the trustworthy points and the model: unresolved points can be wild
+    shown = real[analysis.trustworthy] if analysis.trustworthy.any() else real
+    top = np.nanmax(np.concatenate([shown, mu.real, [1.0]]))
     ax.set_ylim(top * 1e-3, top * 2)
     engineering_axis(ax, "x", "Hz")
     ax.set_xlabel("frequency")
     ax.set_ylabel("relative permeability  µ = µ′ − jµ″")
-    ax.set_title(f"µi {analysis.initial_permeability:.4g}, fr {format_engineering(fr, 'Hz', 3)}, "
-                 f"{analysis.turns} turns",
+    peak = "no µ″ peak in the sweep" if fr is None else f"µ″ peak {format_engineering(fr, 'Hz', 3)}"
+    source = "" if analysis.initial_permeability_source == "plateau" else " (extrapolated)"
+    ax.set_title(f"µi {analysis.initial_permeability:.4g}{source}, {peak}, {analysis.turns} turns",
                  fontsize=10)
     ax.legend(fontsize=8, loc="lower left")
     if path is not None:

@@ -1,0 +1,79 @@
+"""Seeded population of simulated hobby-VNA core sweeps: how often µi lands within 5 % of the truth.
+
+Prints the success rates and the worst cases (not part of the normal run):
+    python -m pytest tests/bench/test_core_population.py -s -p no:cacheprovider -o addopts=""
+Cores, leads, windings and VNA residual errors: tests/reference/core_sweeps.py.
+"""
+
+from __future__ import annotations
+
+import os
+
+import numpy as np
+
+from rfmeas.core import analyze_core, analyze_core_windings, leads_from_short
+from rfmeas.magnetics import toroid_geometry
+from tests.reference.core_sweeps import (
+    Calibration, Leads, impedance, linear_grid, measure, random_core, s11_of, winding_capacitance_F, winding_z)
+
+TURNS = (1, 2, 8)
+CORES = int(os.environ.get("RFMEAS_CORE_POPULATION", "40"))
+
+
+def simulate_core(rng, points=1010):
+    core = random_core(rng)
+    leads = Leads(rng.uniform(20e-9, 40e-9), rng.uniform(0.015, 0.08))
+    cals = [Calibration.random(rng), Calibration.random(rng)]
+    f = linear_grid(points)
+    windings = []
+    for n in TURNS:
+        fm, s = measure(f, winding_z(f, core, n, leads, winding_capacitance_F(n, rng)), cals, rng, segments=2)
+        windings.append((fm, impedance(s), n))
+    w = 2 * np.pi * f
+    short = impedance(cals[0].apply(f, s11_of(f, leads.resistance_ohm + 1j * w * leads.inductance_H), rng))
+    return core, leads, windings, (f, short)
+
+
+def run_population(seed=2026, cores=CORES, points=1010):
+    rng = np.random.default_rng(seed)
+    rows = []
+    for i in range(cores):
+        core, leads, windings, short = simulate_core(rng, points)
+        g = toroid_geometry(core.od_mm, core.id_mm, core.h_mm)
+        lead_est = leads_from_short(*short)
+        row = {"i": i, "mu_i": core.mu_i, "peak_Hz": core.peak_Hz()}
+        for f, z, n in windings:
+            a = analyze_core(f, z, n, g, leads=lead_est)
+            row[f"short_{n}"] = a.initial_permeability / core.mu_i - 1
+            row[f"src_{n}"] = a.initial_permeability_source
+            b = analyze_core(f, z, n, g)
+            row[f"bare_{n}"] = b.initial_permeability / core.mu_i - 1
+        s = analyze_core_windings(windings, g)
+        row["set"] = s.initial_permeability / core.mu_i - 1
+        row["lead"] = s.leads.inductance_H / leads.inductance_H - 1
+        row["poor"] = s.model.poor
+        rows.append(row)
+    return rows
+
+
+def summarise(rows):
+    lines = []
+    keys = [f"short_{n}" for n in TURNS] + ["set"] + [f"bare_{n}" for n in TURNS]
+    for key in keys:
+        errors = np.array([r[key] for r in rows])
+        ok = np.abs(errors) <= 0.05
+        worst = sorted(rows, key=lambda r: -abs(r[key]))[:3]
+        lines.append(f"{key:8s}: {ok.mean() * 100:5.1f} % within 5 % ({ok.sum()}/{ok.size}); worst "
+                     + ", ".join(f"{100 * w[key]:+.1f} % (µi {w['mu_i']:.0f}, peak {w['peak_Hz']:.3g} Hz)"
+                                 for w in worst))
+    lead = np.array([r["lead"] for r in rows])
+    lines.append(f"lead L from turn counts: median |error| {100 * np.median(np.abs(lead)):.1f} %, "
+                 f"{100 * np.mean(np.abs(lead) <= 0.1):.0f} % within 10 %, worst {100 * lead[np.argmax(np.abs(lead))]:+.1f} %")
+    return lines
+
+
+def test_population_figures():
+    rows = run_population()
+    for line in summarise(rows):
+        print(line)
+    assert rows
