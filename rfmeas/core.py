@@ -463,6 +463,9 @@ def _bounds(name, f, fixed_ls):
 def _fit_family(problem: _Problem, f_all, z_all, sigma_all, turns, geometry, fixed_ls) -> dict:
     """Best trial of each model from a few starts."""
     mu_low, f_pk, cw0, _ = _start_values(f_all, z_all, sigma_all, turns, geometry, fixed_ls)
+    if not np.all(np.isfinite([mu_low, f_pk, cw0])) or mu_low <= 0:
+        raise FitError("the sweep gives no starting point for a core model: it does not look like a "
+                       "wound core (a short or open circuit?)")
     chi0 = math.log(max(mu_low - 1.0, 1e-3))
     # the series resistance from the lowest points only (core loss grows with f; a linear grid's
     # first few percent can already reach the loss peak), clipped to what leads and copper can be
