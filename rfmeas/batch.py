@@ -32,9 +32,9 @@ from concurrent.futures.process import BrokenProcessPool
 from dataclasses import dataclass
 from pathlib import Path
 
-from .io.atomic import atomic_write_text
-from .errors import EXIT_BAD_INPUT, EXIT_DESIGN_FAILED, EXIT_OK, InputError, RfmeasError
-from .store import design_status
+from rfmeas.io.atomic import atomic_write_text
+from rfmeas.errors import EXIT_BAD_INPUT, EXIT_DESIGN_FAILED, EXIT_OK, InputError, RfmeasError
+from rfmeas.store import design_status
 
 log = logging.getLogger(__name__)
 
@@ -45,7 +45,7 @@ POLL_S = 0.1             # how often the parent looks for a Ctrl-C while units r
 
 def analyse_manifest(path: str) -> dict:
     """The default analysis: rfmeas.analysis on one manifest, as the JSON-contract dict."""
-    from .analysis import analyze_manifest
+    from rfmeas.analysis import analyze_manifest
 
     return analyze_manifest(path).to_dict()
 

@@ -6,7 +6,7 @@ import importlib
 
 import typer
 
-from .commands import COMMAND_MODULES
+from rfmeas.commands import COMMAND_MODULES
 
 app = typer.Typer(
     name="rfmeas",
@@ -21,7 +21,7 @@ DEBUG = {"enabled": False}
 
 def _version_callback(value: bool):
     if value:
-        from . import __version__
+        from rfmeas import __version__
 
         typer.echo(f"rfmeas {__version__}")
         raise typer.Exit(0)
@@ -66,7 +66,7 @@ def main() -> None:
 
     import warnings
 
-    from .commands._common import log_warning
+    from rfmeas.commands._common import log_warning
 
     for name in ("OPENBLAS_NUM_THREADS", "OMP_NUM_THREADS", "MKL_NUM_THREADS"):
         os.environ.setdefault(name, "1")

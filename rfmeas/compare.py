@@ -10,7 +10,7 @@ from __future__ import annotations
 import math
 from dataclasses import dataclass
 
-from .units import format_engineering, format_with_error
+from rfmeas.units import format_engineering, format_with_error
 
 SIGMA_FACTOR = 3.0
 RULE = ("significant when |after - before| > 3*sqrt(stderr_before^2 + stderr_after^2); "
@@ -225,7 +225,7 @@ def _verdict(before: dict, after: dict, changes: dict[str, Change], targets: dic
         if target is not None:
             sentences.append(_target_sentence(key, label, bound, target, c))
     params = [(k, c) for k, c in changes.items() if c.group == "parameter"]
-    from .results import LABELS
+    from rfmeas.results import LABELS
 
     moved = [f"{LABELS.get(k, k)} ({c.change_percent:+.1f} %)" if c.change_percent is not None
              else LABELS.get(k, k) for k, c in params if c.significant]

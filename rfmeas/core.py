@@ -36,10 +36,10 @@ from pathlib import Path
 
 import numpy as np
 
-from .errors import FitError, InputError
-from .magnetics import CoreGeometry
-from .jsonio import SCHEMA_VERSION
-from .magnetics.dispersion import (
+from rfmeas.errors import FitError, InputError
+from rfmeas.magnetics import CoreGeometry
+from rfmeas.jsonio import SCHEMA_VERSION
+from rfmeas.magnetics.dispersion import (
     DEFAULT_VNA_ERRORS,
     MODEL_FORMS,
     MODEL_PARAMETERS,
@@ -58,8 +58,8 @@ from .magnetics.dispersion import (
     weighted_median,
     winding_impedance,
 )
-from .methods import METHODS, REFLECTION, impedance_from_s, method_advice
-from .units import format_engineering as eng
+from rfmeas.methods import METHODS, REFLECTION, impedance_from_s, method_advice
+from rfmeas.units import format_engineering as eng
 
 log = logging.getLogger(__name__)
 
@@ -279,7 +279,7 @@ class CoreAnalysis:
         nd = getattr(self.geometry, "demagnetising_factor", None)
         if nd is None:
             return None
-        from .magnetics.geometry import material_permeability
+        from rfmeas.magnetics.geometry import material_permeability
 
         with np.errstate(all="ignore"):
             value = complex(material_permeability(self.initial_permeability, nd)).real
@@ -896,7 +896,7 @@ def _loss_points(f, mu_real, mu_imag, real_se, imag_se, trust, mu_i, fit, freque
 def _match(materials, mu_i, mu_i_se, peak: LossPeak, dc_resistance, poor: bool, f_lo: float, f_hi: float):
     """The material match from the headline µi, the µ'' peak (None when not inside the sweep: then it
     lies above or below it) and the DC hint; a poor fit names no class with confidence."""
-    from .materials import match_material
+    from rfmeas.materials import match_material
 
     return match_material(materials, mu_i, mu_i_se, peak.frequency_Hz, None, dc_resistance, fit_is_poor=poor,
                           sweep_top_Hz=f_hi, sweep_bottom_Hz=f_lo)
@@ -1155,7 +1155,7 @@ def analyze_readings(f_Hz, impedance_ohm, turns: int, geometry: CoreGeometry, le
 def analyze_readings_file(path, turns: int, geometry: CoreGeometry, leads: LeadEstimate | None = None
                           ) -> ReadingsAnalysis:
     """`analyze_readings` on a CSV or TOML file of LCR readings (rfmeas.io.readings)."""
-    from .io.readings import load_readings
+    from rfmeas.io.readings import load_readings
 
     readings = load_readings(path)
     result = analyze_readings(readings.f_Hz, readings.impedance_ohm, turns, geometry, leads, readings.form,
@@ -1173,7 +1173,7 @@ _VNA_KEYS = {"directivity_dB", "source_match_dB", "tracking_dB"}
 
 def error_model_from_table(table: dict, path=None) -> VnaErrorModel:
     """A `[vna]` table (directivity_dB, source_match_dB, tracking_dB; each optional)."""
-    from .io.strict import check_keys
+    from rfmeas.io.strict import check_keys
 
     check_keys(table, _VNA_KEYS, "[vna]", path)
     values = {}
@@ -1192,7 +1192,7 @@ def error_model_from_table(table: dict, path=None) -> VnaErrorModel:
 
 def _read_impedance(path: Path, method: str | None):
     """(f, Z, method, z0, warnings, points) of a Touchstone file of one winding."""
-    from .io.touchstone import read_touchstone
+    from rfmeas.io.touchstone import read_touchstone
 
     data = read_touchstone(path)
     z, method, z0 = _network_impedance(data.network, method, path)
@@ -1215,7 +1215,7 @@ def _network_impedance(network, method: str | None, path):
 
 def _is_core_set(path: Path) -> Path | None:
     """The core-set manifest behind `path` (a TOML with [[winding]], or a folder holding one), else None."""
-    from .io.strict import read_toml
+    from rfmeas.io.strict import read_toml
 
     candidate = path / "manifest.toml" if path.is_dir() else path
     if candidate.suffix.lower() != ".toml" or not candidate.is_file():
@@ -1230,8 +1230,8 @@ def load_core_set(path) -> dict:
     Returns {"geometry", "windings": [(file, turns, label, method)], "leads": dict|None,
     "errors": VnaErrorModel|None, "name"}; strict about keys, paths relative to the manifest.
     """
-    from .io.strict import check_keys, read_toml
-    from .magnetics import geometry_from_table
+    from rfmeas.io.strict import check_keys, read_toml
+    from rfmeas.magnetics import geometry_from_table
 
     path = Path(path)
     _, doc = read_toml(path, "manifest")
@@ -1287,7 +1287,7 @@ def analyze_core_file(path, turns: int | None = None, geometry: CoreGeometry | N
     manifest with [[winding]] tables. `extra_files` with `extra_turns` add windings of other
     turn counts; `leads_short` is a sweep of the shorted leads; `leads` given values.
     """
-    from .materials import load_materials
+    from rfmeas.materials import load_materials
 
     path = Path(path)
     if method is not None and method not in METHODS:
@@ -1316,8 +1316,8 @@ def analyze_core_file(path, turns: int | None = None, geometry: CoreGeometry | N
                 leads = given_leads(spec["leads"].get("inductance_H"), spec["leads"].get("resistance_ohm"), core_set)
         label0 = str(core_set)
     elif path.suffix.lower() == ".toml" or path.is_dir():
-        from .io.manifest import load_manifest
-        from .magnetics import geometry_from_table
+        from rfmeas.io.manifest import load_manifest
+        from rfmeas.magnetics import geometry_from_table
 
         mset = load_manifest(path)
         sweep = _pick_sweep(mset, path)

@@ -26,8 +26,8 @@ from __future__ import annotations
 import math
 from dataclasses import dataclass, replace
 
-from .sweep import DesignTarget
-from .units import format_engineering as eng
+from rfmeas.sweep import DesignTarget
+from rfmeas.units import format_engineering as eng
 
 NOTHING_TO_CHANGE = "nothing to change"
 NOT_JUDGED = "not judged"

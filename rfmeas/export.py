@@ -30,8 +30,8 @@ import re
 
 import numpy as np
 
-from .errors import InputError
-from .model import TransformerParams, s_matrix
+from rfmeas.errors import InputError
+from rfmeas.model import TransformerParams, s_matrix
 
 _NAME_RE = re.compile(r"^[A-Za-z_][A-Za-z0-9_]*$")
 

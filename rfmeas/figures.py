@@ -24,15 +24,15 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from .design import DesignFacts, check_design, is_design
-from .fit import to_physical
-from .magnetics import effective_permeability, geometry_from_table, nH_per_turn2_to
-from .model.params import PARAMETER_NAMES, TransformerParams
-from .results import checked_stderr
-from .response import band_response, minimum_return_loss_dB, open_circuit_voltage_ratio, \
+from rfmeas.design import DesignFacts, check_design, is_design
+from rfmeas.fit import to_physical
+from rfmeas.magnetics import effective_permeability, geometry_from_table, nH_per_turn2_to
+from rfmeas.model.params import PARAMETER_NAMES, TransformerParams
+from rfmeas.results import checked_stderr
+from rfmeas.response import band_response, minimum_return_loss_dB, open_circuit_voltage_ratio, \
     reactance_limit_Hz, return_loss_dB, self_resonance_Hz
-from .units import format_engineering as eng
-from .units import format_with_error
+from rfmeas.units import format_engineering as eng
+from rfmeas.units import format_with_error
 
 log = logging.getLogger(__name__)
 

@@ -59,14 +59,14 @@ from dataclasses import dataclass, field
 import numpy as np
 from scipy.optimize import least_squares
 
-from .errors import FitError
-from .methods import s_from_impedance
-from .fit_start import start_candidates, sweeps_that_see
-from .model.circuit import driving_point_admittance, reflection_from_admittance, s_from_y, \
+from rfmeas.errors import FitError
+from rfmeas.methods import s_from_impedance
+from rfmeas.fit_start import start_candidates, sweeps_that_see
+from rfmeas.model.circuit import driving_point_admittance, reflection_from_admittance, s_from_y, \
     termination_admittance, y_elements
-from .model.params import PARAMETER_NAMES, TransformerParams
-from .noise import error_sigma
-from .sweep import Sweep
+from rfmeas.model.params import PARAMETER_NAMES, TransformerParams
+from rfmeas.noise import error_sigma
+from rfmeas.sweep import Sweep
 
 log = logging.getLogger(__name__)
 

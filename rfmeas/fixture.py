@@ -50,8 +50,8 @@ from pathlib import Path
 
 import numpy as np
 
-from .errors import InputError
-from .io.strict import check_keys, read_toml
+from rfmeas.errors import InputError
+from rfmeas.io.strict import check_keys, read_toml
 
 log = logging.getLogger(__name__)
 
@@ -259,7 +259,7 @@ def _number(table: dict, key: str, where: str, path: Path, positive=True, defaul
 
 def _read_standard(path: Path):
     """A one-port sweep of a standard: (f_Hz, s11, z0_ohm), read by the project's reader."""
-    from .io.touchstone import read_touchstone
+    from rfmeas.io.touchstone import read_touchstone
 
     data = read_touchstone(path)
     net = data.network

@@ -9,7 +9,7 @@ from __future__ import annotations
 
 import math
 
-from .errors import InputError
+from rfmeas.errors import InputError
 
 FREQUENCY_RANGE_HZ = (1e-3, 1e12)
 """1 mHz to 1 THz: far beyond any LCR meter or VNA, and safely inside the numerics' range."""

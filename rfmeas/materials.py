@@ -32,8 +32,8 @@ import re
 from dataclasses import dataclass
 from pathlib import Path
 
-from .errors import InputError
-from .io.strict import check_keys, parse_toml
+from rfmeas.errors import InputError
+from rfmeas.io.strict import check_keys, parse_toml
 
 log = logging.getLogger(__name__)
 
@@ -213,8 +213,8 @@ def parse_materials(text: str, path, origin: str) -> tuple[list[MaterialClass], 
 
 
 def _read(path: Path) -> str:
-    from .io.files import read_regular_file
-    from .io.strict import decode_text
+    from rfmeas.io.files import read_regular_file
+    from rfmeas.io.strict import decode_text
 
     return decode_text(read_regular_file(path, "material table"), path, "material table")
 

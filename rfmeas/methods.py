@@ -36,7 +36,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from .errors import InputError
+from rfmeas.errors import InputError
 
 REFLECTION = "reflection"
 SERIES_THROUGH = "series-through"
@@ -231,7 +231,7 @@ class MethodAdvice:
 def method_advice(impedance_ohm, z0_ohm: float = 50.0,
                   noise: SNoise | float = DEFAULT_NOISE) -> MethodAdvice:
     """Compare the three methods over the impedances of a sweep."""
-    from .units import format_engineering
+    from rfmeas.units import format_engineering
 
     z = np.asarray(impedance_ohm, dtype=complex).ravel()
     mag = np.abs(z)

@@ -21,7 +21,7 @@ from dataclasses import asdict, dataclass
 
 import numpy as np
 
-from .errors import InputError
+from rfmeas.errors import InputError
 
 log = logging.getLogger(__name__)
 

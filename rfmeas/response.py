@@ -25,8 +25,8 @@ from dataclasses import dataclass
 import numpy as np
 from scipy.optimize import brentq
 
-from .model.circuit import driving_point_admittance, s_from_y, y_elements
-from .model.params import TransformerParams
+from rfmeas.model.circuit import driving_point_admittance, s_from_y, y_elements
+from rfmeas.model.params import TransformerParams
 
 POINTS_PER_DECADE = 40
 _ROOT_XTOL = 1e-13  # in log10(f): far below the finite-difference steps of the error propagation

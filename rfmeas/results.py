@@ -41,10 +41,10 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
-from .fit import FitOutcome, to_physical
-from .model.params import PARAMETER_NAMES, TransformerParams
-from .noise import error_sigma
-from .sweep import Sweep
+from rfmeas.fit import FitOutcome, to_physical
+from rfmeas.model.params import PARAMETER_NAMES, TransformerParams
+from rfmeas.noise import error_sigma
+from rfmeas.sweep import Sweep
 
 # JSON key, internal name, unit for display
 PARAMETER_KEYS = (

@@ -21,11 +21,11 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from .errors import FitError, InputError
-from .fit import BOUNDS
-from .fit_start import inductance_at_low_frequency
-from .results import GOOD_MISFIT_RATIO, FitResult
-from .sweep import MeasurementSet, Sweep
+from rfmeas.errors import FitError, InputError
+from rfmeas.fit import BOUNDS
+from rfmeas.fit_start import inductance_at_low_frequency
+from rfmeas.results import GOOD_MISFIT_RATIO, FitResult
+from rfmeas.sweep import MeasurementSet, Sweep
 
 NOT_A_TRANSFORMER = "this does not look like a two-winding transformer"
 
@@ -339,7 +339,7 @@ def _residual_outliers(result: FitResult) -> list[str]:
 
 
 def _edges(result: FitResult) -> list[str]:
-    from .fit import to_internal
+    from rfmeas.fit import to_internal
 
     out = []
     params = result.params
@@ -388,7 +388,7 @@ METHOD_ADVICE_GAIN = 3.0
 
 def method_warnings(measurement: MeasurementSet) -> list[str]:
     """For each one-port reflection sweep: a sentence when a two-port method would measure it better."""
-    from .methods import method_advice
+    from rfmeas.methods import method_advice
 
     out = []
     for sweep in measurement.sweeps:

@@ -40,7 +40,7 @@ from dataclasses import dataclass, field
 from datetime import datetime, timezone
 from pathlib import Path, PurePosixPath
 
-from .errors import InputError
+from rfmeas.errors import InputError
 
 log = logging.getLogger(__name__)
 
@@ -182,7 +182,7 @@ class RecordSummary:
 
 def design_status(result: dict) -> str:
     """'pass', 'fail', 'not judged' or 'no design' from a result's design_check (rfmeas.design)."""
-    from .design import design_status as status_of_check
+    from rfmeas.design import design_status as status_of_check
 
     return status_of_check(result.get("design_check"))
 
@@ -349,8 +349,8 @@ class HistoryStore:
 
         The result is kept as strict JSON: NaN and infinities become null.
         """
-        from . import __version__
-        from .jsonio import dumps_json
+        from rfmeas import __version__
+        from rfmeas.jsonio import dumps_json
 
         rows = _checked_sources(sources)
         result_json = dumps_json(result)
@@ -525,7 +525,7 @@ class HistoryStore:
                 raise InputError(f"'{rel_path}' exists already; choose an empty folder or allow overwriting",
                                  path=target)
             targets.append((target, content))
-        from .io.atomic import atomic_write_bytes
+        from rfmeas.io.atomic import atomic_write_bytes
 
         for target, content in targets:
             target.parent.mkdir(parents=True, exist_ok=True)

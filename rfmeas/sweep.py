@@ -90,7 +90,7 @@ class Sweep:
         Reflection sweeps convert S11, two-port method sweeps their S21, each by the
         method's own formula (rfmeas.methods). `values` defaults to the measurement.
         """
-        from .methods import impedance_from_s
+        from rfmeas.methods import impedance_from_s
 
         if self.is_two_port:
             raise ValueError("a two-port sweep of both windings has no single winding impedance")
@@ -236,7 +236,7 @@ FIT_POINTS_TOTAL = 200_000
 
 def check_sweep_count(count: int, path=None) -> None:
     """Refuse a set of more than MAX_SWEEPS sweeps before any of them is read."""
-    from .errors import InputError
+    from rfmeas.errors import InputError
 
     if count > MAX_SWEEPS:
         raise InputError(f"{count:,} sweeps listed; rfmeas fits at most {MAX_SWEEPS} sweeps of one "
@@ -269,7 +269,7 @@ def refuse_repeated_sweeps(sweeps, names, path=None) -> tuple[Sweep, ...]:
     from dataclasses import replace
     from pathlib import Path
 
-    from .errors import InputError
+    from rfmeas.errors import InputError
 
     def refuse(i, j, same):
         raise InputError(f"{names[i]} {same} {names[j]}: list each measurement once (a repeat would "

@@ -5,7 +5,7 @@ from __future__ import annotations
 import math
 import re
 
-from .errors import InputError
+from rfmeas.errors import InputError
 
 _PREFIX_EXPONENT = {
     "f": -15, "p": -12, "n": -9, "u": -6, "µ": -6, "μ": -6, "m": -3,

@@ -9,9 +9,9 @@ import warnings
 
 import typer
 
-from ..errors import EXIT_BAD_INPUT, RfmeasError
-from ..jsonio import dumps_json  # noqa: F401  (re-exported for commands)
-from ..usertext import plain
+from rfmeas.errors import EXIT_BAD_INPUT, RfmeasError
+from rfmeas.jsonio import dumps_json  # noqa: F401  (re-exported for commands)
+from rfmeas.usertext import plain
 
 
 def _console_class():
@@ -27,7 +27,7 @@ def _console_class():
     from rich.errors import MarkupError
     from rich.segment import Segment
 
-    from ..usertext import visible_lines
+    from rfmeas.usertext import visible_lines
 
     class SafeConsole(Console):
         def render_str(self, text, **kwargs):
@@ -76,7 +76,7 @@ def handles_errors(func):
 
     @functools.wraps(func)
     def wrapper(*args, **kwargs):
-        from ..cli import DEBUG
+        from rfmeas.cli import DEBUG
 
         try:
             with warnings.catch_warnings():

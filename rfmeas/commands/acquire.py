@@ -7,8 +7,8 @@ from typing import Optional
 
 import typer
 
-from ..errors import EXIT_INSTRUMENT, EXIT_INTERRUPTED, InputError, InstrumentError
-from ._common import handles_errors, print_json, stderr_console
+from rfmeas.errors import EXIT_INSTRUMENT, EXIT_INTERRUPTED, InputError, InstrumentError
+from rfmeas.commands._common import handles_errors, print_json, stderr_console
 
 # Options both commands take (typer reads these definitions; it does not change them)
 _SWEEP = typer.Option("100k:30M:201", "--sweep", help="START:STOP:POINTS, e.g. 100k:30M:201.")
@@ -23,7 +23,7 @@ _PROFILE_HELP = "Instrument profile name or .toml file."
 
 
 def _parse_fault(text: Optional[str]):
-    from ..instruments.simulation import SimFaults
+    from rfmeas.instruments.simulation import SimFaults
 
     if not text:
         return SimFaults()
@@ -35,8 +35,8 @@ def _parse_fault(text: Optional[str]):
 
 def _connector(resource: str, backend: str, profile, timeout_ms: Optional[int], sim_fault: Optional[str]):
     """A function (plan, wiring) -> Session: the simulation is rebuilt per sweep and wiring."""
-    from ..instruments import open_session
-    from ..instruments.simulation import SIM_RESOURCE, SIM_TIMEOUT_MS, open_simulated_session
+    from rfmeas.instruments import open_session
+    from rfmeas.instruments.simulation import SIM_RESOURCE, SIM_TIMEOUT_MS, open_simulated_session
 
     if resource == SIM_RESOURCE:
         faults = _parse_fault(sim_fault)
@@ -53,7 +53,7 @@ def _measure(connect, profile, plan, wiring, output: Path, retries: Optional[int
     """One sweep with a progress bar on stderr; returns the AcquisitionResult."""
     from rich.progress import BarColumn, MofNCompleteColumn, Progress, TextColumn, TimeRemainingColumn
 
-    from ..instruments import Instrument, acquire
+    from rfmeas.instruments import Instrument, acquire
 
     session = connect(plan, wiring)
     try:
@@ -68,7 +68,7 @@ def _measure(connect, profile, plan, wiring, output: Path, retries: Optional[int
 
 
 def _list(backend: str, profiles_dir, as_json: bool) -> None:
-    from ..instruments import available_profiles, list_resources
+    from rfmeas.instruments import available_profiles, list_resources
 
     profiles = available_profiles(profiles_dir)
     resources = list_resources(backend)
@@ -119,9 +119,9 @@ def register(app: typer.Typer) -> None:
                                             ("--output", output)) if not value]
         if missing:
             raise InputError(f"acquire needs {', '.join(missing)} (or --list)")
-        from ..instruments import load_profile, parse_sweep
-        from ..instruments.simulation import Wiring
-        from ..instruments.touchstone_stream import check_free, ports_for
+        from rfmeas.instruments import load_profile, parse_sweep
+        from rfmeas.instruments.simulation import Wiring
+        from rfmeas.instruments.touchstone_stream import check_free, ports_for
 
         profile = load_profile(profile_name, profiles_dir)
         plan = parse_sweep(sweep, log_spacing)
@@ -163,8 +163,8 @@ def register(app: typer.Typer) -> None:
         as_json: bool = typer.Option(False, "--json", help="Print the session summary as JSON on stdout."),
     ):
         """Guided session: walks through each sweep of a measurement set and writes the manifest."""
-        from ..instruments import load_profile, parse_sweep
-        from ..instruments.guided import default_plan, manifest_text
+        from rfmeas.instruments import load_profile, parse_sweep
+        from rfmeas.instruments.guided import default_plan, manifest_text
 
         if manifest.suffix.lower() != ".toml":
             raise InputError("the manifest must be a .toml file", path=manifest)
@@ -198,8 +198,8 @@ def register(app: typer.Typer) -> None:
             if last_error is not None:
                 raise last_error
             raise InputError("no sweep was taken; nothing written", path=manifest)
-        from ..instruments.touchstone_stream import keep_aside
-        from ..io.atomic import atomic_write_text
+        from rfmeas.instruments.touchstone_stream import keep_aside
+        from rfmeas.io.atomic import atomic_write_text
 
         keep_aside(manifest, leave_in_place=True)
         atomic_write_text(manifest, manifest_text(name, taken, *turns, comment=f"written by rfmeas "
@@ -266,11 +266,11 @@ def _ask_turns(winding: str) -> Optional[int]:
 def _analyze(manifest: Path, err) -> Optional[dict]:
     """Run the analysis if this installation has it; print the headline figures."""
     try:
-        from ..analysis import analyze_manifest
+        from rfmeas.analysis import analyze_manifest
     except ImportError:
         err.print("analysis is unavailable in this installation; run `rfmeas analyze` on the manifest later")
         return None
-    from ..units import format_with_error
+    from rfmeas.units import format_with_error
 
     result = analyze_manifest(manifest).to_dict()
     parameters = result.get("parameters", {})

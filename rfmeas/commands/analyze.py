@@ -7,7 +7,7 @@ from typing import List, Optional
 
 import typer
 
-from ._common import handles_errors, print_json, stdout_console
+from rfmeas.commands._common import handles_errors, print_json, stdout_console
 
 
 def register(app: typer.Typer) -> None:
@@ -18,10 +18,10 @@ def _design_target(design, plan: str | None, return_loss: str | None):
     """The manifest's design with --plan's source, load and band, and --return-loss's threshold."""
     from dataclasses import replace
 
-    from ..errors import InputError
-    from ..limits import check_range
-    from ..sweep import DesignTarget
-    from ..units import parse_engineering
+    from rfmeas.errors import InputError
+    from rfmeas.limits import check_range
+    from rfmeas.sweep import DesignTarget
+    from rfmeas.units import parse_engineering
 
     target = design or DesignTarget()
     if plan is not None:
@@ -72,13 +72,13 @@ def analyze_command(
     plots_dir: Optional[Path] = typer.Option(None, "--plots", help="Also write every plot as PNG, SVG and PDF into this folder."),
 ):
     """Fit the equivalent circuit to all sweeps of one transformer at once."""
-    from ..errors import EXIT_DESIGN_FAILED
+    from rfmeas.errors import EXIT_DESIGN_FAILED
 
     analysis = run_analysis(inputs, turns, termination, port1, plan, return_loss)
     record_id, not_kept = None, None
     if record:
-        from ..errors import RfmeasError
-        from ..store import HistoryStore, record_analysis
+        from rfmeas.errors import RfmeasError
+        from rfmeas.store import HistoryStore, record_analysis
 
         try:
             with HistoryStore(db) as store:
@@ -88,23 +88,23 @@ def analyze_command(
     if json_output:
         print_json(analysis.to_dict())
     else:
-        from ..terminal import render_analysis
+        from rfmeas.terminal import render_analysis
 
         console = stdout_console()
         render_analysis(analysis, console)
         if record_id is not None:
             console.print(f"[dim]recorded in the history as @{record_id}[/]")
     if report is not None or plots_dir is not None:
-        from ._common import stderr_console
-        from .report import tell, write_outputs
+        from rfmeas.commands._common import stderr_console
+        from rfmeas.commands.report import tell, write_outputs
 
         tell(write_outputs(analysis, report, plots_dir), stderr_console() if json_output else stdout_console())
     if not_kept is not None:
-        from ._common import report_error
+        from rfmeas.commands._common import report_error
 
         report_error(f"{not_kept}; this analysis was not kept in the history (--no-record skips keeping it)")
         raise typer.Exit(not_kept.exit_code)
-    from ..design import design_fails
+    from rfmeas.design import design_fails
 
     if design_fails(analysis.design_status):  # failed, or could not be judged
         raise typer.Exit(EXIT_DESIGN_FAILED)
@@ -114,9 +114,9 @@ def run_analysis(inputs, turns=None, termination="open", port1="primary", plan=N
     """Analyse a manifest (path or folder) or a list of Touchstone files, with an optional target."""
     from dataclasses import replace
 
-    from ..analysis import analyze
-    from ..errors import InputError
-    from ..io.manifest import load_manifest, measurement_set_from_files, parse_turns
+    from rfmeas.analysis import analyze
+    from rfmeas.errors import InputError
+    from rfmeas.io.manifest import load_manifest, measurement_set_from_files, parse_turns
 
     first = Path(inputs[0])
     if first.suffix.lower() == ".toml" or first.is_dir():

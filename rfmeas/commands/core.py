@@ -7,13 +7,13 @@ from typing import Optional
 
 import typer
 
-from ._common import handles_errors, print_json, stdout_console
-from ..usertext import markup
+from rfmeas.commands._common import handles_errors, print_json, stdout_console
+from rfmeas.usertext import markup
 
 
 def _numbers(option: str, text: str, count: int) -> list[float]:
-    from ..errors import InputError
-    from ..units import parse_engineering
+    from rfmeas.errors import InputError
+    from rfmeas.units import parse_engineering
 
     parts = [p for p in text.replace(";", ",").split(",") if p.strip()]
     if count and len(parts) != count:
@@ -25,8 +25,8 @@ def _numbers(option: str, text: str, count: int) -> list[float]:
 
 
 def _geometry(toroid: str | None, effective: str | None, two_hole: str | None = None, rod: str | None = None):
-    from ..errors import InputError
-    from ..magnetics.geometry import effective_geometry, rod_geometry, toroid_geometry, two_hole_geometry
+    from rfmeas.errors import InputError
+    from rfmeas.magnetics.geometry import effective_geometry, rod_geometry, toroid_geometry, two_hole_geometry
 
     given = [(name, text) for name, text in (("--toroid", toroid), ("--effective", effective),
                                              ("--two-hole", two_hole), ("--rod", rod)) if text]
@@ -41,7 +41,7 @@ def _geometry(toroid: str | None, effective: str | None, two_hole: str | None = 
 
 
 def _turn_counts(text: str | None) -> list[int]:
-    from ..errors import InputError
+    from rfmeas.errors import InputError
 
     if text is None:
         return []
@@ -58,7 +58,7 @@ def _turn_counts(text: str | None) -> list[int]:
 
 
 def _error_model(directivity, source_match, tracking):
-    from ..magnetics.dispersion import DEFAULT_VNA_ERRORS, VnaErrorModel
+    from rfmeas.magnetics.dispersion import DEFAULT_VNA_ERRORS, VnaErrorModel
 
     if directivity is None and source_match is None and tracking is None:
         return None
@@ -73,8 +73,8 @@ def render_core(analysis, console=None) -> None:
     from rich import box
     from rich.table import Table
 
-    from ..units import format_engineering as eng
-    from ..units import format_with_error
+    from rfmeas.units import format_engineering as eng
+    from rfmeas.units import format_with_error
 
     console = console or stdout_console()
     console.print(f"Core: {analysis.geometry.description}, {analysis.turns} turns, "
@@ -158,8 +158,8 @@ def render_core(analysis, console=None) -> None:
 
 
 def _value(value, stderr, unit):
-    from ..units import format_engineering as eng
-    from ..units import format_with_error
+    from rfmeas.units import format_engineering as eng
+    from rfmeas.units import format_with_error
 
     if stderr is None:
         return "0 (at its bound: not determined)" if abs(value) < 1e-15 else f"{eng(value, unit, 3)} (not determined)"
@@ -186,8 +186,8 @@ def render_readings(result, console=None) -> None:
     from rich import box
     from rich.table import Table
 
-    from ..units import format_engineering as eng
-    from ..units import format_with_error
+    from rfmeas.units import format_engineering as eng
+    from rfmeas.units import format_with_error
 
     console = console or stdout_console()
     console.print(f"Core: {result.geometry.description}, {result.turns} turns, LCR readings "
@@ -250,10 +250,10 @@ def core_command(
     """Identify an unknown core from test windings: µi, dispersion, loss factor, material class."""
     from dataclasses import replace
 
-    from ..core import analyze_core_file, analyze_readings_file, given_leads
-    from ..errors import InputError
-    from ..materials import RESISTIVITY
-    from ..units import parse_engineering
+    from rfmeas.core import analyze_core_file, analyze_readings_file, given_leads
+    from rfmeas.errors import InputError
+    from rfmeas.materials import RESISTIVITY
+    from rfmeas.units import parse_engineering
 
     if dc_resistance is not None and dc_resistance not in RESISTIVITY:
         raise InputError(f"--dc-resistance must be one of {', '.join(RESISTIVITY)}, not {dc_resistance!r}")
@@ -278,7 +278,7 @@ def core_command(
             raise InputError("LCR readings need the winding's turns (--turns N)")
         lcr_leads = leads
         if lcr_leads is None and leads_short is not None:
-            from ..core import leads_from_short, _read_impedance
+            from rfmeas.core import leads_from_short, _read_impedance
 
             f_s, z_s, m_s, z0_s, _, _ = _read_impedance(leads_short, None)
             lcr_leads = leads_from_short(f_s, z_s, errors or _default_errors(), z0_s, m_s)
@@ -302,7 +302,7 @@ def core_command(
     if lcr is not None:
         analysis = replace(analysis, lcr=lcr)
     if plot is not None:
-        from ..plots.permeability import plot_permeability
+        from rfmeas.plots.permeability import plot_permeability
 
         plot_permeability(analysis, plot)
     if json_output:
@@ -314,6 +314,6 @@ def core_command(
 
 
 def _default_errors():
-    from ..magnetics.dispersion import DEFAULT_VNA_ERRORS
+    from rfmeas.magnetics.dispersion import DEFAULT_VNA_ERRORS
 
     return DEFAULT_VNA_ERRORS

@@ -6,8 +6,8 @@ from pathlib import Path
 
 import typer
 
-from ._common import handles_errors, stdout_console
-from ..usertext import markup
+from rfmeas.commands._common import handles_errors, stdout_console
+from rfmeas.usertext import markup
 
 
 def register(app: typer.Typer) -> None:
@@ -46,12 +46,12 @@ def demo_command(
     out: Path = typer.Option(Path("."), "--out", help="Folder for the demo's outputs (default: the current folder)."),
 ):
     """Analyse the bundled sample measurements and write the results into --out."""
-    from ..analysis import analyze_manifest
-    from ..errors import InputError
-    from ..io.atomic import atomic_write_text
-    from ..terminal import render_analysis
-    from ._common import dumps_json
-    from .report import write_outputs
+    from rfmeas.analysis import analyze_manifest
+    from rfmeas.errors import InputError
+    from rfmeas.io.atomic import atomic_write_text
+    from rfmeas.terminal import render_analysis
+    from rfmeas.commands._common import dumps_json
+    from rfmeas.commands.report import write_outputs
 
     manifests = sample_manifests()
     if not manifests:
@@ -84,8 +84,8 @@ def demo_command(
 
 def _compare(before, after, out: Path, console) -> Path:
     """The rework in a few lines, and the overlay of both units' sweeps and models."""
-    from ..compare import compare_results
-    from ..plots.compare import plot_comparison
+    from rfmeas.compare import compare_results
+    from rfmeas.plots.compare import plot_comparison
 
     comparison = compare_results(before.to_dict(), after.to_dict())
     console.rule("before → after")
@@ -98,11 +98,11 @@ def _compare(before, after, out: Path, console) -> Path:
 
 def _core(folder: Path, out: Path, console) -> list[Path]:
     """The unknown-core job: what is this core? (see `rfmeas core`)."""
-    from ..core import analyze_core_file
-    from ..io.atomic import atomic_write_text
-    from ..plots.permeability import plot_permeability
-    from ._common import dumps_json
-    from .core import render_core
+    from rfmeas.core import analyze_core_file
+    from rfmeas.io.atomic import atomic_write_text
+    from rfmeas.plots.permeability import plot_permeability
+    from rfmeas.commands._common import dumps_json
+    from rfmeas.commands.core import render_core
 
     console.rule(f"{folder.name}: what is this core?")
     analysis = analyze_core_file(folder)

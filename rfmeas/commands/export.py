@@ -7,8 +7,8 @@ from typing import List, Optional
 
 import typer
 
-from ._common import handles_errors, print_json, stdout_console
-from ..usertext import markup
+from rfmeas.commands._common import handles_errors, print_json, stdout_console
+from rfmeas.usertext import markup
 
 
 def register(app: typer.Typer) -> None:
@@ -31,13 +31,13 @@ def export_command(
     """Fit the transformer and export the equivalent circuit for a circuit simulator."""
     import numpy as np
 
-    from .. import __version__
-    from ..errors import InputError
-    from ..export import model_touchstone_network, spice_subcircuit
-    from ..io.atomic import atomic_write_text
-    from ..io.touchstone import write_touchstone
-    from ..units import format_engineering, parse_engineering
-    from .analyze import run_analysis
+    from rfmeas import __version__
+    from rfmeas.errors import InputError
+    from rfmeas.export import model_touchstone_network, spice_subcircuit
+    from rfmeas.io.atomic import atomic_write_text
+    from rfmeas.io.touchstone import write_touchstone
+    from rfmeas.units import format_engineering, parse_engineering
+    from rfmeas.commands.analyze import run_analysis
 
     if spice is None and touchstone is None:
         raise InputError("say what to write: --spice FILE and/or --touchstone FILE")

@@ -8,7 +8,7 @@ from typing import Optional, Tuple
 import typer
 from rich.markup import escape
 
-from ._common import handles_errors, print_json, stderr_console, stdout_console
+from rfmeas.commands._common import handles_errors, print_json, stderr_console, stdout_console
 
 DB_HELP = "History store file (default: $RFMEAS_DB, else rfmeas/history.sqlite3 in the user's data folder)."
 
@@ -30,7 +30,7 @@ def register(app: typer.Typer) -> None:
         force: bool = typer.Option(False, "--force", help="With --export: overwrite existing files."),
     ):
         """List the stored analyses (newest first), or export one's raw inputs byte for byte."""
-        from ..store import HistoryStore
+        from rfmeas.store import HistoryStore
 
         with HistoryStore(db) as store:
             if export is not None:

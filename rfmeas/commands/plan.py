@@ -4,14 +4,14 @@ from __future__ import annotations
 
 import typer
 
-from ._common import handles_errors, print_json, stdout_console
+from rfmeas.commands._common import handles_errors, print_json, stdout_console
 
 
 def _number(option: str, text: str, key: str | None = None) -> float:
     """The option's value; with `key`, checked against its plausible range (rfmeas.limits)."""
-    from ..errors import InputError
-    from ..limits import check_range
-    from ..units import parse_engineering
+    from rfmeas.errors import InputError
+    from rfmeas.limits import check_range
+    from rfmeas.units import parse_engineering
 
     try:
         value = parse_engineering(text)
@@ -24,7 +24,7 @@ def _render(plan) -> None:
     from rich import box
     from rich.table import Table
 
-    from ..units import format_engineering as eng
+    from rfmeas.units import format_engineering as eng
 
     console = stdout_console()
     console.print(
@@ -77,9 +77,9 @@ def register(app: typer.Typer) -> None:
         as_json: bool = typer.Option(False, "--json", help="Print the plan as JSON only."),
     ):
         """Plan the turns of a broadband transformer: ratio, minimum turns, whole-turn choices."""
-        from ..limits import check_range
-        from ..magnetics.permeability import al_to_nH_per_turn2
-        from ..plan import plan_turns
+        from rfmeas.limits import check_range
+        from rfmeas.magnetics.permeability import al_to_nH_per_turn2
+        from rfmeas.plan import plan_turns
 
         plan = plan_turns(
             source_impedance_ohm=_number("--source", source, "source_impedance_ohm"),

@@ -7,8 +7,8 @@ from typing import Optional
 
 import typer
 
-from ._common import handles_errors, print_json, stderr_console, stdout_console
-from ..usertext import markup
+from rfmeas.commands._common import handles_errors, print_json, stderr_console, stdout_console
+from rfmeas.usertext import markup
 
 
 def register(app: typer.Typer) -> None:
@@ -18,8 +18,8 @@ def register(app: typer.Typer) -> None:
 def write_outputs(analysis, report: Optional[Path] = None, plots_dir: Optional[Path] = None,
                   pdf: bool = False) -> dict:
     """Write the report, the plot files and the PDF that were asked for; returns what was written."""
-    from ..report.html import write_report
-    from ..report.plots import analysis_plots, close_plots, export_plots
+    from rfmeas.report.html import write_report
+    from rfmeas.report.plots import analysis_plots, close_plots, export_plots
 
     written = {"report": None, "pdf": None, "pdf_skipped": None, "plots": []}
     if report is None and plots_dir is None:
@@ -33,7 +33,7 @@ def write_outputs(analysis, report: Optional[Path] = None, plots_dir: Optional[P
     finally:
         close_plots(plots)
     if pdf and report is not None:
-        from ..report.pdf import find_browser, print_pdf
+        from rfmeas.report.pdf import find_browser, print_pdf
 
         if find_browser() is None:
             written["pdf_skipped"] = "no PDF renderer found (install chromium)"
@@ -64,7 +64,7 @@ def report_command(
     json_output: bool = typer.Option(False, "--json", help="Print what was written as JSON on stdout."),
 ):
     """Write one self-contained HTML report of a measurement set: verdicts, numbers, plots, provenance."""
-    from ..analysis import analyze_manifest
+    from rfmeas.analysis import analyze_manifest
 
     analysis = analyze_manifest(manifest)
     written = write_outputs(analysis, output, plots_dir, pdf)

@@ -1,10 +1,10 @@
 """Take sweeps from SCPI instruments (LCR meters, VNAs) through pyvisa, with profiles as TOML."""
 
-from .acquisition import AcquisitionResult, Instrument, acquire
-from .profiles import Profile, available_profiles, load_profile, parse_profile
-from .session import InstrumentTimeout, Session, list_resources, open_session
-from .sweep import SweepPlan, parse_sweep
-from .touchstone_stream import TouchstoneStream, partial_path
+from rfmeas.instruments.acquisition import AcquisitionResult, Instrument, acquire
+from rfmeas.instruments.profiles import Profile, available_profiles, load_profile, parse_profile
+from rfmeas.instruments.session import InstrumentTimeout, Session, list_resources, open_session
+from rfmeas.instruments.sweep import SweepPlan, parse_sweep
+from rfmeas.instruments.touchstone_stream import TouchstoneStream, partial_path
 
 __all__ = [
     "AcquisitionResult", "Instrument", "InstrumentTimeout", "Profile", "Session", "SweepPlan",

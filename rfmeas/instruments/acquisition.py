@@ -13,12 +13,12 @@ from typing import Callable
 
 import numpy as np
 
-from ..errors import InputError, InstrumentError
-from .profiles import Profile
-from .replies import parse_point, parse_trace
-from .session import InstrumentTimeout, Session
-from .sweep import SweepPlan
-from .touchstone_stream import TouchstoneStream, check_free, ports_for
+from rfmeas.errors import InputError, InstrumentError
+from rfmeas.instruments.profiles import Profile
+from rfmeas.instruments.replies import parse_point, parse_trace
+from rfmeas.instruments.session import InstrumentTimeout, Session
+from rfmeas.instruments.sweep import SweepPlan
+from rfmeas.instruments.touchstone_stream import TouchstoneStream, check_free, ports_for
 
 log = logging.getLogger(__name__)
 

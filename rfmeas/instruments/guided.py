@@ -10,8 +10,8 @@ from __future__ import annotations
 import json
 from dataclasses import dataclass
 
-from ..errors import InputError
-from .simulation import Wiring
+from rfmeas.errors import InputError
+from rfmeas.instruments.simulation import Wiring
 
 
 @dataclass(frozen=True)

@@ -14,8 +14,8 @@ from dataclasses import asdict, dataclass
 from importlib import resources
 from pathlib import Path
 
-from ..errors import InputError
-from ..io.strict import check_keys, parse_toml
+from rfmeas.errors import InputError
+from rfmeas.io.strict import check_keys, parse_toml
 
 PROFILES_ENV = "RFMEAS_PROFILES"
 
@@ -180,8 +180,8 @@ def parse_profile(text: str, path: str | Path = "<profile>") -> Profile:
 
 def load_profile_file(path: str | Path) -> Profile:
     path = Path(path)
-    from ..io.files import read_regular_file  # regular files only, bounded in size
-    from ..io.strict import decode_text
+    from rfmeas.io.files import read_regular_file  # regular files only, bounded in size
+    from rfmeas.io.strict import decode_text
 
     return parse_profile(decode_text(read_regular_file(path, "profile"), path, "profile"), path)
 

@@ -16,7 +16,7 @@ import math
 
 import numpy as np
 
-from ..errors import InstrumentError
+from rfmeas.errors import InstrumentError
 
 # SCPI instruments return 9.9e37 (or 9.91e37, "not a number") for overload
 _OVERLOAD = 9.0e37

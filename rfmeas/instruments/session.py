@@ -10,7 +10,7 @@ from __future__ import annotations
 import logging
 from typing import Protocol
 
-from ..errors import InputError, InstrumentError
+from rfmeas.errors import InputError, InstrumentError
 
 log = logging.getLogger(__name__)
 

@@ -23,13 +23,13 @@ from pathlib import Path
 
 import numpy as np
 
-from ..errors import InputError
-from ..model import TransformerParams, input_impedance, reflection, s_matrix
-from .acquisition import ONE_PORT, TWO_PORT, Z0_OHM, commanded_frequency_Hz
-from .profiles import Profile
-from .replies import format_point, format_trace
-from .session import Session
-from .sweep import SweepPlan
+from rfmeas.errors import InputError
+from rfmeas.model import TransformerParams, input_impedance, reflection, s_matrix
+from rfmeas.instruments.acquisition import ONE_PORT, TWO_PORT, Z0_OHM, commanded_frequency_Hz
+from rfmeas.instruments.profiles import Profile
+from rfmeas.instruments.replies import format_point, format_trace
+from rfmeas.instruments.session import Session
+from rfmeas.instruments.sweep import SweepPlan
 
 SIM_RESOURCE = "sim"
 SIM_RESOURCE_NAME = "TCPIP0::rfmeas-sim::inst0::INSTR"

@@ -6,8 +6,8 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from ..errors import InputError
-from ..units import parse_engineering
+from rfmeas.errors import InputError
+from rfmeas.units import parse_engineering
 
 
 @dataclass(frozen=True)

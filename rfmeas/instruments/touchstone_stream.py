@@ -20,8 +20,8 @@ from pathlib import Path
 
 import numpy as np
 
-from ..errors import InputError
-from ..io.incomplete import INCOMPLETE_SWEEP_MARK
+from rfmeas.errors import InputError
+from rfmeas.io.incomplete import INCOMPLETE_SWEEP_MARK
 
 log = logging.getLogger(__name__)
 
@@ -131,7 +131,7 @@ class TouchstoneStream:
         self._file.close()
         text = self.partial.read_text(encoding="utf-8")
         text = text.replace(INCOMPLETE_MARK + "\n", "", 1)
-        from ..io.atomic import atomic_write_text
+        from rfmeas.io.atomic import atomic_write_text
 
         check_free(self.path, self.overwrite)  # it may have appeared during the sweep
         self.previous = keep_aside(self.path, leave_in_place=True)

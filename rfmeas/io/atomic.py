@@ -11,7 +11,7 @@ import os
 import secrets
 from pathlib import Path
 
-from ..errors import InputError
+from rfmeas.errors import InputError
 
 
 def atomic_write_bytes(path: str | os.PathLike, data: bytes) -> None:

@@ -21,7 +21,7 @@ from __future__ import annotations
 import os
 import stat
 
-from ..errors import InputError
+from rfmeas.errors import InputError
 
 MAX_TOUCHSTONE_BYTES = 64 * 1024 * 1024
 """A 100,001-point two-port sweep is about 20 MB of text."""

@@ -8,11 +8,11 @@ from pathlib import Path
 
 import numpy as np
 
-from ..errors import InputError
-from ..limits import check_range
-from ..usertext import plain
-from .strict import check_keys, read_toml
-from ..sweep import (WINDINGS, DesignTarget, MeasurementSet, Sweep, check_sweep_count, other_winding,
+from rfmeas.errors import InputError
+from rfmeas.limits import check_range
+from rfmeas.usertext import plain
+from rfmeas.io.strict import check_keys, read_toml
+from rfmeas.sweep import (WINDINGS, DesignTarget, MeasurementSet, Sweep, check_sweep_count, other_winding,
                      refuse_repeated_sweeps, thin_for_fit)
 
 _TOP_KEYS = {"transformer", "core", "design", "sweep"}
@@ -42,7 +42,7 @@ def parse_termination(value, where: str, path) -> str | float:
         text = value.strip().lower()
         if text in ("open", "short"):
             return text
-        from ..units import parse_engineering
+        from rfmeas.units import parse_engineering
 
         try:
             value = parse_engineering(text.replace("ohms", "").replace("ohm", "").replace("ω", ""))
@@ -59,7 +59,7 @@ def load_sweep(file_path: Path, port1: str, termination=None, port2: str | None 
                label: str | None = None, where: str = "sweep", manifest_path=None,
                method: str = "reflection", fixture_path: Path | None = None) -> Sweep:
     """Read one Touchstone file and check it against how it is said to be connected."""
-    from .touchstone import read_touchstone
+    from rfmeas.io.touchstone import read_touchstone
 
     data = read_touchstone(file_path)
     label = label or file_path.name
@@ -122,7 +122,7 @@ def load_sweep(file_path: Path, port1: str, termination=None, port2: str | None 
 
 def _partial_sweep(raw_bytes: bytes, file_path: Path, warnings: list[str]) -> bool:
     """True (with a warning naming the file) when the file is marked as an incomplete sweep."""
-    from .incomplete import marked_incomplete
+    from rfmeas.io.incomplete import marked_incomplete
 
     if not marked_incomplete(raw_bytes):
         return False
@@ -133,7 +133,7 @@ def _partial_sweep(raw_bytes: bytes, file_path: Path, warnings: list[str]) -> bo
 
 def _compensate(network, fixture_path: Path):
     """The one-port `network` as the DUT would read without the jig (rfmeas.fixture)."""
-    from ..fixture import load_fixture
+    from rfmeas.fixture import load_fixture
 
     fixture = load_fixture(fixture_path)
     s11 = fixture.compensate_reflection(network.f, network.s[:, 0, 0],
@@ -192,7 +192,7 @@ def load_manifest(path: str | Path) -> MeasurementSet:
     if core is not None:
         if not isinstance(core, dict):
             raise InputError("[core] must be a table", path)
-        from ..magnetics.geometry import geometry_from_table
+        from rfmeas.magnetics.geometry import geometry_from_table
 
         geometry_from_table(core, path)  # validates; the table itself is kept
         core = dict(core)
@@ -219,7 +219,7 @@ def load_manifest(path: str | Path) -> MeasurementSet:
         check_keys(entry, _SWEEP_KEYS, f"[{where}]", path)
         if "file" not in entry or not isinstance(entry["file"], str):
             raise InputError(f"{where} needs file = \"...\" (a Touchstone file relative to the manifest)", path)
-        from ..methods import METHODS
+        from rfmeas.methods import METHODS
 
         method = entry.get("method", "reflection")
         if method not in METHODS:

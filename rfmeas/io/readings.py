@@ -34,10 +34,10 @@ from pathlib import Path
 
 import numpy as np
 
-from ..errors import InputError
-from ..units import parse_engineering
-from .atomic import atomic_write_text
-from .strict import parse_toml
+from rfmeas.errors import InputError
+from rfmeas.units import parse_engineering
+from rfmeas.io.atomic import atomic_write_text
+from rfmeas.io.strict import parse_toml
 
 log = logging.getLogger(__name__)
 
@@ -258,7 +258,7 @@ def _check_reading(form: str, f_Hz: float, a: float, b: float, where: str, path,
 # ---------------------------------------------------------------- files
 
 def _read_text(path: Path) -> str:
-    from .files import read_regular_file  # regular files only, bounded, non-blocking
+    from rfmeas.io.files import read_regular_file  # regular files only, bounded, non-blocking
 
     raw = read_regular_file(path, "file of LCR readings", MAX_READINGS_BYTES)
     try:

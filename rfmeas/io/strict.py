@@ -8,8 +8,8 @@ from __future__ import annotations
 
 import tomllib
 
-from ..errors import InputError
-from . import files
+from rfmeas.errors import InputError
+from rfmeas.io import files
 
 MAX_TOML_BYTES = files.MAX_TOML_BYTES
 """Our TOML files are a few kB; anything above this is not one of them (checked before reading)."""

@@ -24,11 +24,11 @@ from typing import NoReturn
 import numpy as np
 import skrf as rf
 
-from .. import __version__
-from ..errors import InputError
-from ..limits import FREQUENCY_RANGE_HZ
-from . import files
-from .atomic import atomic_write_text
+from rfmeas import __version__
+from rfmeas.errors import InputError
+from rfmeas.limits import FREQUENCY_RANGE_HZ
+from rfmeas.io import files
+from rfmeas.io.atomic import atomic_write_text
 
 log = logging.getLogger(__name__)
 

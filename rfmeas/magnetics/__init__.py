@@ -1,6 +1,6 @@
 """Pure magnetics: core geometry (IEC 60205 constants), A_L and complex permeability."""
 
-from .geometry import (
+from rfmeas.magnetics.geometry import (
     CoreGeometry,
     apparent_permeability,
     effective_geometry,
@@ -13,7 +13,7 @@ from .geometry import (
     toroid_geometry,
     two_hole_geometry,
 )
-from .permeability import (
+from rfmeas.magnetics.permeability import (
     AL_UNITS,
     MU0_H_per_m,
     al_to_nH_per_turn2,

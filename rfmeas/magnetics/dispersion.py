@@ -29,9 +29,9 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from ..errors import InputError
-from .geometry import CoreGeometry
-from .permeability import MU0_H_per_m
+from rfmeas.errors import InputError
+from rfmeas.magnetics.geometry import CoreGeometry
+from rfmeas.magnetics.permeability import MU0_H_per_m
 
 RELAXATION = "relaxation"
 RESONANCE = "resonance"
@@ -174,7 +174,7 @@ class VnaErrorModel:
         For the two-port methods the same form is applied to the S21 they measure (isolation,
         tracking and match residues in the roles of ed, et, es): a rough but sized guess.
         """
-        from ..methods import impedance_sensitivity, s_from_impedance
+        from rfmeas.methods import impedance_sensitivity, s_from_impedance
 
         z = np.asarray(impedance_ohm, dtype=complex)
         with np.errstate(divide="ignore", invalid="ignore"):

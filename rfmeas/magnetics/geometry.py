@@ -15,7 +15,7 @@ from pathlib import Path
 
 import numpy as np
 
-from ..errors import InputError
+from rfmeas.errors import InputError
 
 log = logging.getLogger(__name__)
 

@@ -9,8 +9,8 @@ from __future__ import annotations
 
 import numpy as np
 
-from ..errors import InputError
-from .geometry import CoreGeometry
+from rfmeas.errors import InputError
+from rfmeas.magnetics.geometry import CoreGeometry
 
 MU0_H_per_m = 1.25663706212e-6
 """Vacuum permeability, CODATA 2018."""

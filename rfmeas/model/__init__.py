@@ -1,7 +1,7 @@
 """The two-winding equivalent circuit: parameters and its pure, vectorised evaluation."""
 
-from .params import PARAMETER_NAMES, TransformerParams
-from .circuit import (
+from rfmeas.model.params import PARAMETER_NAMES, TransformerParams
+from rfmeas.model.circuit import (
     admittance_matrix,
     input_impedance,
     reflection,

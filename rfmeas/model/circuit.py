@@ -17,7 +17,7 @@ from __future__ import annotations
 
 import numpy as np
 
-from .params import TransformerParams
+from rfmeas.model.params import TransformerParams
 
 OPEN = 0.0
 SHORT = np.inf

@@ -4,8 +4,8 @@ from __future__ import annotations
 
 import numpy as np
 
-from . import style
-from .sweeps import model_sweeps
+from rfmeas.plots import style
+from rfmeas.plots.sweeps import model_sweeps
 
 
 def matched_sweeps(before, after) -> list[tuple[int, int]]:
@@ -29,7 +29,7 @@ def plot_comparison(before, after, path=None):
     Lines carry gids "data:before:<label>", "model:before:<label>" and the same
     for "after"; one-port panels show |Z|, two-port panels |S21| in dB.
     """
-    from ..errors import InputError
+    from rfmeas.errors import InputError
 
     pairs = matched_sweeps(before, after)
     if not pairs:

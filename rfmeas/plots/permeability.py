@@ -4,8 +4,8 @@ from __future__ import annotations
 
 import numpy as np
 
-from ..units import format_engineering
-from .style import PALETTE, close, engineering_axis, new_figure, save_figure
+from rfmeas.units import format_engineering
+from rfmeas.plots.style import PALETTE, close, engineering_axis, new_figure, save_figure
 
 MODEL_POINTS = 400
 

@@ -19,8 +19,8 @@ import math
 
 import numpy as np
 
-from . import style
-from .sweeps import model_sweeps
+from rfmeas.plots import style
+from rfmeas.plots.sweeps import model_sweeps
 
 RESPONSE_POINTS = 600
 
@@ -49,7 +49,7 @@ def response_terminations(analysis) -> tuple[float, float, str]:
 
 def transducer_response(params, f_Hz, source_ohm: float, load_ohm: float):
     """(gain dB, return loss dB) of `params` between `source_ohm` and `load_ohm`."""
-    from ..model.circuit import s_matrix
+    from rfmeas.model.circuit import s_matrix
 
     s = s_matrix(params, f_Hz, "primary", source_ohm, load_ohm)
     with np.errstate(divide="ignore"):
@@ -149,8 +149,8 @@ def core_spectra(analysis, model=None):
            "al_data": (z_data / (1j * w)).real / turns ** 2 * 1e9,
            "al_model": (z_model / (1j * w)).real / turns ** 2 * 1e9}
     if ms.core:
-        from ..magnetics import geometry as geo
-        from ..magnetics.permeability import complex_permeability
+        from rfmeas.magnetics import geometry as geo
+        from rfmeas.magnetics.permeability import complex_permeability
 
         core = geo.geometry_from_table(ms.core)
         p = analysis.fit.params

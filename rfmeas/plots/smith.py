@@ -4,8 +4,8 @@ from __future__ import annotations
 
 import numpy as np
 
-from . import style
-from .sweeps import model_sweeps
+from rfmeas.plots import style
+from rfmeas.plots.sweeps import model_sweeps
 
 
 def reflection_series(analysis, model=None) -> list[tuple[str, np.ndarray, np.ndarray]]:

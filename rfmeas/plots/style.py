@@ -75,8 +75,8 @@ def save_figure(fig, path, dpi: int = 150) -> None:
     """Write PNG, SVG or PDF by the file's extension, atomically."""
     from pathlib import Path
 
-    from ..errors import InputError
-    from ..io.atomic import atomic_write_bytes
+    from rfmeas.errors import InputError
+    from rfmeas.io.atomic import atomic_write_bytes
 
     path = Path(path)
     fmt = path.suffix.lstrip(".").lower() or "png"

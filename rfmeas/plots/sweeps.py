@@ -10,12 +10,12 @@ from __future__ import annotations
 
 import numpy as np
 
-from . import style
+from rfmeas.plots import style
 
 
 def model_sweeps(analysis) -> list[np.ndarray]:
     """Model S elements of every sweep at the fitted parameters: list of (F, E) complex arrays."""
-    from ..fit import SweepProblem
+    from rfmeas.fit import SweepProblem
 
     params = analysis.fit.params
     problem = SweepProblem(list(analysis.measurement.sweeps), params.polarity)

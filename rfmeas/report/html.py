@@ -13,10 +13,10 @@ import math
 import platform
 from pathlib import Path
 
-from .. import __version__
-from ..figures import figure_rows
-from ..results import LABELS, PARAMETER_KEYS
-from ..units import format_engineering, format_with_error
+from rfmeas import __version__
+from rfmeas.figures import figure_rows
+from rfmeas.results import LABELS, PARAMETER_KEYS
+from rfmeas.units import format_engineering, format_with_error
 
 CAUTIONS = (
     "These are small-signal results: they say nothing about insulation, saturation, "
@@ -107,7 +107,7 @@ def missed_text(quality) -> str:
 
 def quality_row(analysis) -> dict:
     """The fit judged against the data's own noise, as a verdict row."""
-    from ..results import GOOD_MISFIT_RATIO, POOR_MISFIT_RATIO
+    from rfmeas.results import GOOD_MISFIT_RATIO, POOR_MISFIT_RATIO
 
     q = analysis.fit.quality
     missed = missed_text(q)
@@ -221,7 +221,7 @@ def software_versions() -> list[dict]:
 
 
 def png_data_uri(figure, dpi: int = 110) -> str:
-    from ..plots.style import figure_bytes
+    from rfmeas.plots.style import figure_bytes
 
     return "data:image/png;base64," + base64.b64encode(figure_bytes(figure, "png", dpi)).decode("ascii")
 
@@ -274,7 +274,7 @@ def _environment():
 
 def render_report(analysis, plots=None, generated: str | None = None) -> str:
     """The report page as HTML text; `plots` (from analysis_plots) are made and closed if not given."""
-    from .plots import analysis_plots, close_plots
+    from rfmeas.report.plots import analysis_plots, close_plots
 
     own = plots is None
     plots = analysis_plots(analysis) if own else plots
@@ -288,7 +288,7 @@ def render_report(analysis, plots=None, generated: str | None = None) -> str:
 
 def write_report(analysis, path, plots=None) -> Path:
     """Render the report and write it to `path` atomically; returns the path."""
-    from ..io.atomic import atomic_write_text
+    from rfmeas.io.atomic import atomic_write_text
 
     path = Path(path)
     atomic_write_text(path, render_report(analysis, plots))

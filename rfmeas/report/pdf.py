@@ -8,7 +8,7 @@ import subprocess
 import tempfile
 from pathlib import Path
 
-from ..errors import InputError
+from rfmeas.errors import InputError
 
 log = logging.getLogger(__name__)
 
