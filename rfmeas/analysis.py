@@ -6,9 +6,9 @@ from dataclasses import dataclass, field, replace
 from pathlib import Path
 
 from rfmeas import __version__
-from rfmeas.jsonio import SCHEMA_VERSION
-from rfmeas.results import FitResult
-from rfmeas.sweep import MeasurementSet
+from rfmeas.io.jsonio import SCHEMA_VERSION
+from rfmeas.fit.result import FitResult
+from rfmeas.measurement.sweep import MeasurementSet
 
 
 @dataclass(frozen=True)
@@ -36,8 +36,8 @@ class Analysis:
 
     @property
     def design_status(self) -> str:
-        """'pass', 'fail', 'not judged' or 'no design' (rfmeas.design.design_status)."""
-        from rfmeas.design import design_status
+        """'pass', 'fail', 'not judged' or 'no design' (rfmeas.judge.design.design_status)."""
+        from rfmeas.judge.design import design_status
 
         return design_status(self.design_check)
 
@@ -69,10 +69,10 @@ class Analysis:
 
 def analyze(measurement: MeasurementSet) -> Analysis:
     """Fit every sweep of `measurement` at once and derive the figures of merit."""
-    from rfmeas.figures import compute_figures
-    from rfmeas.fit import fit_sweeps
-    from rfmeas.results import build_result
-    from rfmeas.sanity import method_warnings, review_fit, review_sweeps
+    from rfmeas.judge.figures import compute_figures
+    from rfmeas.fit.solver import fit_sweeps
+    from rfmeas.fit.result import build_result
+    from rfmeas.fit.checks import method_warnings, review_fit, review_sweeps
 
     pre, unusable = review_sweeps(measurement)  # raises FitError when no sweep is usable
     advice = method_warnings(measurement)
@@ -93,12 +93,12 @@ def analyze(measurement: MeasurementSet) -> Analysis:
 
 
 def analyze_manifest(path: str | Path) -> Analysis:
-    from rfmeas.io.manifest import load_manifest
+    from rfmeas.measurement.manifest import load_manifest
 
     return analyze(load_manifest(path))
 
 
 def analyze_files(paths, turns=None, termination="open", port1="primary", name=None) -> Analysis:
-    from rfmeas.io.manifest import measurement_set_from_files
+    from rfmeas.measurement.manifest import measurement_set_from_files
 
     return analyze(measurement_set_from_files(list(paths), turns, termination, port1, name))

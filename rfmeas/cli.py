@@ -7,6 +7,7 @@ import importlib
 import typer
 
 from rfmeas.commands import COMMAND_MODULES
+from rfmeas.commands._common import DEBUG
 
 app = typer.Typer(
     name="rfmeas",
@@ -15,9 +16,6 @@ app = typer.Typer(
     pretty_exceptions_enable=False,
     add_completion=False,
 )
-
-DEBUG = {"enabled": False}
-
 
 def _version_callback(value: bool):
     if value:

@@ -25,7 +25,7 @@ import numpy as np
 from fitting_helpers import add_vna_noise, sweep_from_s
 from reference import OnePort, TwoPort, four_sweeps, model_response
 from rfmeas.model.params import TransformerParams
-from rfmeas.sweep import MeasurementSet
+from rfmeas.measurement.sweep import MeasurementSet
 
 
 @dataclass(frozen=True)

@@ -7,7 +7,7 @@ import skrf as rf
 
 from reference import OnePort, four_sweeps
 from reference.skrf_circuit import simulate_skrf
-from rfmeas.sweep import MeasurementSet, Sweep
+from rfmeas.measurement.sweep import MeasurementSet, Sweep
 
 REFERENCE_CIRCUIT = dict(L1_H=11e-6, L2_H=99e-6, k=0.985, R1_ohm=0.05, R2_ohm=0.25, Rc_ohm=540.0,
                          C1_F=3e-12, C2_F=6e-12, C12_F=3e-12)

@@ -96,7 +96,7 @@ def test_acquire_set_never_replaces_sweeps_without_overwrite(app, tmp_path):
 @pytest.mark.parametrize("fault_at, kept_name, forward_only", [(2, "thru.partial.s2p", True),
                                                                 (1, "thru.partial.s1p", None)])
 def test_two_port_fault_keeps_the_traces_already_read(app, tmp_path, fault_at, kept_name, forward_only):
-    from rfmeas.io.manifest import load_sweep
+    from rfmeas.measurement.manifest import load_sweep
 
     out = tmp_path / "thru.s2p"
     result = acquire(app, out, "--sim-fault", f"garbage@{fault_at}", profile="vna-scpi-trace", sweep="1M:30M:21")
@@ -162,7 +162,7 @@ def test_analysis_of_a_set_with_a_partial_sweep_warns_and_names_the_file(app, tm
         return
     data = json.loads(result.stdout)
     assert any("pri_short.s1p" in w and "incomplete" in w for w in data["warnings"]), data["warnings"]
-    from rfmeas.io.manifest import load_manifest
+    from rfmeas.measurement.manifest import load_manifest
 
     flags = {Path(s.path).name: s.partial for s in load_manifest(tmp_path / "unit").sweeps}
     assert flags == {"pri_open.s1p": False, "pri_short.s1p": True, "sec_open.s1p": False, "thru.s2p": False}

@@ -7,7 +7,7 @@ import statistics
 
 import pytest
 
-from rfmeas.batch import BatchResult, atomic_write_text, find_manifests, run_batch, summarise
+from rfmeas.history.batch import BatchResult, atomic_write_text, find_manifests, run_batch, summarise
 from rfmeas.errors import InputError
 from tests.helpers.fake_analysis import crashing_analyse, fake_analyse
 
@@ -134,10 +134,10 @@ def test_find_manifests(units, tmp_path):
 def test_batch_command(units, tmp_path, monkeypatch):
     from typer.testing import CliRunner
 
-    import rfmeas.batch
+    import rfmeas.history.batch
     from rfmeas.cli import app
 
-    monkeypatch.setattr(rfmeas.batch, "analyse_manifest", fake_analyse)
+    monkeypatch.setattr(rfmeas.history.batch, "analyse_manifest", fake_analyse)
     runner = CliRunner()
     folder = str(units[0].parent)
     res = runner.invoke(app, ["batch", folder, "--workers", "2", "--json", "--csv", str(tmp_path / "lot.csv")])

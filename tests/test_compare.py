@@ -4,7 +4,7 @@ import math
 
 import pytest
 
-from rfmeas.compare import RULE, compare_results, format_quantity, judge
+from rfmeas.history.compare import RULE, compare_results, format_quantity, judge
 
 
 def q(value, stderr):
@@ -122,7 +122,7 @@ def test_compare_command_on_stored_records(tmp_path):
 
     from typer.testing import CliRunner
 
-    from rfmeas.store import HistoryStore
+    from rfmeas.history.store import HistoryStore
     from rfmeas.cli import app
 
     db = tmp_path / "h.sqlite3"

@@ -13,7 +13,7 @@ from typer.testing import CliRunner
 
 from fitting_helpers import REFERENCE_CIRCUIT, simulated_set
 from rfmeas.analysis import analyze
-from rfmeas.compare import compare_results
+from rfmeas.history.compare import compare_results
 from rfmeas.model import TransformerParams
 
 F_HZ = np.logspace(5, 8, 301)

@@ -23,7 +23,7 @@ NO_JSON = {
 
 # Public frozen dataclasses that are not results, each with the reason.
 NOT_RESULTS = {
-    "rfmeas.fit.FitOutcome": "the solver's internal outcome; it reaches JSON only through FitResult.to_dict()",
+    "rfmeas.fit.solver.FitOutcome": "the solver's internal outcome; it reaches JSON only through FitResult.to_dict()",
     "rfmeas.instruments.simulation.Wiring": "a setting of the instrument simulator (an input, not a result)",
     "rfmeas.instruments.simulation.SimFaults": "faults staged by the instrument simulator (an input, not a result)",
 }
@@ -89,8 +89,8 @@ def test_exceptions_name_real_commands_and_classes():
 def test_the_package_has_results_to_check():
     """The walk finds the results the JSON contract is built from (guards an empty walk)."""
     found = _frozen_dataclasses()
-    for name in ("rfmeas.analysis.Analysis", "rfmeas.results.FitResult", "rfmeas.results.Estimate",
-                 "rfmeas.design.DesignCheck", "rfmeas.design.Verdict", "rfmeas.core.CoreAnalysis"):
+    for name in ("rfmeas.analysis.Analysis", "rfmeas.fit.result.FitResult", "rfmeas.fit.result.Estimate",
+                 "rfmeas.judge.design.DesignCheck", "rfmeas.judge.design.Verdict", "rfmeas.fit.core_spectrum.CoreAnalysis"):
         assert name in found
 
 
@@ -135,7 +135,7 @@ def test_jig_standards_summary_matches_the_standard_files():
 
     import skrf
 
-    from rfmeas.fixture import load_fixture
+    from rfmeas.measurement.fixture import load_fixture
 
     folder = Path(__file__).resolve().parents[1] / "fixtures" / "clip-leads"
     fixture = load_fixture(folder / "fixture.toml")

@@ -45,10 +45,10 @@ def test_public_results_have_to_dict():
     import dataclasses
 
     import rfmeas.analysis
-    import rfmeas.results
-    import rfmeas.sweep
+    import rfmeas.fit.result
+    import rfmeas.measurement.sweep
 
-    for module in (rfmeas.analysis, rfmeas.results, rfmeas.sweep):
+    for module in (rfmeas.analysis, rfmeas.fit.result, rfmeas.measurement.sweep):
         for obj in vars(module).values():
             if isinstance(obj, type) and dataclasses.is_dataclass(obj) and obj.__module__ == module.__name__:
                 assert hasattr(obj, "to_dict"), f"{module.__name__}.{obj.__name__} lacks to_dict()"

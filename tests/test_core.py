@@ -12,11 +12,11 @@ import skrf as rf
 from typer.testing import CliRunner
 
 from rfmeas.cli import app
-from rfmeas.core import analyze_core, analyze_core_file, permeability_from_impedance
+from rfmeas.fit.core_spectrum import analyze_core, analyze_core_file, permeability_from_impedance
 from rfmeas.errors import InputError
 from rfmeas.io.touchstone import write_touchstone
 from rfmeas.magnetics import toroid_geometry
-from rfmeas.materials import load_materials, match_material
+from rfmeas.magnetics.materials import load_materials, match_material
 
 MM = 1e-3
 MU0 = 4e-7 * math.pi * (1 + 5.5e-10)  # CODATA 2018 µ0 = 1.25663706212e-6 H/m, written out here
@@ -259,7 +259,7 @@ def test_user_table_extends_and_is_strict(tmp_path, monkeypatch):
 # ------------------------------------------------------------------ plot
 
 def test_plot_draws_the_model_and_the_data(nizn, tmp_path):
-    from rfmeas.plots.permeability import plot_permeability
+    from rfmeas.present.plots.permeability import plot_permeability
 
     _, a = nizn
     fig = plot_permeability(a)

@@ -15,7 +15,7 @@ import pytest
 from typer.testing import CliRunner
 
 from rfmeas.cli import app
-from rfmeas.core import (
+from rfmeas.fit.core_spectrum import (
     analyze_core,
     analyze_core_file,
     analyze_core_windings,
@@ -34,7 +34,7 @@ from rfmeas.magnetics.dispersion import (
     model_permeability,
     permeability_from_impedance,
 )
-from rfmeas.materials import load_materials
+from rfmeas.magnetics.materials import load_materials
 from tests.reference.core_sweeps import (
     MU0,
     Calibration,
@@ -163,7 +163,7 @@ def test_lead_inductance_from_a_two_turn_count_pair(lead_nH):
     for n, seed in ((1, 21), (2, 22)):
         f, z, _, _ = _sweep(CORE, n, seed + int(lead_nH), leads=leads, cals=cals)
         pair.append((f, z, n))
-    from rfmeas.core import _clean_input
+    from rfmeas.fit.core_spectrum import _clean_input
 
     est = leads_from_turns([(*_clean_input(f, z, []), n) for f, z, n in pair])
     assert est.determined

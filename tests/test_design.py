@@ -16,8 +16,8 @@ import pytest
 from typer.testing import CliRunner
 
 from rfmeas.cli import app
-from rfmeas.design import DesignFacts, check_design, is_design
-from rfmeas.sweep import DesignTarget
+from rfmeas.judge.design import DesignFacts, check_design, is_design
+from rfmeas.measurement.sweep import DesignTarget
 
 ROOT = Path(__file__).resolve().parents[1]
 SAMPLES = ROOT / "sample_data"

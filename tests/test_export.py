@@ -13,7 +13,7 @@ import skrf as rf
 from reference.spice import read_rawfile
 
 from rfmeas.errors import InputError
-from rfmeas.export import model_touchstone_network, spice_subcircuit
+from rfmeas.present.export import model_touchstone_network, spice_subcircuit
 from rfmeas.model import TransformerParams, s_matrix
 
 LOSSLESS = TransformerParams(L1_H=10e-6, L2_H=40e-6, k=0.99, R1_ohm=0.3, R2_ohm=1.2,

@@ -16,11 +16,11 @@ import numpy as np
 import pytest
 import skrf as rf
 
-from rfmeas import response
+from rfmeas.model import response
 from rfmeas.analysis import analyze, analyze_manifest
 from rfmeas.magnetics import MU0_H_per_m, toroid_geometry
 from rfmeas.model.params import TransformerParams
-from rfmeas.sweep import DesignTarget, MeasurementSet, Sweep
+from rfmeas.measurement.sweep import DesignTarget, MeasurementSet, Sweep
 from tests.reference import TwoPort, four_sweeps
 from tests.reference.skrf_circuit import simulate_four_sweeps, simulate_skrf
 

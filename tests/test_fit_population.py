@@ -85,7 +85,7 @@ def test_the_generator_matches_the_model_where_the_model_is_exact():
 def test_written_unit_reads_back_as_simulated(tmp_path):
     # A forward-only DB thru with -600 dB fillers, a stitched repeat and an odd option line:
     # the reader gives back the simulated values (within the file's 9 digits) and drops the repeat.
-    from rfmeas.io.manifest import load_manifest
+    from rfmeas.measurement.manifest import load_manifest
 
     spec = pop.draw_unit(np.random.default_rng([SEED, 1]), sweeps="four", file_format="DB", file_unit="kHz",
                          forward_only=True, calibration=None, noise=3e-4, unmeasured="-600 0", stitch_at=100,

@@ -5,7 +5,7 @@ tests/test_model_reference.py checks) or with scikit-rf's circuit solver
 (tests/reference/skrf_circuit.py), plus additive complex Gaussian noise of known σ per
 component. The expected misfit ratio on pure noise is derived: the residual of the true
 model is minus the noise, rms σ per component, and the error it is judged against is the
-data's noise with the systematic floor F of rfmeas.noise in quadrature, so the ratio is
+data's noise with the systematic floor F of rfmeas.measurement.noise in quadrature, so the ratio is
 σ / sqrt(σ² + F²).
 """
 
@@ -25,15 +25,15 @@ from reference import OnePort, TwoPort, four_sweeps
 from reference.skrf_circuit import simulate_skrf
 from rfmeas.analysis import analyze, analyze_manifest
 from rfmeas.cli import app
-from rfmeas.design import design_status
+from rfmeas.judge.design import design_status
 from rfmeas.io.touchstone import write_touchstone
 from rfmeas.model import TransformerParams, reflection, s_matrix
-from rfmeas.noise import SYSTEMATIC_FLOOR
-from rfmeas.results import (GOOD_MISFIT_RATIO, POOR_MISFIT_RATIO, build_result, checked_stderr, fit_quality,
+from rfmeas.measurement.noise import SYSTEMATIC_FLOOR
+from rfmeas.fit.result import (GOOD_MISFIT_RATIO, POOR_MISFIT_RATIO, build_result, checked_stderr, fit_quality,
                             grade_of, missed_sweeps, sweep_misfit)
-from rfmeas.sanity import NOT_A_TRANSFORMER
-from rfmeas.sweep import DesignTarget
-from rfmeas.terminal import render_analysis
+from rfmeas.fit.checks import NOT_A_TRANSFORMER
+from rfmeas.measurement.sweep import DesignTarget
+from rfmeas.present.terminal import render_analysis
 
 TRUE = TransformerParams(**REFERENCE_CIRCUIT)
 F_HZ = np.logspace(5, 8, 401)
@@ -41,7 +41,7 @@ SWEEPS = four_sweeps()
 # REFERENCE_CIRCUIT is 1:3 (√(99 µH / 11 µH) [derived]): a 50 Ω → 450 Ω design with 3:9 turns
 DESIGN = DesignTarget(source_impedance_ohm=50.0, load_impedance_ohm=450.0, lowest_frequency_Hz=1.5e6,
                       highest_frequency_Hz=30e6)
-# words of the design check's advice (rfmeas.design): none may appear when nothing is judged
+# words of the design check's advice (rfmeas.judge.design): none may appear when nothing is judged
 ADVICE_WORDS = ("wind ", "recount", "more turns", "fewer turns", "turns on the", "spread turns", "wind tighter")
 
 
@@ -188,7 +188,7 @@ def test_a_resonance_the_model_lacks_is_named_with_its_band(r_peak_ohm, grade):
     """pri_open with a parallel trap (Q = 10 at 20 MHz) in series: no lumped element of the circuit
     makes it, so the fit must name pri_open and the band around 20 MHz. A small trap (4 Ω peak)
     leaves a marginal fit whose design is still judged; a large one (20 Ω) a poor fit."""
-    from rfmeas.methods import impedance_from_reflection
+    from rfmeas.model.methods import impedance_from_reflection
 
     z0 = 50.0
     clean = {n: simulate_skrf(TRUE, F_HZ, d) for n, d in SWEEPS.items()}
@@ -298,7 +298,7 @@ def test_a_zero_standard_error_never_prints_as_a_bare_number(good):
     assert est.determined and est.stderr is None and "no standard error" in est.stderr_note
     data = est.to_dict()
     assert data["stderr"] is None and data["stderr_note"]
-    from rfmeas.figures import compute_figures
+    from rfmeas.judge.figures import compute_figures
 
     figures, _check, _w = compute_figures(good.measurement, result)
     assert figures["turns_ratio"]["stderr"] is None and figures["turns_ratio"]["stderr_note"]
@@ -307,7 +307,7 @@ def test_a_zero_standard_error_never_prints_as_a_bare_number(good):
     line = next(row for row in text.splitlines() if row.startswith("primary inductance L1"))
     assert "± ?" in line and "no standard error" in line
     assert "± ?" in next(row for row in text.splitlines() if row.startswith("turns ratio √(L2/L1)"))
-    from rfmeas.report.html import parameter_rows
+    from rfmeas.present.report.html import parameter_rows
 
     row = next(r for r in parameter_rows(analysis) if r["key"] == "primary_inductance_H")
     assert row["value"].endswith("± ?") and "no standard error" in row["note"]
@@ -317,7 +317,7 @@ def test_a_zero_standard_error_never_prints_as_a_bare_number(good):
 
 
 def test_report_shows_the_grade_and_not_judged(good, wrong):
-    from rfmeas.report.html import render_report
+    from rfmeas.present.report.html import render_report
 
     html = render_report(wrong, plots=[])
     assert 'id="fit-grade" class="state fail">poor<' in html
@@ -329,7 +329,7 @@ def test_report_shows_the_grade_and_not_judged(good, wrong):
 
 
 def test_history_shows_the_grade(good, wrong, tmp_path):
-    from rfmeas.store import HistoryStore, record_analysis
+    from rfmeas.history.store import HistoryStore, record_analysis
 
     db = tmp_path / "h.sqlite3"
     with HistoryStore(db) as store:
@@ -353,7 +353,7 @@ def test_design_status_from_json_old_and_new():
 
 
 def test_batch_counts_a_unit_not_judged_as_not_passing():
-    from rfmeas.batch import BatchResult, summarise
+    from rfmeas.history.batch import BatchResult, summarise
 
     unit = summarise("u.toml", {"name": "u", "design_check": {"passed": None, "status": "not judged",
                                                                "checks": []}})

@@ -23,9 +23,9 @@ from closed_form_population import KEY_TOLERANCES, population, sweep_set, true_v
 from reference import OnePort, TwoPort, four_sweeps, model_response
 from reference.spice import spice_available
 from rfmeas.errors import FitError
-from rfmeas.fit import MIN_RESIDUALS_PER_PARAMETER, fit_sweeps
-from rfmeas.noise import error_sigma
-from rfmeas.results import build_estimates
+from rfmeas.fit.solver import MIN_RESIDUALS_PER_PARAMETER, fit_sweeps
+from rfmeas.measurement.noise import error_sigma
+from rfmeas.fit.result import build_estimates
 
 POOR_MISFIT_RATIO = 5.0
 

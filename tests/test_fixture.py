@@ -11,7 +11,7 @@ import skrf as rf
 from skrf.media import DefinedGammaZ0
 
 from rfmeas.errors import InputError
-from rfmeas.fixture import load_fixture
+from rfmeas.measurement.fixture import load_fixture
 from rfmeas.model import TransformerParams, input_impedance
 
 ROOT = Path(__file__).resolve().parent.parent

@@ -22,10 +22,10 @@ from typer.testing import CliRunner
 from rfmeas.cli import app
 from rfmeas.errors import InputError
 from rfmeas.io import files, touchstone
-from rfmeas.io.manifest import load_manifest, measurement_set_from_files
+from rfmeas.measurement.manifest import load_manifest, measurement_set_from_files
 from rfmeas.io.strict import MAX_TOML_DEPTH, parse_toml
 from rfmeas.io.touchstone import read_touchstone, write_touchstone
-from rfmeas.sweep import MAX_SWEEPS, Sweep, thin_for_fit
+from rfmeas.measurement.sweep import MAX_SWEEPS, Sweep, thin_for_fit
 from rfmeas.usertext import markup, plain
 
 ROOT = Path(__file__).resolve().parents[1]
@@ -351,10 +351,10 @@ def test_library_warnings_go_to_the_log_not_the_terminal(monkeypatch):
 
 
 def _readers():
-    from rfmeas.fixture import load_fixture
+    from rfmeas.measurement.fixture import load_fixture
     from rfmeas.instruments.profiles import load_profile_file
     from rfmeas.io.readings import load_readings
-    from rfmeas.materials import load_materials
+    from rfmeas.magnetics.materials import load_materials
 
     return {
         "sweep.s1p": read_touchstone, "manifest.toml": load_manifest, "fixture.toml": load_fixture,

@@ -14,9 +14,9 @@ from typer.testing import CliRunner
 
 from rfmeas.analysis import analyze_files, analyze_manifest
 from rfmeas.cli import app
-from rfmeas.core import analyze_core_file
-from rfmeas.jsonio import SCHEMA_VERSION, dumps_json
-from rfmeas.results import PARAMETER_KEYS
+from rfmeas.fit.core_spectrum import analyze_core_file
+from rfmeas.io.jsonio import SCHEMA_VERSION, dumps_json
+from rfmeas.fit.result import PARAMETER_KEYS
 
 ROOT = Path(__file__).resolve().parents[1]
 SAMPLE = ROOT / "sample_data"

@@ -476,7 +476,7 @@ def test_winding_in_parallel_with_loss_resistance_is_a_debye_core(big_toroid):
 
 
 def test_manifest_with_a_two_hole_core_and_a_misspelt_key(tmp_path):
-    from rfmeas.io.manifest import load_manifest
+    from rfmeas.measurement.manifest import load_manifest
 
     (tmp_path / "w.s1p").write_text("# Hz S RI R 50\n1e5 0.1 0.2\n2e5 0.1 0.3\n3e5 0.2 0.3\n")
     head = '[transformer]\nprimary_turns = 1\n[[sweep]]\nfile = "w.s1p"\nport1 = "primary"\ntermination = "open"\n'

@@ -8,7 +8,7 @@ import textwrap
 import pytest
 
 from rfmeas.errors import InputError
-from rfmeas.io.manifest import load_manifest, parse_termination
+from rfmeas.measurement.manifest import load_manifest, parse_termination
 from rfmeas.io.strict import MAX_TOML_BYTES
 
 ONE_PORT = "# Hz S RI R 50\n1e5 0.1 0.2\n2e5 0.1 0.3\n3e5 0.2 0.3\n"

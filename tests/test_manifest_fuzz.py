@@ -14,9 +14,9 @@ from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
 
 from rfmeas.errors import InputError
-from rfmeas.io.manifest import load_manifest
+from rfmeas.measurement.manifest import load_manifest
 from rfmeas.io.touchstone import read_touchstone
-from rfmeas.sweep import WINDINGS, MeasurementSet
+from rfmeas.measurement.sweep import WINDINGS, MeasurementSet
 
 FUZZ = settings(max_examples=200, deadline=2000,
                 suppress_health_check=[HealthCheck.too_slow, HealthCheck.function_scoped_fixture])

@@ -13,7 +13,7 @@ import numpy as np
 import pytest
 
 from rfmeas.errors import InputError
-from rfmeas.materials import LEVELS, load_materials, match_material, parse_materials
+from rfmeas.magnetics.materials import LEVELS, load_materials, match_material, parse_materials
 
 
 @pytest.fixture(scope="module")

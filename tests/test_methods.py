@@ -6,7 +6,7 @@ import numpy as np
 import pytest
 import skrf as rf
 
-from rfmeas import methods as m
+from rfmeas.model import methods as m
 from rfmeas.errors import InputError
 
 Z0 = 50.0

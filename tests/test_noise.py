@@ -3,7 +3,7 @@
 import numpy as np
 import pytest
 
-from rfmeas.noise import sweep_noise_sigma, trace_noise_sigma
+from rfmeas.measurement.noise import sweep_noise_sigma, trace_noise_sigma
 
 
 @pytest.mark.parametrize("grid", ["log", "linear"])
@@ -42,7 +42,7 @@ def test_short_trace_has_no_estimate_and_shape_per_element():
 
 
 def test_error_model_never_below_the_systematic_floor():
-    from rfmeas.noise import SYSTEMATIC_FLOOR, error_sigma
+    from rfmeas.measurement.noise import SYSTEMATIC_FLOOR, error_sigma
 
     quiet = np.exp(1j * np.linspace(0, 1, 200))[:, None]
     assert error_sigma(quiet)[0] == pytest.approx(SYSTEMATIC_FLOOR, rel=1e-3)

@@ -13,7 +13,7 @@ import pytest
 from typer.testing import CliRunner
 
 from rfmeas.errors import InputError
-from rfmeas.plan import plan_turns
+from rfmeas.judge.plan import plan_turns
 
 
 def turns(pair):

@@ -12,12 +12,12 @@ from rfmeas.analysis import analyze_manifest
 from rfmeas.errors import InputError
 from rfmeas.model.circuit import input_impedance, reflection, s_matrix
 from rfmeas.model.params import TransformerParams
-from rfmeas.plots import style
-from rfmeas.plots.compare import plot_comparison
-from rfmeas.plots.response import plot_core_spectra, plot_response
-from rfmeas.plots.smith import plot_smith
-from rfmeas.plots.sweeps import plot_sweep
-from rfmeas.sweep import DesignTarget
+from rfmeas.present.plots import style
+from rfmeas.present.plots.compare import plot_comparison
+from rfmeas.present.plots.response import plot_core_spectra, plot_response
+from rfmeas.present.plots.smith import plot_smith
+from rfmeas.present.plots.sweeps import plot_sweep
+from rfmeas.measurement.sweep import DesignTarget
 
 ROOT = Path(__file__).resolve().parents[1]
 

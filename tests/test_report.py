@@ -16,8 +16,8 @@ from rfmeas import __version__
 from rfmeas.analysis import analyze_manifest
 from rfmeas.cli import app
 from rfmeas.errors import InputError
-from rfmeas.report import render_report, write_report
-from rfmeas.report.pdf import find_browser
+from rfmeas.present.report import render_report, write_report
+from rfmeas.present.report.pdf import find_browser
 
 ROOT = Path(__file__).resolve().parents[1]
 MANIFEST = ROOT / "sample_data" / "coupler-before" / "manifest.toml"
@@ -79,7 +79,7 @@ def test_report_content(judged, judged_html):
     assert "250.6 Ω" in judged_html and "200 Ω" in judged_html
     from html import escape
 
-    from rfmeas.figures import figure_rows
+    from rfmeas.judge.figures import figure_rows
 
     rows = figure_rows(judged)
     assert len(rows) > 10

@@ -21,11 +21,11 @@ from reference import OnePort, four_sweeps
 from reference.skrf_circuit import simulate_skrf
 from rfmeas.analysis import analyze, analyze_manifest
 from rfmeas.errors import FitError
-from rfmeas.fit_start import first_resonance_Hz
-from rfmeas.methods import impedance_from_reflection
+from rfmeas.fit.start import first_resonance_Hz
+from rfmeas.model.methods import impedance_from_reflection
 from rfmeas.io.touchstone import write_touchstone
 from rfmeas.model import TransformerParams
-from rfmeas.sanity import NOT_A_TRANSFORMER, check_fit, check_sweeps
+from rfmeas.fit.checks import NOT_A_TRANSFORMER, check_fit, check_sweeps
 
 TRUE = TransformerParams(**REFERENCE_CIRCUIT)
 F_HZ = np.logspace(5, 8, 101)
@@ -267,14 +267,14 @@ def test_sweeps_of_random_reflections_do_not_look_like_a_transformer():
 
 
 def test_a_fit_that_runs_out_of_evaluations_says_why(monkeypatch):
-    import rfmeas.fit
+    import rfmeas.fit.solver
 
-    real = rfmeas.fit.least_squares
+    real = rfmeas.fit.solver.least_squares
 
     def starved(*args, **kwargs):
         return real(*args, **dict(kwargs, max_nfev=2))
 
-    monkeypatch.setattr(rfmeas.fit, "least_squares", starved)
+    monkeypatch.setattr(rfmeas.fit.solver, "least_squares", starved)
     analysis = analyze(_set())
     assert not analysis.fit.converged
     assert any(w.startswith("no converged fit") and "ran out of evaluations" in w for w in analysis.warnings)
@@ -282,7 +282,7 @@ def test_a_fit_that_runs_out_of_evaluations_says_why(monkeypatch):
 
 def test_a_low_impedance_reflection_sweep_gets_method_advice():
     """The sample unit's shorted-secondary sweep is well under an ohm to ~20 Ω: shunt-through
-    resolves it better (rfmeas.methods), and the advice says so; advice is not a warning."""
+    resolves it better (rfmeas.model.methods), and the advice says so; advice is not a warning."""
     analysis = analyze_manifest("sample_data/coupler-after")
     advice = [a for a in analysis.advice if a.startswith("pri_short")]
     assert advice and "shunt-through" in advice[0]

@@ -12,7 +12,7 @@ import pytest
 
 import rfmeas
 from rfmeas.errors import InputError
-from rfmeas.store import SCHEMA_VERSION, HistoryStore, default_db_path, design_status, record_analysis
+from rfmeas.history.store import SCHEMA_VERSION, HistoryStore, default_db_path, design_status, record_analysis
 
 ROOT = Path(__file__).resolve().parents[1]
 MANIFEST = '[transformer]\nname = "bench unit 7"\n\n[[sweep]]\nfile = "pri_open.s1p"\n'

@@ -17,7 +17,7 @@ import time
 
 import pytest
 
-from rfmeas.store import HistoryStore
+from rfmeas.history.store import HistoryStore
 from store_race import ROOT, _env, inspect, run_round, writer_command
 
 pytestmark = pytest.mark.skipif(sys.platform == "win32", reason="uses POSIX signals")

@@ -19,7 +19,7 @@ import pytest
 from typer.testing import CliRunner
 
 from rfmeas.cli import app
-from rfmeas.store import HistoryStore
+from rfmeas.history.store import HistoryStore
 
 ROOT = Path(__file__).resolve().parents[1]
 SAMPLE = ROOT / "sample_data" / "coupler-before"

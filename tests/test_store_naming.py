@@ -13,7 +13,7 @@ from pathlib import Path
 from typer.testing import CliRunner
 
 from rfmeas.cli import app
-from rfmeas.store import HistoryStore, _renamed_manifest
+from rfmeas.history.store import HistoryStore, _renamed_manifest
 
 ROOT = Path(__file__).resolve().parents[1]
 SAMPLE = ROOT / "sample_data" / "coupler-before"
@@ -80,8 +80,8 @@ def test_bare_files_of_the_same_name_are_kept_and_can_be_analysed_again(tmp_path
 
 
 def test_the_same_file_listed_twice_is_kept_once(tmp_path):
-    from rfmeas.io.manifest import load_manifest
-    from rfmeas.store import record_sources
+    from rfmeas.measurement.manifest import load_manifest
+    from rfmeas.history.store import record_sources
 
     shutil.copytree(SAMPLE, tmp_path / "unit")
     text = (tmp_path / "unit" / "manifest.toml").read_text()

@@ -134,8 +134,8 @@ def test_a_shorted_winding_measured_series_through_is_not_taken_for_an_open_lead
     """Series-through S21 of a few-ohm winding is close to 1, which as an S11 would read 'open':
     the checks and the plots convert each method's S parameter to the winding impedance first."""
     from rfmeas.model import input_impedance
-    from rfmeas.plots.sweeps import plot_sweep
-    from rfmeas.plots.style import close
+    from rfmeas.present.plots.sweeps import plot_sweep
+    from rfmeas.present.plots.style import close
 
     f = np.logspace(5, 8, 201)
     freq = rf.Frequency.from_f(f, unit="Hz")

@@ -6,7 +6,7 @@ from pathlib import Path
 from rich.console import Console
 
 from rfmeas.analysis import analyze_manifest
-from rfmeas.terminal import render_analysis
+from rfmeas.present.terminal import render_analysis
 
 SAMPLE = Path(__file__).resolve().parents[1] / "sample_data" / "coupler-after"
 

@@ -15,7 +15,7 @@ import pytest
 
 from population import format_pair
 from rfmeas.errors import InputError
-from rfmeas.io.manifest import load_manifest
+from rfmeas.measurement.manifest import load_manifest
 from rfmeas.io.touchstone import UNMEASURED_BELOW, read_touchstone_bytes
 
 FREQS_MHZ = (1.0, 2.0, 4.0, 8.0)

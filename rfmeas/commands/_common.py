@@ -10,8 +10,11 @@ import warnings
 import typer
 
 from rfmeas.errors import EXIT_BAD_INPUT, RfmeasError
-from rfmeas.jsonio import dumps_json  # noqa: F401  (re-exported for commands)
+from rfmeas.io.jsonio import dumps_json  # noqa: F401  (re-exported for commands)
 from rfmeas.usertext import plain
+
+DEBUG = {"enabled": False}
+"""Set by the root command's --debug: show tracebacks instead of one-line errors."""
 
 
 def _console_class():
@@ -76,8 +79,6 @@ def handles_errors(func):
 
     @functools.wraps(func)
     def wrapper(*args, **kwargs):
-        from rfmeas.cli import DEBUG
-
         try:
             with warnings.catch_warnings():
                 warnings.showwarning = log_warning

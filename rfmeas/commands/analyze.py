@@ -20,7 +20,7 @@ def _design_target(design, plan: str | None, return_loss: str | None):
 
     from rfmeas.errors import InputError
     from rfmeas.limits import check_range
-    from rfmeas.sweep import DesignTarget
+    from rfmeas.measurement.sweep import DesignTarget
     from rfmeas.units import parse_engineering
 
     target = design or DesignTarget()
@@ -78,7 +78,7 @@ def analyze_command(
     record_id, not_kept = None, None
     if record:
         from rfmeas.errors import RfmeasError
-        from rfmeas.store import HistoryStore, record_analysis
+        from rfmeas.history.store import HistoryStore, record_analysis
 
         try:
             with HistoryStore(db) as store:
@@ -88,7 +88,7 @@ def analyze_command(
     if json_output:
         print_json(analysis.to_dict())
     else:
-        from rfmeas.terminal import render_analysis
+        from rfmeas.present.terminal import render_analysis
 
         console = stdout_console()
         render_analysis(analysis, console)
@@ -104,7 +104,7 @@ def analyze_command(
 
         report_error(f"{not_kept}; this analysis was not kept in the history (--no-record skips keeping it)")
         raise typer.Exit(not_kept.exit_code)
-    from rfmeas.design import design_fails
+    from rfmeas.judge.design import design_fails
 
     if design_fails(analysis.design_status):  # failed, or could not be judged
         raise typer.Exit(EXIT_DESIGN_FAILED)
@@ -116,7 +116,7 @@ def run_analysis(inputs, turns=None, termination="open", port1="primary", plan=N
 
     from rfmeas.analysis import analyze
     from rfmeas.errors import InputError
-    from rfmeas.io.manifest import load_manifest, measurement_set_from_files, parse_turns
+    from rfmeas.measurement.manifest import load_manifest, measurement_set_from_files, parse_turns
 
     first = Path(inputs[0])
     if first.suffix.lower() == ".toml" or first.is_dir():

@@ -25,7 +25,7 @@ def register(app: typer.Typer) -> None:
         """Analyse every unit; exit 1 if any failed its design check, 2 if any could not be analysed."""
         from rich.progress import BarColumn, MofNCompleteColumn, Progress, TextColumn, TimeElapsedColumn
 
-        from rfmeas import batch as batch_module
+        from rfmeas.history import batch as batch_module
 
         paths = batch_module.find_manifests(targets)
         columns = (TextColumn("analysing"), BarColumn(), MofNCompleteColumn(), TimeElapsedColumn())
@@ -59,7 +59,7 @@ def register(app: typer.Typer) -> None:
 def _print_summary(result) -> None:
     from rich.table import Table
 
-    from rfmeas.compare import format_quantity
+    from rfmeas.history.compare import format_quantity
 
     console = stdout_console()
     units = Table(title="units")

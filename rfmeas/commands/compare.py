@@ -19,7 +19,7 @@ _SWEEP_SUFFIX = re.compile(r"^\.s\d+p$", re.IGNORECASE)
 def load_side(side: str, store, other_unit: str | None = None, other_id: int | None = None):
     """(result dict, label, record id or None, Analysis or None) for a manifest (or its folder),
     a sweep file or a store reference."""
-    from rfmeas.store import is_reference
+    from rfmeas.history.store import is_reference
 
     if is_reference(side):
         rec = store.resolve(side, other_unit=other_unit, other_id=other_id)
@@ -51,8 +51,8 @@ def register(app: typer.Typer) -> None:
                                             "and both fitted models (PNG, SVG or PDF; manifests and sweeps only)."),
     ):
         """Compare two analyses: every shared quantity, whether it moved by more than 3σ, and a verdict."""
-        from rfmeas.compare import compare_results
-        from rfmeas.store import HistoryStore
+        from rfmeas.history.compare import compare_results
+        from rfmeas.history.store import HistoryStore
 
         with HistoryStore(db) as store:
             after_result, after_label, after_id, after_analysis = load_side(after, store)
@@ -64,7 +64,7 @@ def register(app: typer.Typer) -> None:
         if plot is not None:
             if before_analysis is None or after_analysis is None:
                 raise InputError("--plot needs the sweeps: give manifests or sweep files, not store references")
-            from rfmeas.plots.compare import plot_comparison
+            from rfmeas.present.plots.compare import plot_comparison
 
             plot_comparison(before_analysis, after_analysis, plot)
         if json_out:
@@ -76,7 +76,7 @@ def register(app: typer.Typer) -> None:
 def _print_comparison(comparison, before_label: str, after_label: str) -> None:
     from rich.table import Table
 
-    from rfmeas.compare import format_quantity
+    from rfmeas.history.compare import format_quantity
 
     console = stdout_console()
     table = Table(title=escape(f"before: {before_label}\nafter:  {after_label}"))
@@ -97,7 +97,7 @@ def _print_comparison(comparison, before_label: str, after_label: str) -> None:
 
 def _label(key: str) -> str:
     """A person's name for a result key: the parameter labels, else the key in plain words."""
-    from rfmeas.results import LABELS
+    from rfmeas.fit.result import LABELS
 
     if key in LABELS:
         return LABELS[key]

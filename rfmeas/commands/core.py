@@ -250,9 +250,9 @@ def core_command(
     """Identify an unknown core from test windings: µi, dispersion, loss factor, material class."""
     from dataclasses import replace
 
-    from rfmeas.core import analyze_core_file, analyze_readings_file, given_leads
+    from rfmeas.fit.core_spectrum import analyze_core_file, analyze_readings_file, given_leads
     from rfmeas.errors import InputError
-    from rfmeas.materials import RESISTIVITY
+    from rfmeas.magnetics.materials import RESISTIVITY
     from rfmeas.units import parse_engineering
 
     if dc_resistance is not None and dc_resistance not in RESISTIVITY:
@@ -278,7 +278,7 @@ def core_command(
             raise InputError("LCR readings need the winding's turns (--turns N)")
         lcr_leads = leads
         if lcr_leads is None and leads_short is not None:
-            from rfmeas.core import leads_from_short, _read_impedance
+            from rfmeas.fit.core_spectrum import leads_from_short, _read_impedance
 
             f_s, z_s, m_s, z0_s, _, _ = _read_impedance(leads_short, None)
             lcr_leads = leads_from_short(f_s, z_s, errors or _default_errors(), z0_s, m_s)
@@ -302,7 +302,7 @@ def core_command(
     if lcr is not None:
         analysis = replace(analysis, lcr=lcr)
     if plot is not None:
-        from rfmeas.plots.permeability import plot_permeability
+        from rfmeas.present.plots.permeability import plot_permeability
 
         plot_permeability(analysis, plot)
     if json_output:

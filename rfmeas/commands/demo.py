@@ -49,7 +49,7 @@ def demo_command(
     from rfmeas.analysis import analyze_manifest
     from rfmeas.errors import InputError
     from rfmeas.io.atomic import atomic_write_text
-    from rfmeas.terminal import render_analysis
+    from rfmeas.present.terminal import render_analysis
     from rfmeas.commands._common import dumps_json
     from rfmeas.commands.report import write_outputs
 
@@ -84,8 +84,8 @@ def demo_command(
 
 def _compare(before, after, out: Path, console) -> Path:
     """The rework in a few lines, and the overlay of both units' sweeps and models."""
-    from rfmeas.compare import compare_results
-    from rfmeas.plots.compare import plot_comparison
+    from rfmeas.history.compare import compare_results
+    from rfmeas.present.plots.compare import plot_comparison
 
     comparison = compare_results(before.to_dict(), after.to_dict())
     console.rule("before → after")
@@ -98,9 +98,9 @@ def _compare(before, after, out: Path, console) -> Path:
 
 def _core(folder: Path, out: Path, console) -> list[Path]:
     """The unknown-core job: what is this core? (see `rfmeas core`)."""
-    from rfmeas.core import analyze_core_file
+    from rfmeas.fit.core_spectrum import analyze_core_file
     from rfmeas.io.atomic import atomic_write_text
-    from rfmeas.plots.permeability import plot_permeability
+    from rfmeas.present.plots.permeability import plot_permeability
     from rfmeas.commands._common import dumps_json
     from rfmeas.commands.core import render_core
 

@@ -33,7 +33,7 @@ def export_command(
 
     from rfmeas import __version__
     from rfmeas.errors import InputError
-    from rfmeas.export import model_touchstone_network, spice_subcircuit
+    from rfmeas.present.export import model_touchstone_network, spice_subcircuit
     from rfmeas.io.atomic import atomic_write_text
     from rfmeas.io.touchstone import write_touchstone
     from rfmeas.units import format_engineering, parse_engineering

@@ -30,7 +30,7 @@ def register(app: typer.Typer) -> None:
         force: bool = typer.Option(False, "--force", help="With --export: overwrite existing files."),
     ):
         """List the stored analyses (newest first), or export one's raw inputs byte for byte."""
-        from rfmeas.store import HistoryStore
+        from rfmeas.history.store import HistoryStore
 
         with HistoryStore(db) as store:
             if export is not None:

@@ -79,7 +79,7 @@ def register(app: typer.Typer) -> None:
         """Plan the turns of a broadband transformer: ratio, minimum turns, whole-turn choices."""
         from rfmeas.limits import check_range
         from rfmeas.magnetics.permeability import al_to_nH_per_turn2
-        from rfmeas.plan import plan_turns
+        from rfmeas.judge.plan import plan_turns
 
         plan = plan_turns(
             source_impedance_ohm=_number("--source", source, "source_impedance_ohm"),

@@ -18,8 +18,8 @@ def register(app: typer.Typer) -> None:
 def write_outputs(analysis, report: Optional[Path] = None, plots_dir: Optional[Path] = None,
                   pdf: bool = False) -> dict:
     """Write the report, the plot files and the PDF that were asked for; returns what was written."""
-    from rfmeas.report.html import write_report
-    from rfmeas.report.plots import analysis_plots, close_plots, export_plots
+    from rfmeas.present.report.html import write_report
+    from rfmeas.present.report.plots import analysis_plots, close_plots, export_plots
 
     written = {"report": None, "pdf": None, "pdf_skipped": None, "plots": []}
     if report is None and plots_dir is None:
@@ -33,7 +33,7 @@ def write_outputs(analysis, report: Optional[Path] = None, plots_dir: Optional[P
     finally:
         close_plots(plots)
     if pdf and report is not None:
-        from rfmeas.report.pdf import find_browser, print_pdf
+        from rfmeas.present.report.pdf import find_browser, print_pdf
 
         if find_browser() is None:
             written["pdf_skipped"] = "no PDF renderer found (install chromium)"

@@ -174,7 +174,7 @@ class VnaErrorModel:
         For the two-port methods the same form is applied to the S21 they measure (isolation,
         tracking and match residues in the roles of ed, et, es): a rough but sized guess.
         """
-        from rfmeas.methods import impedance_sensitivity, s_from_impedance
+        from rfmeas.model.methods import impedance_sensitivity, s_from_impedance
 
         z = np.asarray(impedance_ohm, dtype=complex)
         with np.errstate(divide="ignore", invalid="ignore"):

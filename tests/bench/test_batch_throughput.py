@@ -33,7 +33,7 @@ WORKERS = (1, 2)
 FLAT_MB = 20.0
 RUNNER = """
 import json, sys, time
-from rfmeas.batch import run_batch
+from rfmeas.history.batch import run_batch
 paths = sys.argv[2:]
 t0 = time.perf_counter()
 result = run_batch(paths, workers=int(sys.argv[1]))

@@ -11,7 +11,7 @@ import os
 
 import numpy as np
 
-from rfmeas.core import analyze_core, analyze_core_windings, leads_from_short
+from rfmeas.fit.core_spectrum import analyze_core, analyze_core_windings, leads_from_short
 from rfmeas.magnetics import toroid_geometry
 from tests.reference.core_sweeps import (
     Calibration, Leads, impedance, linear_grid, measure, random_core, s11_of, winding_capacitance_F, winding_z)

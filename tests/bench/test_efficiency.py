@@ -22,10 +22,10 @@ import numpy as np
 from fitting_helpers import REFERENCE_CIRCUIT, simulated_set
 from reference import four_sweeps
 from reference.skrf_circuit import simulate_skrf
-from rfmeas.fit import SweepProblem, fit_sweeps, to_internal
+from rfmeas.fit.solver import SweepProblem, fit_sweeps, to_internal
 from rfmeas.model import TransformerParams
 from rfmeas.model.params import PARAMETER_NAMES
-from rfmeas.results import build_result
+from rfmeas.fit.result import build_result
 
 POINTS = 201
 REPEATS = 200

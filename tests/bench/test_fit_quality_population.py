@@ -27,7 +27,7 @@ from reference import four_sweeps
 from reference.skrf_circuit import simulate_skrf
 from rfmeas.analysis import analyze
 from rfmeas.model import TransformerParams
-from rfmeas.sweep import DesignTarget
+from rfmeas.measurement.sweep import DesignTarget
 
 UNITS = 40
 KEYS = {"primary_inductance_H": "L1_H", "secondary_inductance_H": "L2_H",

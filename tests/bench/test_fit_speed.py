@@ -31,7 +31,7 @@ def measure() -> dict:
 
     from fitting_helpers import REFERENCE_CIRCUIT, simulated_set
     from rfmeas.analysis import analyze
-    from rfmeas.fit import fit_sweeps
+    from rfmeas.fit.solver import fit_sweeps
     from rfmeas.model import TransformerParams
 
     params = TransformerParams(**REFERENCE_CIRCUIT)

@@ -13,7 +13,7 @@ from timing import median, timings_s
 from fitting_helpers import REFERENCE_CIRCUIT, simulated_set
 from reference import four_sweeps, model_response
 from reference.skrf_circuit import simulate_four_sweeps
-from rfmeas.fit import SweepProblem
+from rfmeas.fit.solver import SweepProblem
 from rfmeas.model import TransformerParams
 from rfmeas.model.params import PARAMETER_NAMES
 

@@ -9,7 +9,7 @@ import os
 import sys
 import time
 
-from rfmeas.store import HistoryStore, _checked_sources
+from rfmeas.history.store import HistoryStore, _checked_sources
 
 
 def main() -> None:

@@ -12,7 +12,7 @@ import sys
 import time
 
 from rfmeas.errors import RfmeasError
-from rfmeas.store import HistoryStore
+from rfmeas.history.store import HistoryStore
 
 
 def main() -> int:

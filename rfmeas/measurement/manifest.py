@@ -12,7 +12,7 @@ from rfmeas.errors import InputError
 from rfmeas.limits import check_range
 from rfmeas.usertext import plain
 from rfmeas.io.strict import check_keys, read_toml
-from rfmeas.sweep import (WINDINGS, DesignTarget, MeasurementSet, Sweep, check_sweep_count, other_winding,
+from rfmeas.measurement.sweep import (WINDINGS, DesignTarget, MeasurementSet, Sweep, check_sweep_count, other_winding,
                      refuse_repeated_sweeps, thin_for_fit)
 
 _TOP_KEYS = {"transformer", "core", "design", "sweep"}
@@ -132,8 +132,8 @@ def _partial_sweep(raw_bytes: bytes, file_path: Path, warnings: list[str]) -> bo
 
 
 def _compensate(network, fixture_path: Path):
-    """The one-port `network` as the DUT would read without the jig (rfmeas.fixture)."""
-    from rfmeas.fixture import load_fixture
+    """The one-port `network` as the DUT would read without the jig (rfmeas.measurement.fixture)."""
+    from rfmeas.measurement.fixture import load_fixture
 
     fixture = load_fixture(fixture_path)
     s11 = fixture.compensate_reflection(network.f, network.s[:, 0, 0],
@@ -219,7 +219,7 @@ def load_manifest(path: str | Path) -> MeasurementSet:
         check_keys(entry, _SWEEP_KEYS, f"[{where}]", path)
         if "file" not in entry or not isinstance(entry["file"], str):
             raise InputError(f"{where} needs file = \"...\" (a Touchstone file relative to the manifest)", path)
-        from rfmeas.methods import METHODS
+        from rfmeas.model.methods import METHODS
 
         method = entry.get("method", "reflection")
         if method not in METHODS:

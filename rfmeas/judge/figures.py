@@ -3,7 +3,7 @@
 Every figure is computed from the fitted circuit values by one function of the
 parameter vector, so its standard error follows by first-order propagation:
 J = ∂figure/∂x by central differences in the fit's internal (log) coordinates,
-var = J·cov·Jᵀ with the fit's covariance (as rfmeas.results does for the
+var = J·cov·Jᵀ with the fit's covariance (as rfmeas.fit.result does for the
 parameters). A figure that needs a parameter the fit could not determine gets
 no standard error (or no value) and a note saying which.
 
@@ -12,7 +12,7 @@ Formulas:
 - µe = L·le/(µ0·N²·Ae) with le, Ae from rfmeas.magnetics (IEC 60205 forms);
 - reactance rule: lowest frequency where 2π·f·L ≥ factor·R, f = factor·R/(2π·L),
   primary against the source, secondary against the load (common practice);
-- corners and return-loss band: rfmeas.response on the fitted model between
+- corners and return-loss band: rfmeas.model.response on the fitted model between
   the design's source and load resistances.
 """
 
@@ -24,12 +24,12 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from rfmeas.design import DesignFacts, check_design, is_design
-from rfmeas.fit import to_physical
+from rfmeas.judge.design import DesignFacts, check_design, is_design
+from rfmeas.fit.solver import to_physical
 from rfmeas.magnetics import effective_permeability, geometry_from_table, nH_per_turn2_to
 from rfmeas.model.params import PARAMETER_NAMES, TransformerParams
-from rfmeas.results import checked_stderr
-from rfmeas.response import band_response, minimum_return_loss_dB, open_circuit_voltage_ratio, \
+from rfmeas.fit.result import checked_stderr
+from rfmeas.model.response import band_response, minimum_return_loss_dB, open_circuit_voltage_ratio, \
     reactance_limit_Hz, return_loss_dB, self_resonance_Hz
 from rfmeas.units import format_engineering as eng
 from rfmeas.units import format_with_error
@@ -252,7 +252,7 @@ def _combined_key(prefix: str, primary_known: bool, secondary_known: bool, held:
 def compute_figures(measurement, result, cannot_judge: tuple[str, ...] = ()) -> tuple[dict, dict | None, list[str]]:
     """(figures, design_check, warnings) for a fitted measurement set; see docs/DESIGN.md 'JSON contract'.
 
-    With reasons in `cannot_judge` (rfmeas.sanity.review_fit) the design check is not judged.
+    With reasons in `cannot_judge` (rfmeas.fit.checks.review_fit) the design check is not judged.
     """
     outcome = result.outcome
     design = measurement.design
@@ -527,5 +527,5 @@ def _render_verdicts(analysis, console) -> None:
 
 
 def terminal_renderers() -> list:
-    """Extra sections for rfmeas.terminal.render_analysis: the figures, then the design verdicts."""
+    """Extra sections for rfmeas.present.terminal.render_analysis: the figures, then the design verdicts."""
     return [_render_figures, _render_verdicts]

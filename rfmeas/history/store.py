@@ -181,8 +181,8 @@ class RecordSummary:
 
 
 def design_status(result: dict) -> str:
-    """'pass', 'fail', 'not judged' or 'no design' from a result's design_check (rfmeas.design)."""
-    from rfmeas.design import design_status as status_of_check
+    """'pass', 'fail', 'not judged' or 'no design' from a result's design_check (rfmeas.judge.design)."""
+    from rfmeas.judge.design import design_status as status_of_check
 
     return status_of_check(result.get("design_check"))
 
@@ -350,7 +350,7 @@ class HistoryStore:
         The result is kept as strict JSON: NaN and infinities become null.
         """
         from rfmeas import __version__
-        from rfmeas.jsonio import dumps_json
+        from rfmeas.io.jsonio import dumps_json
 
         rows = _checked_sources(sources)
         result_json = dumps_json(result)

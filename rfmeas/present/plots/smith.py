@@ -4,8 +4,8 @@ from __future__ import annotations
 
 import numpy as np
 
-from rfmeas.plots import style
-from rfmeas.plots.sweeps import model_sweeps
+from rfmeas.present.plots import style
+from rfmeas.present.plots.sweeps import model_sweeps
 
 
 def reflection_series(analysis, model=None) -> list[tuple[str, np.ndarray, np.ndarray]]:

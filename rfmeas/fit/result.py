@@ -2,7 +2,7 @@
 
 The fit is judged against the data's own noise, never against its own residuals
 (a noise level read off the residuals calls any misfit "noise"). For each sweep,
-σ_e is the per-component error of S element e from rfmeas.noise.error_sigma: the
+σ_e is the per-component error of S element e from rfmeas.measurement.noise.error_sigma: the
 trace noise found from neighbouring measured points, with a small systematic floor
 in quadrature. r_fe = S_model − S_measured at point f, element e.
 
@@ -41,10 +41,10 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
-from rfmeas.fit import FitOutcome, to_physical
+from rfmeas.fit.solver import FitOutcome, to_physical
 from rfmeas.model.params import PARAMETER_NAMES, TransformerParams
-from rfmeas.noise import error_sigma
-from rfmeas.sweep import Sweep
+from rfmeas.measurement.noise import error_sigma
+from rfmeas.measurement.sweep import Sweep
 
 # JSON key, internal name, unit for display
 PARAMETER_KEYS = (
@@ -356,7 +356,7 @@ def sweep_misfit(measured: np.ndarray, residual: np.ndarray) -> tuple[np.ndarray
     """(residual in units of the data's error, data noise, misfit ratio) of one sweep.
 
     `measured` and `residual` have shape (F, E); the error σ_e of each element comes from the
-    measured data alone (rfmeas.noise.error_sigma). The normalised residual r/(√2·σ_e) has
+    measured data alone (rfmeas.measurement.noise.error_sigma). The normalised residual r/(√2·σ_e) has
     rms 1 per point when the misfit is the noise.
     """
     sigma = error_sigma(measured)
@@ -450,7 +450,7 @@ def build_result(outcome: FitOutcome, sweeps: list[Sweep]) -> FitResult:
                                           "interwinding_capacitance_F", "primary_resistance_ohm",
                                           "secondary_resistance_ohm"):
             warnings.append(f"{LABELS[key]} not determined: {est.note}")
-    # non-convergence is reported, with its reason, by rfmeas.sanity.check_fit
+    # non-convergence is reported, with its reason, by rfmeas.fit.checks.check_fit
     return FitResult(
         params=outcome.params,
         estimates=estimates,

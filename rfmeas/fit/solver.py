@@ -3,7 +3,7 @@
 Residuals and weights. The residual is the complex difference between
 modelled and measured S parameters (real and imaginary parts), each S element
 of each sweep divided by its error σ from the data alone
-(rfmeas.noise.error_sigma: trace noise from neighbouring points, with a
+(rfmeas.measurement.noise.error_sigma: trace noise from neighbouring points, with a
 systematic floor), never from the fit's own residuals. So the reduced χ²,
 2·cost/(N − p), is a real goodness-of-fit statistic (≈ 1 when the model
 describes the data down to its noise); it is reported as `reduced_chi2`.
@@ -13,7 +13,7 @@ log(1 − k) for the coupling, so leakage of 0.1 % and 10 % are equally easy to
 reach.
 
 Method (global, then local):
-1. Readings (rfmeas.fit_start): L and C of each open winding from a weighted
+1. Readings (rfmeas.fit.start): L and C of each open winding from a weighted
    straight-line fit of its inductive band, the short-circuit inductance
    (hence k), the turns ratio from the thru's mid-band reflection and its
    low-band inductance. What the sweeps cannot split — the open-circuit
@@ -46,7 +46,7 @@ plus what the white-noise errors leave out: the shift a smooth systematic
 error of the size the fit leaves unexplained could cause
 (_smooth_error_covariance), and the spread of the held parameters, in their
 linear coordinates, carried into the free ones (_held_parameter_covariance).
-Derived quantities follow by first-order propagation (rfmeas.results).
+Derived quantities follow by first-order propagation (rfmeas.fit.result).
 """
 
 from __future__ import annotations
@@ -60,13 +60,13 @@ import numpy as np
 from scipy.optimize import least_squares
 
 from rfmeas.errors import FitError
-from rfmeas.methods import s_from_impedance
-from rfmeas.fit_start import start_candidates, sweeps_that_see
+from rfmeas.model.methods import s_from_impedance
+from rfmeas.fit.start import start_candidates, sweeps_that_see
 from rfmeas.model.circuit import driving_point_admittance, reflection_from_admittance, s_from_y, \
     termination_admittance, y_elements
 from rfmeas.model.params import PARAMETER_NAMES, TransformerParams
-from rfmeas.noise import error_sigma
-from rfmeas.sweep import Sweep
+from rfmeas.measurement.noise import error_sigma
+from rfmeas.measurement.sweep import Sweep
 
 log = logging.getLogger(__name__)
 
@@ -140,7 +140,7 @@ def internal_bounds(name: str) -> tuple[float, float]:
 
 @dataclass(frozen=True)
 class FitOutcome:
-    """Raw numerical outcome of the fit; rfmeas.results turns it into a report."""
+    """Raw numerical outcome of the fit; rfmeas.fit.result turns it into a report."""
 
     params: TransformerParams
     free: tuple[str, ...]                 # fitted parameters
@@ -170,7 +170,7 @@ class SweepProblem:
     """Vectorised weighted residuals of a set of sweeps for stacks of parameter vectors.
 
     Each sweep's residual is divided by its error σ per S element (data noise and
-    the systematic floor, rfmeas.noise.error_sigma), so 2·cost/(N − p) is the
+    the systematic floor, rfmeas.measurement.noise.error_sigma), so 2·cost/(N − p) is the
     reduced χ² of the fit against the data's own noise.
     """
 

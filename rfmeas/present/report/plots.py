@@ -30,9 +30,9 @@ def _safe(text: str) -> str:
 
 def analysis_plots(analysis) -> list[NamedPlot]:
     """Response, core spectra, Smith chart and one plot per sweep; close them with `close_plots`."""
-    from rfmeas.plots.response import plot_core_spectra, plot_response
-    from rfmeas.plots.smith import plot_smith
-    from rfmeas.plots.sweeps import model_sweeps, plot_sweep, sweep_title
+    from rfmeas.present.plots.response import plot_core_spectra, plot_response
+    from rfmeas.present.plots.smith import plot_smith
+    from rfmeas.present.plots.sweeps import model_sweeps, plot_sweep, sweep_title
 
     model = model_sweeps(analysis)
     plots = [NamedPlot("response", "Gain and return loss",
@@ -57,7 +57,7 @@ def analysis_plots(analysis) -> list[NamedPlot]:
 
 
 def close_plots(plots: list[NamedPlot]) -> None:
-    from rfmeas.plots.style import close
+    from rfmeas.present.plots.style import close
 
     for plot in plots:
         close(plot.figure)
@@ -66,7 +66,7 @@ def close_plots(plots: list[NamedPlot]) -> None:
 def export_plots(analysis, folder, formats=EXPORT_FORMATS, plots=None) -> list[Path]:
     """Write every plot of `analysis` into `folder` in each of `formats`; returns the paths."""
     from rfmeas.errors import InputError
-    from rfmeas.plots.style import save_figure
+    from rfmeas.present.plots.style import save_figure
 
     bad = [f for f in formats if f not in EXPORT_FORMATS]
     if bad:

@@ -22,10 +22,10 @@ from dataclasses import dataclass
 import numpy as np
 
 from rfmeas.errors import FitError, InputError
-from rfmeas.fit import BOUNDS
-from rfmeas.fit_start import inductance_at_low_frequency
-from rfmeas.results import GOOD_MISFIT_RATIO, FitResult
-from rfmeas.sweep import MeasurementSet, Sweep
+from rfmeas.fit.solver import BOUNDS
+from rfmeas.fit.start import inductance_at_low_frequency
+from rfmeas.fit.result import GOOD_MISFIT_RATIO, FitResult
+from rfmeas.measurement.sweep import MeasurementSet, Sweep
 
 NOT_A_TRANSFORMER = "this does not look like a two-winding transformer"
 
@@ -82,7 +82,7 @@ practice): below that every sweep fits down to its noise."""
 
 SYSTEMATIC_CORRELATION = 0.5
 """Lag-1 residual correlation above this is a pattern along frequency, not noise (as in
-rfmeas.results)."""
+rfmeas.fit.result)."""
 
 EDGE_TOLERANCE = 0.01
 """A parameter within this (in the fit's internal log coordinates, about 1 %) of its range
@@ -339,7 +339,7 @@ def _residual_outliers(result: FitResult) -> list[str]:
 
 
 def _edges(result: FitResult) -> list[str]:
-    from rfmeas.fit import to_internal
+    from rfmeas.fit.solver import to_internal
 
     out = []
     params = result.params
@@ -388,7 +388,7 @@ METHOD_ADVICE_GAIN = 3.0
 
 def method_warnings(measurement: MeasurementSet) -> list[str]:
     """For each one-port reflection sweep: a sentence when a two-port method would measure it better."""
-    from rfmeas.methods import method_advice
+    from rfmeas.model.methods import method_advice
 
     out = []
     for sweep in measurement.sweeps:

@@ -26,7 +26,7 @@ from __future__ import annotations
 import math
 from dataclasses import dataclass, replace
 
-from rfmeas.sweep import DesignTarget
+from rfmeas.measurement.sweep import DesignTarget
 from rfmeas.units import format_engineering as eng
 
 NOTHING_TO_CHANGE = "nothing to change"
@@ -109,7 +109,7 @@ def design_fails(status: str) -> bool:
 
 @dataclass(frozen=True)
 class DesignFacts:
-    """The measured numbers the check needs (from rfmeas.figures); None where not known.
+    """The measured numbers the check needs (from rfmeas.judge.figures); None where not known.
 
     high_corner_3dB_Hz is None when the corner lies beyond the evaluated range, whose
     top is evaluated_top_Hz; high_limited_by names the element ('leakage' or

@@ -5,7 +5,7 @@ from __future__ import annotations
 import numpy as np
 
 from rfmeas.units import format_engineering
-from rfmeas.plots.style import PALETTE, close, engineering_axis, new_figure, save_figure
+from rfmeas.present.plots.style import PALETTE, close, engineering_axis, new_figure, save_figure
 
 MODEL_POINTS = 400
 

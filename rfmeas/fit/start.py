@@ -12,8 +12,8 @@ import math
 
 import numpy as np
 
-from rfmeas.methods import impedance_from_reflection
-from rfmeas.sweep import Sweep, other_winding
+from rfmeas.model.methods import impedance_from_reflection
+from rfmeas.measurement.sweep import Sweep, other_winding
 
 
 def _low_band(f_Hz, fraction=0.08, minimum=3):

@@ -88,9 +88,9 @@ class Sweep:
         """The winding's impedance from a one-port sweep's measured (or given) S element.
 
         Reflection sweeps convert S11, two-port method sweeps their S21, each by the
-        method's own formula (rfmeas.methods). `values` defaults to the measurement.
+        method's own formula (rfmeas.model.methods). `values` defaults to the measurement.
         """
-        from rfmeas.methods import impedance_from_s
+        from rfmeas.model.methods import impedance_from_s
 
         if self.is_two_port:
             raise ValueError("a two-port sweep of both windings has no single winding impedance")

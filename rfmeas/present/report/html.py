@@ -14,8 +14,8 @@ import platform
 from pathlib import Path
 
 from rfmeas import __version__
-from rfmeas.figures import figure_rows
-from rfmeas.results import LABELS, PARAMETER_KEYS
+from rfmeas.judge.figures import figure_rows
+from rfmeas.fit.result import LABELS, PARAMETER_KEYS
 from rfmeas.units import format_engineering, format_with_error
 
 CAUTIONS = (
@@ -107,7 +107,7 @@ def missed_text(quality) -> str:
 
 def quality_row(analysis) -> dict:
     """The fit judged against the data's own noise, as a verdict row."""
-    from rfmeas.results import GOOD_MISFIT_RATIO, POOR_MISFIT_RATIO
+    from rfmeas.fit.result import GOOD_MISFIT_RATIO, POOR_MISFIT_RATIO
 
     q = analysis.fit.quality
     missed = missed_text(q)
@@ -221,7 +221,7 @@ def software_versions() -> list[dict]:
 
 
 def png_data_uri(figure, dpi: int = 110) -> str:
-    from rfmeas.plots.style import figure_bytes
+    from rfmeas.present.plots.style import figure_bytes
 
     return "data:image/png;base64," + base64.b64encode(figure_bytes(figure, "png", dpi)).decode("ascii")
 
@@ -274,7 +274,7 @@ def _environment():
 
 def render_report(analysis, plots=None, generated: str | None = None) -> str:
     """The report page as HTML text; `plots` (from analysis_plots) are made and closed if not given."""
-    from rfmeas.report.plots import analysis_plots, close_plots
+    from rfmeas.present.report.plots import analysis_plots, close_plots
 
     own = plots is None
     plots = analysis_plots(analysis) if own else plots

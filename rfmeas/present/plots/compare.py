@@ -4,8 +4,8 @@ from __future__ import annotations
 
 import numpy as np
 
-from rfmeas.plots import style
-from rfmeas.plots.sweeps import model_sweeps
+from rfmeas.present.plots import style
+from rfmeas.present.plots.sweeps import model_sweeps
 
 
 def matched_sweeps(before, after) -> list[tuple[int, int]]:

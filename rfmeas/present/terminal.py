@@ -4,7 +4,7 @@ from __future__ import annotations
 
 from rfmeas.usertext import markup as escape  # user text verbatim: control characters visible, no markup
 
-from rfmeas.results import LABELS, PARAMETER_KEYS
+from rfmeas.fit.result import LABELS, PARAMETER_KEYS
 from rfmeas.units import format_engineering, format_with_error
 
 _UNITS = {key: unit for key, _name, unit in PARAMETER_KEYS}
@@ -82,7 +82,7 @@ def render_analysis(analysis, console) -> None:
                   "jig errors come on top. The T-model view uses the proportional leakage split "
                   "(Ll1 = L1(1−k), Ll2 = L2(1−k)): the terminals cannot tell how leakage divides.[/]")
     console.print()
-    from rfmeas.figures import terminal_renderers
+    from rfmeas.judge.figures import terminal_renderers
 
     for extra in terminal_renderers():
         extra(analysis, console)

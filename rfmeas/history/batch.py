@@ -34,7 +34,7 @@ from pathlib import Path
 
 from rfmeas.io.atomic import atomic_write_text
 from rfmeas.errors import EXIT_BAD_INPUT, EXIT_DESIGN_FAILED, EXIT_OK, InputError, RfmeasError
-from rfmeas.store import design_status
+from rfmeas.history.store import design_status
 
 log = logging.getLogger(__name__)
 

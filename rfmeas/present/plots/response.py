@@ -19,8 +19,8 @@ import math
 
 import numpy as np
 
-from rfmeas.plots import style
-from rfmeas.plots.sweeps import model_sweeps
+from rfmeas.present.plots import style
+from rfmeas.present.plots.sweeps import model_sweeps
 
 RESPONSE_POINTS = 600
 

@@ -38,7 +38,7 @@ import numpy as np
 
 from rfmeas.errors import FitError, InputError
 from rfmeas.magnetics import CoreGeometry
-from rfmeas.jsonio import SCHEMA_VERSION
+from rfmeas.io.jsonio import SCHEMA_VERSION
 from rfmeas.magnetics.dispersion import (
     DEFAULT_VNA_ERRORS,
     MODEL_FORMS,
@@ -58,7 +58,7 @@ from rfmeas.magnetics.dispersion import (
     weighted_median,
     winding_impedance,
 )
-from rfmeas.methods import METHODS, REFLECTION, impedance_from_s, method_advice
+from rfmeas.model.methods import METHODS, REFLECTION, impedance_from_s, method_advice
 from rfmeas.units import format_engineering as eng
 
 log = logging.getLogger(__name__)
@@ -896,7 +896,7 @@ def _loss_points(f, mu_real, mu_imag, real_se, imag_se, trust, mu_i, fit, freque
 def _match(materials, mu_i, mu_i_se, peak: LossPeak, dc_resistance, poor: bool, f_lo: float, f_hi: float):
     """The material match from the headline µi, the µ'' peak (None when not inside the sweep: then it
     lies above or below it) and the DC hint; a poor fit names no class with confidence."""
-    from rfmeas.materials import match_material
+    from rfmeas.magnetics.materials import match_material
 
     return match_material(materials, mu_i, mu_i_se, peak.frequency_Hz, None, dc_resistance, fit_is_poor=poor,
                           sweep_top_Hz=f_hi, sweep_bottom_Hz=f_lo)
@@ -1287,7 +1287,7 @@ def analyze_core_file(path, turns: int | None = None, geometry: CoreGeometry | N
     manifest with [[winding]] tables. `extra_files` with `extra_turns` add windings of other
     turn counts; `leads_short` is a sweep of the shorted leads; `leads` given values.
     """
-    from rfmeas.materials import load_materials
+    from rfmeas.magnetics.materials import load_materials
 
     path = Path(path)
     if method is not None and method not in METHODS:
@@ -1316,7 +1316,7 @@ def analyze_core_file(path, turns: int | None = None, geometry: CoreGeometry | N
                 leads = given_leads(spec["leads"].get("inductance_H"), spec["leads"].get("resistance_ohm"), core_set)
         label0 = str(core_set)
     elif path.suffix.lower() == ".toml" or path.is_dir():
-        from rfmeas.io.manifest import load_manifest
+        from rfmeas.measurement.manifest import load_manifest
         from rfmeas.magnetics import geometry_from_table
 
         mset = load_manifest(path)

@@ -225,7 +225,7 @@ def _verdict(before: dict, after: dict, changes: dict[str, Change], targets: dic
         if target is not None:
             sentences.append(_target_sentence(key, label, bound, target, c))
     params = [(k, c) for k, c in changes.items() if c.group == "parameter"]
-    from rfmeas.results import LABELS
+    from rfmeas.fit.result import LABELS
 
     moved = [f"{LABELS.get(k, k)} ({c.change_percent:+.1f} %)" if c.change_percent is not None
              else LABELS.get(k, k) for k, c in params if c.significant]

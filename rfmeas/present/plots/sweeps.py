@@ -3,19 +3,19 @@
 One-port sweeps are shown as the impedance the winding presents (|Z| and
 phase), two-port sweeps as |S| in dB and phase of each fitted element. The
 model values are exactly those the fit compared with the data
-(rfmeas.fit.SweepProblem.predict at the fitted parameters).
+(rfmeas.fit.solver.SweepProblem.predict at the fitted parameters).
 """
 
 from __future__ import annotations
 
 import numpy as np
 
-from rfmeas.plots import style
+from rfmeas.present.plots import style
 
 
 def model_sweeps(analysis) -> list[np.ndarray]:
     """Model S elements of every sweep at the fitted parameters: list of (F, E) complex arrays."""
-    from rfmeas.fit import SweepProblem
+    from rfmeas.fit.solver import SweepProblem
 
     params = analysis.fit.params
     problem = SweepProblem(list(analysis.measurement.sweeps), params.polarity)

@@ -1,0 +1,1 @@
+"""What was measured before: the history store, before/after comparison, production lots."""

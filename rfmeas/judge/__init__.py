@@ -1,0 +1,1 @@
+"""Judging a fitted transformer: figures of merit, the design check, the turns planner."""

@@ -1,0 +1,1 @@
+"""What was measured: sweeps, measurement sets, manifests, impedance methods, test jigs, data noise."""

@@ -1,0 +1,1 @@
+"""What people see: terminal tables, plots, the HTML report, model export."""
