@@ -153,3 +153,57 @@ def test_core_loss_placement_and_polarity_are_kept():
     params = _outcome(core_loss="primary").params
     assert got.value == _impedance_magnitude(params)
     assert got.value != pytest.approx(_impedance_magnitude(params.replace(core_loss="magnetizing")), rel=1e-6)
+
+
+def _random_case(rng):
+    """Parameters over the range a user can bring and a random correlated covariance (0.1–5 %)."""
+    l1, l2 = 10 ** rng.uniform(-7, -3), 10 ** rng.uniform(-7, -3)
+    k = 1 - 10 ** rng.uniform(-5, -0.4)
+    a = rng.normal(size=(3, 3))
+    corr = a @ a.T
+    corr /= np.sqrt(np.outer(np.diag(corr), np.diag(corr)))
+    rel = 10 ** rng.uniform(-3, -1.3, size=3)
+    s = np.array([rel[0] * l1, rel[1] * l2, rel[2] * (1 - k)])  # k's spread scales with 1 − k, as in the fit
+    params = TransformerParams(l1, l2, k)
+    x = np.array([math.log(l1), math.log(l2), math.log(1 - k)])
+    inv_d = np.array([1 / l1, 1 / l2, -1 / (1 - k)])
+    cov_p = corr * np.outer(s, s)
+    outcome = FitOutcome(params=params, free=("L1_H", "L2_H", "k"), held={}, referred={}, x=x,
+                         covariance=cov_p * np.outer(inv_d, inv_d), residual_variance=1.0, sweep_sigma=(),
+                         residuals=(), converged=True, message="", evaluations=0, points=100, elapsed_s=0.0)
+    return outcome, cov_p
+
+
+def test_closed_form_over_a_random_population():
+    # 300 seeded cases; the analytic gradients of leakage and ratio (as derived above) with g·C·gᵀ
+    rng = np.random.default_rng(151)
+    worst = 0.0
+    for _ in range(300):
+        outcome, cov = _random_case(rng)
+        p = outcome.params
+        g_leak = np.array([1 - p.k ** 2, 0.0, -2 * p.k * p.L1_H])
+        n = p.effective_turns_ratio
+        g_ratio = np.array([-n / (2 * p.L1_H), n / (2 * p.L2_H), 0.0])
+        got = propagate_all(outcome, lambda q: {"leak": q.leakage_inductance_H, "ratio": q.effective_turns_ratio})
+        for key, g in (("leak", g_leak), ("ratio", g_ratio)):
+            expected = math.sqrt(g @ cov @ g)
+            worst = max(worst, abs(got[key].stderr / expected - 1))
+    assert worst < 1e-5, worst
+
+
+def test_monte_carlo_over_a_random_population():
+    rng = np.random.default_rng(152)
+    worst = 0.0
+    for _ in range(12):
+        outcome, cov = _random_case(rng)
+        p = outcome.params
+        got = propagate_all(outcome, lambda q: {"leak": q.leakage_inductance_H, "ratio": q.effective_turns_ratio,
+                                                "mutual": q.mutual_inductance_H})
+        d = rng.multivariate_normal([p.L1_H, p.L2_H, p.k], cov, size=20000)
+        l1, l2, k = d.T
+        scatter = {"leak": np.std(l1 * (1 - k ** 2)), "ratio": np.std(np.sqrt(l2 / l1)),
+                   "mutual": np.std(k * np.sqrt(l1 * l2))}
+        for key, s in scatter.items():
+            worst = max(worst, abs(got[key].stderr / s - 1))
+    # sampling alone: 0.5 % (1σ) per comparison; the rest is the first-order approximation at 5 % spreads
+    assert worst < 0.05, worst
