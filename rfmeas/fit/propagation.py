@@ -42,6 +42,9 @@ class Propagated:
     reason: str = ""               # why stderr is None
     held: tuple[str, ...] = ()     # held parameters the quantity needs
 
+    def to_dict(self) -> dict:
+        return {"value": self.value, "stderr": self.stderr, "reason": self.reason, "held": list(self.held)}
+
 
 def checked_stderr(value: float, stderr: float | None, no_covariance: bool = False) -> tuple[float | None, str]:
     """(standard error, "") when it is a usable number, else (None, why).
