@@ -1,5 +1,10 @@
 """Figures of merit of a fitted transformer, with propagated standard errors, and the design check.
 
+Results are typed: each figure is a frozen `Figure` (value, standard error, unit,
+label, and the note saying why a value or its error is missing), gathered in
+`Figures` (named access, iteration in reading order) with the `ReturnLossBand` and
+the `Terminations`; `to_dict()` gives the JSON contract's `figures` section.
+
 Every figure is computed from the fitted circuit values by one function of the
 parameter vector, so its standard error follows by first-order propagation:
 J = ∂figure/∂x by central differences in the fit's internal (log) coordinates,
@@ -281,11 +286,15 @@ FIGURE_LABELS = {
     "self_resonance_secondary_Hz": ("self-resonance, secondary (primary open)", "Hz"),
     "turns_ratio": ("turns ratio √(L2/L1)", ""),
 }
-# the JSON contract's order of the figures section (docs/DESIGN.md)
+# the JSON contract's order of the figures section (docs/DESIGN.md); a figure added later follows them
 _JSON_ORDER = ("inductance_factor_nH_per_turn2", "effective_permeability", "low_frequency_limit_Hz",
                "low_frequency_corner_1dB_Hz", "low_frequency_corner_3dB_Hz", "high_frequency_corner_1dB_Hz",
                "high_frequency_corner_3dB_Hz", "midband_insertion_loss_dB", "return_loss_band",
                "self_resonance_primary_Hz", "self_resonance_secondary_Hz", "turns_ratio", "terminations")
+
+
+def _json_place(name: str) -> int:
+    return _JSON_ORDER.index(name) if name in _JSON_ORDER else len(_JSON_ORDER)
 
 
 @dataclass(frozen=True)
@@ -329,7 +338,7 @@ class Figures:
         parts = {f.name: f.to_dict() for f in self.figures}
         parts["return_loss_band"] = self.return_loss_band.to_dict()
         parts["terminations"] = self.terminations.to_dict()
-        return {key: parts[key] for key in _JSON_ORDER if key in parts}
+        return {key: parts[key] for key in sorted(parts, key=_json_place)}
 
 
 class _Builder:
