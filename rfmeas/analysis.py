@@ -2,13 +2,18 @@
 
 from __future__ import annotations
 
-from dataclasses import dataclass, field, replace
+from dataclasses import dataclass, replace
 from pathlib import Path
+from typing import TYPE_CHECKING
 
 from rfmeas import __version__
 from rfmeas.io.jsonio import SCHEMA_VERSION
 from rfmeas.fit.result import FitResult
 from rfmeas.measurement.sweep import MeasurementSet
+
+if TYPE_CHECKING:
+    from rfmeas.judge.design import DesignCheck
+    from rfmeas.judge.figures import Figures
 
 
 @dataclass(frozen=True)
@@ -17,8 +22,8 @@ class Analysis:
 
     measurement: MeasurementSet
     fit: FitResult
-    figures: dict = field(default_factory=dict)
-    design_check: dict | None = None
+    figures: Figures | None = None           # None only for an analysis built without figures
+    design_check: DesignCheck | None = None  # None without a design to check
     warnings: tuple[str, ...] = ()
     advice: tuple[str, ...] = ()   # better ways to measure, not doubts about the result
     recorded: MeasurementSet | None = None  # everything measured, left-out sweeps included
@@ -29,17 +34,13 @@ class Analysis:
 
     @property
     def design_passed(self) -> bool | None:
-        """True or False as the design check decided; None without a check or when not judged."""
-        if not self.design_check:
-            return None
-        return self.design_check.get("passed")
+        """True or False as DesignCheck.passed decided; None without a check or when not judged."""
+        return None if self.design_check is None else self.design_check.passed
 
     @property
     def design_status(self) -> str:
-        """'pass', 'fail', 'not judged' or 'no design' (rfmeas.judge.design.design_status)."""
-        from rfmeas.judge.design import design_status
-
-        return design_status(self.design_check)
+        """'pass', 'fail', 'not judged' (DesignCheck.status) or 'no design'."""
+        return "no design" if self.design_check is None else self.design_check.status
 
     @property
     def all_warnings(self) -> list[str]:
@@ -56,8 +57,8 @@ class Analysis:
             "schema_version": SCHEMA_VERSION,
             "name": self.name,
             "parameters": fit["parameters"],
-            "figures": self.figures,
-            "design_check": self.design_check,
+            "figures": {} if self.figures is None else self.figures.to_dict(),
+            "design_check": None if self.design_check is None else self.design_check.to_dict(),
             "fit": fit["fit"],
             "model": fit["model"],
             "measurement": (self.recorded or self.measurement).to_dict(),

@@ -5,13 +5,29 @@ import math
 import pytest
 
 from rfmeas.history.compare import RULE, compare_results, format_quantity, judge
+from rfmeas.judge.design import overall, status_word
 
 
 def q(value, stderr):
     return {"value": value, "stderr": stderr}
 
 
-def result(name, L1_H, L2_H, ratio, f_low_Hz, f_high_Hz, ratio_error):
+def check_json(f_low_Hz, f_high_Hz, lowest_Hz=1.8e6, highest_Hz=None):
+    """A design_check as DesignCheck.to_dict() writes it (the checks the comparison reads)."""
+    checks = [{"name": "low_frequency_limit", "passed": f_low_Hz <= lowest_Hz, "value": f_low_Hz,
+               "limit": lowest_Hz, "unit": "Hz"}]
+    if highest_Hz is not None:
+        checks.append({"name": "high_frequency_corner", "passed": f_high_Hz >= highest_Hz, "value": f_high_Hz,
+                       "limit": highest_Hz, "unit": "Hz"})
+    for c in checks:
+        c["state"] = status_word(c["passed"])
+    passed = overall(c["passed"] for c in checks)
+    return {"passed": passed, "status": status_word(passed), "not_judged_reasons": [], "checks": checks,
+            "target": {"target_turns_ratio": 3.0, "lowest_frequency_Hz": lowest_Hz,
+                       "highest_frequency_Hz": highest_Hz}}
+
+
+def result(name, L1_H, L2_H, ratio, f_low_Hz, f_high_Hz, highest_Hz=None):
     return {
         "name": name,
         "parameters": {
@@ -23,16 +39,15 @@ def result(name, L1_H, L2_H, ratio, f_low_Hz, f_high_Hz, ratio_error):
         "figures": {"low_frequency_limit_Hz": q(f_low_Hz, 20e3),
                     "high_frequency_corner_3dB_Hz": q(f_high_Hz, None),
                     "note": "text is skipped"},
-        "design_check": {"turns_ratio": 3.0, "ratio_error_percent": q(ratio_error, 0.2),
-                         "lowest_frequency_Hz": 1.8e6},
+        "design_check": check_json(f_low_Hz, f_high_Hz, highest_Hz=highest_Hz),
         "fit": {}, "warnings": [],
     }
 
 
-BEFORE = result("unit 7", 20e-6, 171e-6, 2.924, 2.0e6, 28e6, -2.5)
+BEFORE = result("unit 7", 20e-6, 171e-6, 2.925, 2.0e6, 28e6)
 # L1 moves by 0.1 µH (well under one sigma of the difference, ~0.28 µH); L2 by 9 µH (~6 sigma);
-# the ratio by 0.07 (~10 sigma) and its error from -2.5 % to -0.2 %.
-AFTER = result("unit 7", 20.1e-6, 180e-6, 2.994, 1.5e6, 35e6, -0.2)
+# the ratio by 0.07 (~10 sigma) and its error against the design's 3.0 from -2.5 % to -0.2 %.
+AFTER = result("unit 7", 20.1e-6, 180e-6, 2.994, 1.5e6, 35e6)
 
 
 def test_sigma_rule_separates_real_changes():
@@ -68,9 +83,9 @@ def test_verdict_sentences():
 
 
 def test_worse_and_unchanged():
-    worse = result("unit 8", 20e-6, 171e-6, 2.924, 2.5e6, 20e6, -6.0)
-    verdict = compare_results(BEFORE, worse, design={"lowest_frequency_Hz": 1.8e6,
-                                                     "highest_frequency_Hz": 30e6}).verdict
+    before = result("unit 7", 20e-6, 171e-6, 2.925, 2.0e6, 28e6, highest_Hz=30e6)
+    worse = result("unit 8", 20e-6, 171e-6, 2.82, 2.5e6, 20e6, highest_Hz=30e6)
+    verdict = compare_results(before, worse).verdict
     assert "Low-frequency limit got worse (2 MHz → 2.5 MHz, +25.0 %)." in verdict
     assert "Low-frequency limit: the design asks for at most 1.8 MHz: still missed." in verdict
     assert "Upper corner frequency: the design asks for at least 30 MHz: still missed." in verdict

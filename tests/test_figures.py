@@ -80,21 +80,21 @@ def _closed_form_low_corner_Hz(params, source_ohm, load_ohm):
 def test_inductance_factor_matches_L_over_N_squared(matched):
     al = matched.figures["inductance_factor_nH_per_turn2"]
     # A_L = L/N² (REFERENCES.md "Core geometry and A_L"): 10 µH / 25 = 90 µH / 225 = 400 nH/turn²
-    assert al["primary"]["value"] == pytest.approx(TRUE.L1_H / N1**2 * 1e9, rel=0.01)
-    assert al["secondary"]["value"] == pytest.approx(TRUE.L2_H / N2**2 * 1e9, rel=0.01)
-    assert al["value"] == pytest.approx(400.0, rel=0.01)
-    assert abs(al["agreement_percent"]) < 1.0 and al["agrees"] is True
+    assert al.detail("primary").value == pytest.approx(TRUE.L1_H / N1**2 * 1e9, rel=0.01)
+    assert al.detail("secondary").value == pytest.approx(TRUE.L2_H / N2**2 * 1e9, rel=0.01)
+    assert al.value == pytest.approx(400.0, rel=0.01)
+    assert abs(al.detail("agreement_percent")) < 1.0 and al.detail("agrees") is True
     # 1 µH per 100 turns = 0.1 nH/turn², 1 mH per 1000 turns = 1 nH/turn² (L at N turns over N²)
-    assert al["uH_per_100_turns"]["value"] == pytest.approx(al["value"] * 10)
-    assert al["mH_per_1000_turns"]["value"] == pytest.approx(al["value"])
+    assert al.detail("uH_per_100_turns").value == pytest.approx(al.value * 10)
+    assert al.detail("mH_per_1000_turns").value == pytest.approx(al.value)
 
 
 def test_inductance_factor_stderr_is_the_inductance_stderr_over_N_squared(matched):
     # first-order propagation of a linear function: σ(A_L) = σ(L1)/N1²
-    al = matched.figures["inductance_factor_nH_per_turn2"]["primary"]
+    al = matched.figures["inductance_factor_nH_per_turn2"].detail("primary")
     l1 = matched.fit.estimate("primary_inductance_H")
     assert l1.stderr > 0
-    assert al["stderr"] == pytest.approx(l1.stderr / N1**2 * 1e9, rel=1e-3)
+    assert al.stderr == pytest.approx(l1.stderr / N1**2 * 1e9, rel=1e-3)
 
 
 def test_effective_permeability_of_a_toroid(matched):
@@ -102,10 +102,10 @@ def test_effective_permeability_of_a_toroid(matched):
     # (IEC 60205 ring-core form, worked in REFERENCES.md "Core geometry and A_L")
     mu = matched.figures["effective_permeability"]
     expected = TRUE.L1_H * 3.0216e3 / (MU0_H_per_m * N1**2)
-    assert mu["value"] == pytest.approx(expected, rel=0.01)
+    assert mu.value == pytest.approx(expected, rel=0.01)
     geometry = toroid_geometry(10.0, 5.0, 3.0)
-    assert mu["core"]["effective_length_mm"] == pytest.approx(geometry.effective_length_m * 1e3)
-    assert mu["core"]["effective_length_mm"] == pytest.approx(21.78, rel=1e-3)  # REFERENCES.md [derived]
+    assert mu.detail("core")["effective_length_mm"] == pytest.approx(geometry.effective_length_m * 1e3)
+    assert mu.detail("core")["effective_length_mm"] == pytest.approx(21.78, rel=1e-3)  # REFERENCES.md [derived]
 
 
 def test_reactance_rule_limit_by_hand(sweeps):
@@ -114,12 +114,12 @@ def test_reactance_rule_limit_by_hand(sweeps):
     design = DesignTarget(source_impedance_ohm=50.0, load_impedance_ohm=200.0, lowest_frequency_Hz=2e6)
     a = analyze(MeasurementSet("mismatched", sweeps, N1, N2, None, design))
     lf = a.figures["low_frequency_limit_Hz"]
-    assert lf["primary"]["value"] == pytest.approx(3.1831e6, rel=0.02)
-    assert lf["secondary"]["value"] == pytest.approx(1.4147e6, rel=0.02)
-    assert lf["value"] == pytest.approx(3.1831e6, rel=0.02) and lf["set_by"] == "primary"
-    assert lf["stderr"] > 0
+    assert lf.detail("primary").value == pytest.approx(3.1831e6, rel=0.02)
+    assert lf.detail("secondary").value == pytest.approx(1.4147e6, rel=0.02)
+    assert lf.value == pytest.approx(3.1831e6, rel=0.02) and lf.detail("set_by") == "primary"
+    assert lf.stderr > 0
     # the corner for this mismatch: Rp = 50 ∥ 200/9 = 15.385 Ω
-    assert a.figures["low_frequency_corner_3dB_Hz"]["value"] == pytest.approx(
+    assert a.figures["low_frequency_corner_3dB_Hz"].value == pytest.approx(
         _closed_form_low_corner_Hz(TRUE, 50.0, 200.0), rel=0.03)
 
 
@@ -129,15 +129,15 @@ def test_three_dB_corners_against_the_closed_form(matched):
     # (the REFERENCES.md worked case, 25 Ω and 10 µH, gives 397.9 kHz)
     low = _closed_form_low_corner_Hz(TRUE, 50.0, 450.0)
     assert low == pytest.approx(399.9e3, rel=1e-3)
-    assert f["low_frequency_corner_3dB_Hz"]["value"] == pytest.approx(low, rel=0.03)
+    assert f["low_frequency_corner_3dB_Hz"].value == pytest.approx(low, rel=0.03)
     # upper corner of the series leakage L1(1 − k²) between Rs and RL' (first-order low-pass,
     # (Rs + RL')/(2π·Ll); leakage from the short-circuit inductance, REFERENCES.md)
     high = (50.0 + 50.0) / (2 * math.pi * TRUE.leakage_inductance_H)
-    assert f["high_frequency_corner_3dB_Hz"]["value"] == pytest.approx(high, rel=0.03)
-    assert f["high_frequency_corner_3dB_Hz"]["within_sweeps"] is True
+    assert f["high_frequency_corner_3dB_Hz"].value == pytest.approx(high, rel=0.03)
+    assert f["high_frequency_corner_3dB_Hz"].detail("within_sweeps") is True
     # first-order high-pass: |H|² = 1/(1 + (fc/f)²) is 1 dB down at fc/sqrt(10^0.1 − 1) [derived]
-    assert f["low_frequency_corner_1dB_Hz"]["value"] == pytest.approx(low / math.sqrt(10**0.1 - 1), rel=0.03)
-    assert f["low_frequency_corner_3dB_Hz"]["stderr"] > 0
+    assert f["low_frequency_corner_1dB_Hz"].value == pytest.approx(low / math.sqrt(10**0.1 - 1), rel=0.03)
+    assert f["low_frequency_corner_3dB_Hz"].stderr > 0
 
 
 def test_return_loss_band_start_against_the_shunt_inductance_form():
@@ -152,11 +152,11 @@ def test_return_loss_band_start_against_the_shunt_inductance_form():
 
 
 def test_fitted_return_loss_band_recovers_the_true_circuit(matched):
-    band = matched.figures["return_loss_band"]
+    band = matched.figures.return_loss_band
     truth = response.band_response(TRUE, 50.0, 450.0, 15.0)
-    assert band["threshold_dB"] == 15.0
-    assert band["start_Hz"] == pytest.approx(truth.return_loss_start_Hz, rel=0.01)
-    assert band["stop_Hz"] == pytest.approx(truth.return_loss_stop_Hz, rel=0.01)
+    assert band.threshold_dB == 15.0
+    assert band.start.value == pytest.approx(truth.return_loss_start_Hz, rel=0.01)
+    assert band.stop.value == pytest.approx(truth.return_loss_stop_Hz, rel=0.01)
 
 
 def test_self_resonance_of_a_winding(sweeps):
@@ -164,20 +164,20 @@ def test_self_resonance_of_a_winding(sweeps):
     params = TRUE.replace(C1_F=10e-12, C2_F=1e-15, C12_F=1e-15)
     f_expected = 1 / (2 * math.pi * math.sqrt(params.L1_H * (10e-12 + 9e-15 + 4e-15)))
     a = analyze(MeasurementSet("srf", simulated_sweeps(params, F_HZ[::2]), N1, N2))
-    assert a.figures["self_resonance_primary_Hz"]["value"] == pytest.approx(f_expected, rel=0.02)
+    assert a.figures["self_resonance_primary_Hz"].value == pytest.approx(f_expected, rel=0.02)
 
 
 def test_turns_ratio_and_nearest_turns(sweeps):
     a = analyze(MeasurementSet("wound 15, stated 16", sweeps, N1, 16, None, MATCHED))
     tr = a.figures["turns_ratio"]
-    assert tr["effective"]["value"] == pytest.approx(3.0, rel=1e-3)
+    assert tr.detail("effective").value == pytest.approx(3.0, rel=1e-3)
     # open-circuit voltage ratio at mid-band ≈ M/L1 = k·n
-    assert tr["open_circuit_voltage_ratio"]["value"] == pytest.approx(TRUE.k * 3.0, rel=1e-3)
-    assert tr["nearest_secondary_turns"] == 15 and tr["nearest_primary_turns"] == 5
-    assert tr["design_ratio"] == pytest.approx(3.0)
+    assert tr.detail("open_circuit_voltage_ratio").value == pytest.approx(TRUE.k * 3.0, rel=1e-3)
+    assert tr.detail("nearest_secondary_turns") == 15 and tr.detail("nearest_primary_turns") == 5
+    assert tr.detail("design_ratio") == pytest.approx(3.0)
     assert any("not the stated 5:16" in w for w in a.warnings)
-    stated = {c["name"]: c for c in a.design_check["checks"]}["turns_ratio_vs_stated_turns"]
-    assert stated["passed"] is False and "5:15" in stated["advice"]
+    stated = {v.name: v for v in a.design_check.verdicts}["turns_ratio_vs_stated_turns"]
+    assert stated.passed is False and "5:15" in stated.advice
     assert a.design_passed is False
 
 
@@ -196,53 +196,53 @@ def test_response_gain_is_the_transducer_gain_of_skrf():
 def test_defaults_without_design_are_noted(sweeps):
     a = analyze(MeasurementSet("no design", sweeps, None, None))
     assert a.design_check is None
-    assert a.figures["inductance_factor_nH_per_turn2"]["value"] is None
-    assert "turn" in a.figures["inductance_factor_nH_per_turn2"]["note"]
-    assert a.figures["effective_permeability"]["value"] is None
-    terms = a.figures["terminations"]
-    assert terms["source_ohm"] == 50.0 and terms["load_ohm"] == pytest.approx(450.0, rel=1e-3)
-    assert "50 Ω" in a.figures["low_frequency_corner_3dB_Hz"]["note"]
-    assert a.figures["low_frequency_corner_3dB_Hz"]["value"] == pytest.approx(
+    assert a.figures["inductance_factor_nH_per_turn2"].value is None
+    assert "turn" in a.figures["inductance_factor_nH_per_turn2"].note
+    assert a.figures["effective_permeability"].value is None
+    terms = a.figures.terminations
+    assert terms.source_ohm == 50.0 and terms.load_ohm == pytest.approx(450.0, rel=1e-3)
+    assert "50 Ω" in a.figures["low_frequency_corner_3dB_Hz"].note
+    assert a.figures["low_frequency_corner_3dB_Hz"].value == pytest.approx(
         _closed_form_low_corner_Hz(TRUE, 50.0, 450.0), rel=0.03)
-    assert a.figures["turns_ratio"]["nearest_secondary_turns"] is None
+    assert a.figures["turns_ratio"].detail("nearest_secondary_turns") is None
 
 
 def test_undetermined_secondary_gives_no_value_and_says_why():
     only_primary = simulated_sweeps(f_Hz=F_HZ[::2], names={"pri_open"})
     a = analyze(MeasurementSet("primary only", only_primary, N1, N2, None, MATCHED))
     f = a.figures
-    assert f["inductance_factor_nH_per_turn2"]["primary"]["value"] == pytest.approx(400.0, rel=0.01)
-    assert f["inductance_factor_nH_per_turn2"]["secondary"]["value"] is None
-    assert "L2_H" in f["inductance_factor_nH_per_turn2"]["secondary"]["note"]
-    assert f["turns_ratio"]["value"] is None and "not determined" in f["turns_ratio"]["note"]
-    json.dumps(f)  # plain Python all the way down
+    assert f["inductance_factor_nH_per_turn2"].detail("primary").value == pytest.approx(400.0, rel=0.01)
+    assert f["inductance_factor_nH_per_turn2"].detail("secondary").value is None
+    assert "L2_H" in f["inductance_factor_nH_per_turn2"].detail("secondary").note
+    assert f["turns_ratio"].value is None and "not determined" in f["turns_ratio"].note
+    json.dumps(f.to_dict())  # plain Python all the way down
 
 
 def test_sample_before_fails_the_ratio_check_and_names_15_turns():
     # invented set made with ngspice (sample_data/README.md): 14 turns wound instead of 15
     a = analyze_manifest(SAMPLES / "coupler-before")
-    checks = {c["name"]: c for c in a.design_check["checks"]}
+    checks = {v.name: v for v in a.design_check.verdicts}
     ratio = checks["turns_ratio_vs_design"]
-    assert ratio["passed"] is False and a.design_passed is False
-    assert ratio["value"] == pytest.approx(2.8, rel=0.01) and ratio["limit"] == pytest.approx(3.0)
-    assert "15 turns" in ratio["advice"]
-    assert "below" in ratio["margin"]
+    assert ratio.passed is False and a.design_passed is False
+    assert ratio.value == pytest.approx(2.8, rel=0.01) and ratio.limit == pytest.approx(3.0)
+    assert "15 turns" in ratio.advice
+    assert "below" in ratio.margin
     truth = json.loads((SAMPLES / "truth.json").read_text())["coupler-before"]
     # A_L = µ0·µ/C1 = 455.90 nH/turn² (sample_data/README.md)
-    assert a.figures["inductance_factor_nH_per_turn2"]["value"] == pytest.approx(455.90, rel=0.01)
-    assert a.figures["inductance_factor_nH_per_turn2"]["primary"]["value"] == pytest.approx(
+    assert a.figures["inductance_factor_nH_per_turn2"].value == pytest.approx(455.90, rel=0.01)
+    assert a.figures["inductance_factor_nH_per_turn2"].detail("primary").value == pytest.approx(
         truth["L1_H"] / 25 * 1e9, rel=0.01)
-    assert a.figures["effective_permeability"]["value"] == pytest.approx(800, rel=0.01)
+    assert a.figures["effective_permeability"].value == pytest.approx(800, rel=0.01)
 
 
 def test_sample_after_meets_the_ratio():
     a = analyze_manifest(SAMPLES / "coupler-after")
-    checks = {c["name"]: c for c in a.design_check["checks"]}
-    assert checks["turns_ratio_vs_design"]["passed"] is True
-    assert checks["turns_ratio_vs_stated_turns"]["passed"] is True
+    checks = {v.name: v for v in a.design_check.verdicts}
+    assert checks["turns_ratio_vs_design"].passed is True
+    assert checks["turns_ratio_vs_stated_turns"].passed is True
     # 4·50/(2π·11.3975 µH) = 2.7929 MHz, below the 3.5 MHz asked for
-    assert checks["low_frequency_limit"]["passed"] is True
-    assert checks["low_frequency_limit"]["value"] == pytest.approx(2.7929e6, rel=0.02)
+    assert checks["low_frequency_limit"].passed is True
+    assert checks["low_frequency_limit"].value == pytest.approx(2.7929e6, rel=0.02)
 
 
 def test_a_crossing_the_ends_do_not_bracket_is_known_to_the_grid_and_never_raises():

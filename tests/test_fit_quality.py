@@ -242,7 +242,7 @@ def test_cli_exits_1_without_advice_when_the_fit_is_poor(tmp_path):
 
 def test_a_good_fit_is_judged_and_the_line_that_could_not_fail_is_gone(good):
     assert good.fit.quality.grade == "good" and good.design_status in ("pass", "fail")
-    assert good.design_check["not_judged_reasons"] == []
+    assert good.design_check.not_judged == ()
     text = _render(good)
     assert "down to the noise" not in text and "residual variance" not in text
     assert "fit quality: good" in text and "the data's own noise" in text
@@ -262,9 +262,9 @@ def test_non_transformer_gives_no_verdict_and_no_turn_advice(tmp_path):
                                 secondary_turns=9)
     analysis = analyze(measurement)
     check = analysis.design_check
-    assert check["passed"] is None and analysis.design_status == "not judged"
-    assert any(r.startswith(NOT_A_TRANSFORMER) for r in check["not_judged_reasons"])
-    assert all(c["advice"] == "" and c["state"] == "not judged" for c in check["checks"])
+    assert check.passed is None and analysis.design_status == "not judged"
+    assert any(r.startswith(NOT_A_TRANSFORMER) for r in check.not_judged)
+    assert all(v.advice == "" and v.state == "not judged" for v in check.verdicts)
     assert not any(word in _render(analysis) for word in ADVICE_WORDS)
     result = CliRunner().invoke(app, ["analyze", str(_write(measurement, tmp_path)), "--no-record"])
     assert result.exit_code == 1 and "NOT JUDGED" in result.stdout
@@ -276,9 +276,9 @@ def test_a_partial_sweep_leaves_the_design_not_judged(good):
     analysis = analyze(dataclasses.replace(good.measurement, sweeps=sweeps))
     assert analysis.fit.quality.grade == "good"
     check = analysis.design_check
-    assert check["passed"] is None and check["status"] == "not judged"
-    assert any(r.startswith("thru:") and "incomplete" in r for r in check["not_judged_reasons"])
-    assert all(c["advice"] == "" for c in check["checks"])
+    assert check.passed is None and check.status == "not judged"
+    assert any(r.startswith("thru:") and "incomplete" in r for r in check.not_judged)
+    assert all(v.advice == "" for v in check.verdicts)
 
 
 # --------------------------------------------------------------------------- standard errors of 0
@@ -301,7 +301,7 @@ def test_a_zero_standard_error_never_prints_as_a_bare_number(good):
     from rfmeas.judge.figures import compute_figures
 
     figures, _check, _w = compute_figures(good.measurement, result)
-    assert figures["turns_ratio"]["stderr"] is None and figures["turns_ratio"]["stderr_note"]
+    assert figures["turns_ratio"].stderr is None and figures["turns_ratio"].stderr_note
     analysis = dataclasses.replace(good, fit=result, figures=figures)
     text = _render(analysis)
     line = next(row for row in text.splitlines() if row.startswith("primary inductance L1"))

@@ -10,6 +10,7 @@ import pytest
 
 from rfmeas.analysis import analyze_manifest
 from rfmeas.errors import InputError
+from rfmeas.judge.figures import Figures
 from rfmeas.model.circuit import input_impedance, reflection, s_matrix
 from rfmeas.model.params import TransformerParams
 from rfmeas.present.plots import style
@@ -115,11 +116,16 @@ def test_response_of_a_near_ideal_1_to_2_transformer(before, closing):
 
 
 def test_response_uses_design_terminations_and_marks_corners(before, closing):
-    figures = {"low_frequency_corner_1dB_Hz": {"value": 1.1e6, "stderr": 1e3},
-               "low_frequency_corner_3dB_Hz": {"value": 0.55e6, "stderr": None},
-               "high_frequency_corner_1dB_Hz": {"value": 40e6, "stderr": None},
-               "high_frequency_corner_3dB_Hz": {"value": None, "stderr": None},
-               "return_loss_band": {"start_Hz": 2e6, "stop_Hz": 25e6, "threshold_dB": 15.0}}
+    corners = {"low_frequency_corner_1dB_Hz": (1.1e6, 1e3), "low_frequency_corner_3dB_Hz": (0.55e6, None),
+               "high_frequency_corner_1dB_Hz": (40e6, None), "high_frequency_corner_3dB_Hz": (None, None)}
+    own = before.figures
+    band = own.return_loss_band
+    figures = Figures(
+        tuple(dataclasses.replace(f, value=corners[f.name][0], stderr=corners[f.name][1])
+              if f.name in corners else f for f in own.figures),
+        dataclasses.replace(band, start=dataclasses.replace(band.start, value=2e6),
+                            stop=dataclasses.replace(band.stop, value=25e6), threshold_dB=15.0),
+        own.terminations)
     analysis = dataclasses.replace(before, figures=figures)
     fig = plot_response(analysis)
     closing(fig)

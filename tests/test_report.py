@@ -14,6 +14,8 @@ from typer.testing import CliRunner
 
 from rfmeas import __version__
 from rfmeas.analysis import analyze_manifest
+from rfmeas.judge.design import DesignCheck, Verdict
+from rfmeas.measurement.sweep import DesignTarget
 from rfmeas.cli import app
 from rfmeas.errors import InputError
 from rfmeas.present.report import render_report, write_report
@@ -40,12 +42,11 @@ def analysis():
 @pytest.fixture(scope="module")
 def judged(analysis):
     """The sample analysis (its real figures) with a hand-made failed design check."""
-    check = {"passed": False, "target": {"source_impedance_ohm": 50, "load_impedance_ohm": 450},
-             "checks": [
-                 {"name": "turns ratio", "passed": False, "value": 2.8, "limit": 3.0, "unit": "",
-                  "margin": -0.067, "advice": "add one secondary turn <now 14>"},
-                 {"name": "reactance at lowest frequency", "passed": True, "value": 250.6, "limit": 200.0,
-                  "unit": "Ω", "margin": 0.25, "advice": ""}]}
+    check = DesignCheck((
+        Verdict("turns_ratio_vs_design", "turns ratio", False, 2.8, 3.0, "", "6.7 % below the target",
+                "add one secondary turn <now 14>"),
+        Verdict("reactance", "reactance at lowest frequency", True, 250.6, 200.0, "Ω", "25 % above the limit",
+                "")), DesignTarget(source_impedance_ohm=50, load_impedance_ohm=450))
     return dataclasses.replace(analysis, design_check=check)
 
 
@@ -79,7 +80,7 @@ def test_report_content(judged, judged_html):
     assert "250.6 Ω" in judged_html and "200 Ω" in judged_html
     from html import escape
 
-    from rfmeas.judge.figures import figure_rows
+    from rfmeas.present.terminal import figure_rows
 
     rows = figure_rows(judged)
     assert len(rows) > 10
@@ -100,8 +101,7 @@ def test_user_text_is_escaped(analysis):
     hostile = "<script>alert('x')</script> & <b>bold</b>"
     evil = dataclasses.replace(analysis, measurement=dataclasses.replace(
         analysis.measurement, name=hostile, notes=hostile), warnings=(hostile,),
-        design_check={"passed": False, "checks": [{"name": hostile, "passed": False, "value": 1, "limit": 2,
-                                                    "unit": "", "margin": None, "advice": hostile}]})
+        design_check=DesignCheck((Verdict("hostile", hostile, False, 1, 2, "", "", hostile),), DesignTarget()))
     html = render_report(evil, plots=[], generated="test")  # no plots: only the text matters here
     assert "<script>" not in html and "<b>bold</b>" not in html
     assert "&lt;script&gt;alert(&#39;x&#39;)&lt;/script&gt; &amp; &lt;b&gt;bold&lt;/b&gt;" in html

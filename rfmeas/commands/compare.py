@@ -60,7 +60,8 @@ def register(app: typer.Typer) -> None:
                 before, store, other_unit=after_result.get("name"), other_id=after_id)
             notes = list(store.notes)
         print_notes(notes)
-        comparison = compare_results(before_result, after_result)
+        # an analysis made here is compared as such; a stored record as the JSON it was kept as
+        comparison = compare_results(before_analysis or before_result, after_analysis or after_result)
         if plot is not None:
             if before_analysis is None or after_analysis is None:
                 raise InputError("--plot needs the sweeps: give manifests or sweep files, not store references")

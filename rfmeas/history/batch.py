@@ -43,11 +43,11 @@ WATCHDOG_PERIOD_S = 0.5  # how often a worker checks that its parent is still th
 POLL_S = 0.1             # how often the parent looks for a Ctrl-C while units run
 
 
-def analyse_manifest(path: str) -> dict:
-    """The default analysis: rfmeas.analysis on one manifest, as the JSON-contract dict."""
+def analyse_manifest(path: str):
+    """The default analysis: rfmeas.analysis on one manifest (an Analysis, summarised in the worker)."""
     from rfmeas.analysis import analyze_manifest
 
-    return analyze_manifest(path).to_dict()
+    return analyze_manifest(path)
 
 
 @dataclass(frozen=True)
@@ -149,8 +149,13 @@ def _entry_value(entry) -> tuple[float | None, float | None] | None:
     return (None if entry is None else float(entry)), stderr
 
 
-def summarise(path: str, result: dict) -> UnitOutcome:
-    """The small per-unit summary a worker sends back."""
+def summarise(path: str, result) -> UnitOutcome:
+    """The small per-unit summary a worker sends back, of an Analysis (its status as its
+    DesignCheck gave it) or of a result dict of the JSON contract (its status read back)."""
+    if isinstance(result, dict):
+        status = design_status(result)
+    else:
+        status, result = result.design_status, result.to_dict()
     values, stderrs = {}, {}
     for section in ("parameters", "figures"):
         for key, entry in (result.get(section) or {}).items():
@@ -159,7 +164,7 @@ def summarise(path: str, result: dict) -> UnitOutcome:
                 continue
             name = key if key not in values else f"{section}.{key}"
             values[name], stderrs[name] = q
-    return UnitOutcome(path=path, name=result.get("name"), status=design_status(result), error=None,
+    return UnitOutcome(path=path, name=result.get("name"), status=status, error=None,
                        values=values, stderrs=stderrs, warnings=tuple(str(w) for w in result.get("warnings") or ()))
 
 
@@ -167,7 +172,7 @@ def _failed(path: str, message: str) -> UnitOutcome:
     return UnitOutcome(path=path, name=None, status="error", error=message, values={}, stderrs={})
 
 
-def _run_one(analyse: Callable[[str], dict], path: str) -> UnitOutcome:
+def _run_one(analyse: Callable[[str], object], path: str) -> UnitOutcome:
     """Analyse one unit; any failure becomes an 'error' outcome carrying its message."""
     try:
         return summarise(path, analyse(path))
@@ -242,7 +247,7 @@ def _stop_workers(pool: ProcessPoolExecutor) -> None:
 
 def run_batch(manifest_paths: Iterable[str | Path], workers: int | None = None,
               progress: Callable[[int, int, UnitOutcome], None] | None = None,
-              analyse: Callable[[str], dict] = analyse_manifest) -> BatchResult:
+              analyse: Callable[[str], object] = analyse_manifest) -> BatchResult:
     """Analyse every manifest over `workers` processes (default: all cores).
 
     `analyse` must be picklable (a module-level function); workers=1 runs in

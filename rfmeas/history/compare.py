@@ -1,8 +1,13 @@
-"""Compare two analysis results (plain dicts of the JSON contract): what changed, and was it real.
+"""Compare two analysis results (an Analysis, or a stored dict of the JSON contract): what changed,
+and was it real.
 
 A change is significant when it exceeds three combined standard errors:
 |after − before| > 3·sqrt(σ_before² + σ_after²). Where either side has no
 standard error the change is reported but not judged (``significant: null``).
+
+Whether a side met its design is never decided here: it is read from that side's
+design check (DesignCheck.passed and its verdicts; for a stored record, the JSON
+they wrote, through rfmeas.judge.design.design_status).
 """
 
 from __future__ import annotations
@@ -100,11 +105,37 @@ def _section(result: dict, name: str) -> dict:
     return section if isinstance(section, dict) else {}
 
 
+@dataclass(frozen=True)
+class _Side:
+    """One side of a comparison as the comparison reads it: its JSON sections for the quantities,
+    and its design outcome as its own design check gave it."""
+
+    result: dict
+    status: str                                              # pass, fail, not judged, no design
+    verdicts: dict[str, tuple[str, float | None]]           # check name -> (state, limit)
+    target: dict
+
+
+def _side(side) -> _Side:
+    """An Analysis (read through its typed DesignCheck) or a stored JSON result."""
+    from rfmeas.judge.design import design_status, status_word
+
+    if isinstance(side, dict):
+        check = side.get("design_check")
+        check = check if isinstance(check, dict) else {}
+        verdicts = {str(c.get("name")): (c.get("state") or status_word(c.get("passed")), _number(c.get("limit")))
+                    for c in check.get("checks") or () if isinstance(c, dict)}
+        target = check.get("target")
+        return _Side(side, design_status(check), verdicts, target if isinstance(target, dict) else {})
+    check = side.design_check
+    if check is None:
+        return _Side(side.to_dict(), side.design_status, {}, {})
+    return _Side(side.to_dict(), side.design_status, {v.name: (v.state, v.limit) for v in check.verdicts},
+                 check.target.to_dict())
+
+
 def _ratio_error(result: dict, design_ratio: float | None) -> tuple[float | None, float | None] | None:
-    """Turns-ratio error in percent: from design_check, else from the fitted ratio and the design."""
-    stated = _quantity(_section(result, "design_check").get("ratio_error_percent"))
-    if stated is not None:
-        return stated
+    """Turns-ratio error in percent, from the fitted ratio and the design's ratio."""
     fitted = _quantity(_section(result, "parameters").get("effective_turns_ratio"))
     if fitted is None or fitted[0] is None or not design_ratio:
         return None
@@ -130,26 +161,24 @@ def format_quantity(key: str, value: float | None, stderr: float | None = None) 
     return f"{value:.4g}" if stderr is None else f"{value:.4g} ± {stderr:.2g}"
 
 
-def _design_targets(design: dict | None, after: dict) -> dict:
-    """The design's band and turns ratio: given, or the `target` of the after result's design check."""
-    if design is None:
-        check = after.get("design_check") or {}
-        design = check.get("target", check) if isinstance(check, dict) else None
-        if isinstance(design, dict) and "turns_ratio" not in design:
-            design = dict(design, turns_ratio=design.get("target_turns_ratio"))
-    if not isinstance(design, dict):
-        design = {}
-    return {key: _target(design.get(key)) for key in ("lowest_frequency_Hz", "highest_frequency_Hz", "turns_ratio")}
+def _design_ratio(design: dict | None, after: _Side) -> float | None:
+    """The design's turns ratio (secondary : primary): given, or the target of the after side's check."""
+    if isinstance(design, dict):
+        return _target(design.get("turns_ratio"))
+    return _target(after.target.get("target_turns_ratio"))
 
 
-def compare_results(before: dict, after: dict, design: dict | None = None) -> Comparison:
-    """Compare two results of the JSON contract; `design` holds the targets.
+def compare_results(before, after, design: dict | None = None) -> Comparison:
+    """Compare two results: each an Analysis or a stored result of the JSON contract.
 
-    `design` may give ``lowest_frequency_Hz``, ``highest_frequency_Hz`` and
-    ``turns_ratio`` (secondary : primary); when it is None they are looked for
-    in the after result's design_check. Missing pieces are skipped, not guessed.
+    `design` may give ``turns_ratio`` (secondary : primary) for the turns-ratio
+    error; when it is None the after side's design target gives it. Whether each
+    side met its design comes from its own design check. Missing pieces are
+    skipped, not guessed.
     """
-    targets = _design_targets(design, after)
+    before_side, after_side = _side(before), _side(after)
+    before, after = before_side.result, after_side.result
+    design_ratio = _design_ratio(design, after_side)
     changes: dict[str, Change] = {}
     for group, section in (("parameter", "parameters"), ("figure", "figures")):
         b_section, a_section = _section(before, section), _section(after, section)
@@ -161,21 +190,22 @@ def compare_results(before: dict, after: dict, design: dict | None = None) -> Co
                 continue
             name = key if key not in changes else f"{section}.{key}"
             changes[name] = judge(b[0], a[0], b[1], a[1], group)
-    b_err, a_err = _ratio_error(before, targets["turns_ratio"]), _ratio_error(after, targets["turns_ratio"])
+    b_err, a_err = _ratio_error(before, design_ratio), _ratio_error(after, design_ratio)
     if b_err is not None and a_err is not None and "ratio_error_percent" not in changes:
         changes["ratio_error_percent"] = judge(b_err[0], a_err[0], b_err[1], a_err[1], "design_check")
     return Comparison(before.get("name"), after.get("name"), changes,
-                      tuple(_verdict(before, after, changes, targets)))
+                      tuple(_verdict(before_side, after_side, changes)))
 
 
 # --- the verdict in plain words -------------------------------------------------------------
 
 _ASPECTS = (
-    # key, label, "better" direction, design target key, how the target binds
-    ("low_frequency_limit_Hz", "Low-frequency limit", "lower", "lowest_frequency_Hz", "at most"),
-    ("high_frequency_corner_3dB_Hz", "Upper corner frequency", "higher", "highest_frequency_Hz", "at least"),
+    # key, label, "better" direction, the design check that judges it, how its limit binds
+    ("low_frequency_limit_Hz", "Low-frequency limit", "lower", "low_frequency_limit", "at most"),
+    ("high_frequency_corner_3dB_Hz", "Upper corner frequency", "higher", "high_frequency_corner", "at least"),
     ("ratio_error_percent", "Turns-ratio error", "smaller magnitude", None, None),
 )
+_MET = {"pass": "met", "fail": "missed"}
 
 
 def _improved(before: float, after: float, better: str) -> bool:
@@ -202,28 +232,47 @@ def _aspect_sentence(key, label, better, c: Change) -> str:
     return f"{label} {word} ({shown})."
 
 
-def _target_sentence(key, label, bound, target, c: Change) -> str:
-    def meets(v):
-        return v <= target if bound == "at most" else v >= target
+def _target_sentence(key, label, bound, check: str, before: _Side, after: _Side) -> str | None:
+    """What each side's own design check said of this aspect (None when neither judged it)."""
+    was, before_limit = before.verdicts.get(check, (None, None))
+    now, after_limit = after.verdicts.get(check, (None, None))
+    limit = after_limit if after_limit is not None else before_limit
+    if limit is None:
+        return None
+    if was in _MET and now in _MET:
+        state = {("met", "met"): "met before and after", ("missed", "met"): "now met (missed before)",
+                 ("met", "missed"): "now missed (met before)",
+                 ("missed", "missed"): "still missed"}[(_MET[was], _MET[now])]
+    else:
+        state = f"{_MET.get(was, was or 'not checked')} before, {_MET.get(now, now or 'not checked')} after"
+    return f"{label}: the design asks for {bound} {format_quantity(key, limit)}: {state}."
 
-    was, now = meets(c.before), meets(c.after)
-    state = {(True, True): "met before and after", (False, True): "now met (missed before)",
-             (True, False): "now missed (met before)", (False, False): "still missed"}[(was, now)]
-    return f"{label}: the design asks for {bound} {format_quantity(key, target)}: {state}."
+
+def _status_sentence(before: _Side, after: _Side) -> str | None:
+    """The design checks' outcomes, as each side's own check gave them."""
+    if before.status == "no design" and after.status == "no design":
+        return None
+    if before.status == after.status:
+        return f"Design check: {before.status} before and after."
+    return f"Design check: {before.status} before, {after.status} after."
 
 
-def _verdict(before: dict, after: dict, changes: dict[str, Change], targets: dict) -> list[str]:
+def _verdict(before_side: _Side, after_side: _Side, changes: dict[str, Change]) -> list[str]:
+    before, after = before_side.result, after_side.result
     sentences = []
     if before.get("name") != after.get("name"):
         sentences.append(f"These are results of different units ('{before.get('name')}' and '{after.get('name')}').")
-    for key, label, better, target_key, bound in _ASPECTS:
+    status = _status_sentence(before_side, after_side)
+    if status:
+        sentences.append(status)
+    for key, label, better, check, bound in _ASPECTS:
         c = changes.get(key)
         if c is None or c.before is None or c.after is None:
             continue
         sentences.append(_aspect_sentence(key, label, better, c))
-        target = targets.get(target_key) if target_key else None
+        target = _target_sentence(key, label, bound, check, before_side, after_side) if check else None
         if target is not None:
-            sentences.append(_target_sentence(key, label, bound, target, c))
+            sentences.append(target)
     params = [(k, c) for k, c in changes.items() if c.group == "parameter"]
     from rfmeas.fit.result import LABELS
 

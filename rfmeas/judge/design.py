@@ -50,10 +50,22 @@ class Verdict:
 
     @property
     def state(self) -> str:
-        return NOT_JUDGED if self.passed is None else ("pass" if self.passed else "fail")
+        return status_word(self.passed)
 
     def to_dict(self) -> dict:
         return dict(self.__dict__, state=self.state)
+
+
+def status_word(passed: bool | None) -> str:
+    """'pass', 'fail' or 'not judged' (None) for an outcome."""
+    return NOT_JUDGED if passed is None else ("pass" if passed else "fail")
+
+
+def overall(passes, reasons=()) -> bool | None:
+    """The one rule for a whole check: None when it cannot be judged, else whether every verdict passes."""
+    if reasons:
+        return None
+    return all(p for p in passes)
 
 
 def not_judged(verdict: Verdict, reason: str) -> Verdict:
@@ -70,36 +82,48 @@ class DesignCheck:
     @property
     def passed(self) -> bool | None:
         """The one place pass or fail is decided: None when the check cannot be judged."""
-        if self.not_judged:
-            return None
-        return all(v.passed for v in self.verdicts)
+        return overall((v.passed for v in self.verdicts), self.not_judged)
 
     @property
     def status(self) -> str:
-        return NOT_JUDGED if self.passed is None else ("pass" if self.passed else "fail")
+        return status_word(self.passed)
+
+    @property
+    def failed(self) -> tuple[Verdict, ...]:
+        """The verdicts that failed."""
+        return tuple(v for v in self.verdicts if v.passed is False)
+
+    def verdict(self, name: str) -> Verdict | None:
+        """The verdict of the check `name` (e.g. 'low_frequency_limit'); None when it was not made."""
+        return next((v for v in self.verdicts if v.name == name), None)
 
     def to_dict(self) -> dict:
         return {"passed": self.passed, "status": self.status, "not_judged_reasons": list(self.not_judged),
                 "checks": [v.to_dict() for v in self.verdicts], "target": self.target.to_dict()}
 
 
-def design_status(check: dict | None) -> str:
-    """'pass', 'fail', 'not judged' or 'no design' from a JSON design_check (current or older form).
+def design_status(check: DesignCheck | dict | None) -> str:
+    """'pass', 'fail', 'not judged' or 'no design' of a check: a DesignCheck, or a stored JSON
+    design_check (current or older form) read back without deciding anew.
 
-    Older results carry ``passed`` as a bool, or per-check dicts with a bool ``passed``.
+    Current JSON carries ``status`` (written by DesignCheck.status); older results carry
+    ``passed`` as a bool or null, or only per-check dicts with a bool ``passed``, which
+    `overall` combines as DesignCheck.passed would.
     """
+    if isinstance(check, DesignCheck):
+        return check.status
     if not isinstance(check, dict) or not check:
         return "no design"
     if check.get("status") in ("pass", "fail", NOT_JUDGED):
         return check["status"]
     if isinstance(check.get("passed"), bool):
-        return "pass" if check["passed"] else "fail"
+        return status_word(check["passed"])
     if "passed" in check and check["passed"] is None and check.get("checks") is not None:
         return NOT_JUDGED
     verdicts = [v.get("passed") for v in check.values() if isinstance(v, dict) and isinstance(v.get("passed"), bool)]
     if not verdicts:
         return "no design"
-    return "pass" if all(verdicts) else "fail"
+    return status_word(overall(verdicts))
 
 
 def design_fails(status: str) -> bool:

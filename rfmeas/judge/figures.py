@@ -1,5 +1,10 @@
 """Figures of merit of a fitted transformer, with propagated standard errors, and the design check.
 
+Results are typed: each figure is a frozen `Figure` (value, standard error, unit,
+label, and the note saying why a value or its error is missing), gathered in
+`Figures` (named access, iteration in reading order) with the `ReturnLossBand` and
+the `Terminations`; `to_dict()` gives the JSON contract's `figures` section.
+
 Every figure is computed from the fitted circuit values by one function of the
 parameter vector, so its standard error follows by first-order propagation
 with the fit's covariance (rfmeas.fit.propagation, the routine rfmeas.fit.result
@@ -19,18 +24,17 @@ from __future__ import annotations
 
 import logging
 import math
-from dataclasses import dataclass
+from dataclasses import dataclass, field, replace
 
 import numpy as np
 
-from rfmeas.judge.design import DesignFacts, check_design, is_design
+from rfmeas.judge.design import DesignCheck, DesignFacts, check_design, is_design
 from rfmeas.magnetics import effective_permeability, geometry_from_table, nH_per_turn2_to
 from rfmeas.model.params import TransformerParams
 from rfmeas.fit.result import checked_stderr
 from rfmeas.model.response import band_response, minimum_return_loss_dB, open_circuit_voltage_ratio, \
     reactance_limit_Hz, return_loss_dB, self_resonance_Hz
 from rfmeas.units import format_engineering as eng
-from rfmeas.units import format_with_error
 
 log = logging.getLogger(__name__)
 
@@ -152,8 +156,158 @@ def propagate(outcome, func) -> tuple[dict[str, float], dict[str, float | None]]
     return {k: p.value for k, p in done.items()}, {k: p.stderr for k, p in done.items()}
 
 
+class UnknownFigureError(KeyError):
+    """A figure name that no figure carries (a programming error, not bad input)."""
+
+    def __str__(self) -> str:
+        return str(self.args[0])
+
+
+@dataclass(frozen=True)
+class Figure:
+    """One figure of merit: value and standard error in `unit`, or why either is missing.
+
+    `name` is its JSON key, `label` what people read. `note` says why there is no
+    value (or no standard error) and any caveat; `stderr_note` why a standard error
+    was dropped (rfmeas.fit.result.checked_stderr). `details` are the further JSON
+    fields in order; a Figure among them (a winding's own figure) is a sub-figure.
+    """
+
+    name: str
+    label: str
+    unit: str
+    value: float | None
+    stderr: float | None = None
+    note: str = ""
+    stderr_note: str = ""
+    details: tuple[tuple[str, object], ...] = ()
+    note_at: int | None = field(default=None, repr=False)  # a late note's place among the details in JSON
+
+    def detail(self, key: str, default=None):
+        """One of the further fields (a sub-figure such as 'primary', or a number such as 'turns')."""
+        return next((v for k, v in self.details if k == key), default)
+
+    def with_note(self, note: str) -> "Figure":
+        """The figure with `note` added to its own (joined by '; ')."""
+        if not note:
+            return self
+        return replace(self, note="; ".join(n for n in (self.note, note) if n),
+                       note_at=self.note_at if self.note else len(self.details))
+
+    def with_details(self, **details) -> "Figure":
+        """The figure with further fields (an existing field keeps its place and takes the new value)."""
+        own = dict(self.details)
+        own.update(details)
+        return replace(self, details=tuple(own.items()))
+
+    def to_dict(self) -> dict:
+        d: dict = {"value": self.value, "stderr": self.stderr}
+        if self.note and self.note_at is None:
+            d["note"] = self.note
+        if self.stderr_note:
+            d["stderr_note"] = self.stderr_note
+        for i, (key, v) in enumerate(self.details):
+            if self.note and i == self.note_at:
+                d["note"] = self.note
+            d[key] = v.to_dict() if isinstance(v, Figure) else v
+        if self.note and self.note_at is not None and self.note_at >= len(self.details):
+            d["note"] = self.note
+        return d
+
+
+@dataclass(frozen=True)
+class ReturnLossBand:
+    """Where the return loss at the primary stays at or above `threshold_dB` (edges as Figures)."""
+
+    start: Figure
+    stop: Figure
+    threshold_dB: float
+    best_return_loss_dB: float
+    source_ohm: float
+    load_ohm: float
+    note: str = ""
+
+    def to_dict(self) -> dict:
+        d = {"start_Hz": self.start.value, "stop_Hz": self.stop.value,
+             "start_stderr_Hz": self.start.stderr, "stop_stderr_Hz": self.stop.stderr,
+             "threshold_dB": self.threshold_dB, "best_return_loss_dB": self.best_return_loss_dB,
+             "source_ohm": self.source_ohm, "load_ohm": self.load_ohm}
+        if self.note:
+            d["note"] = self.note
+        return d
+
+
+# JSON key -> (label, unit), in the order people read them (terminal table, report)
+FIGURE_LABELS = {
+    "inductance_factor_nH_per_turn2": ("A_L (nH/turn²)", "nH/turn²"),
+    "effective_permeability": ("effective permeability µe", ""),
+    "low_frequency_limit_Hz": ("reactance-rule limit", "Hz"),
+    "low_frequency_corner_3dB_Hz": ("lower corner −3 dB", "Hz"),
+    "low_frequency_corner_1dB_Hz": ("lower corner −1 dB", "Hz"),
+    "high_frequency_corner_1dB_Hz": ("upper corner −1 dB", "Hz"),
+    "high_frequency_corner_3dB_Hz": ("upper corner −3 dB", "Hz"),
+    "midband_insertion_loss_dB": ("mid-band insertion loss (dB)", "dB"),
+    "self_resonance_primary_Hz": ("self-resonance, primary (secondary open)", "Hz"),
+    "self_resonance_secondary_Hz": ("self-resonance, secondary (primary open)", "Hz"),
+    "turns_ratio": ("turns ratio √(L2/L1)", ""),
+}
+# the JSON contract's order of the figures section (docs/DESIGN.md); a figure added later follows them
+_JSON_ORDER = ("inductance_factor_nH_per_turn2", "effective_permeability", "low_frequency_limit_Hz",
+               "low_frequency_corner_1dB_Hz", "low_frequency_corner_3dB_Hz", "high_frequency_corner_1dB_Hz",
+               "high_frequency_corner_3dB_Hz", "midband_insertion_loss_dB", "return_loss_band",
+               "self_resonance_primary_Hz", "self_resonance_secondary_Hz", "turns_ratio", "terminations")
+
+
+def _json_place(name: str) -> int:
+    return _JSON_ORDER.index(name) if name in _JSON_ORDER else len(_JSON_ORDER)
+
+
+@dataclass(frozen=True)
+class Figures:
+    """Every figure of one analysis: named access (``figures["turns_ratio"]``), iteration in the
+    order people read them, the return-loss band and the terminations the figures assume."""
+
+    figures: tuple[Figure, ...]
+    return_loss_band: ReturnLossBand
+    terminations: Terminations
+
+    def __post_init__(self):
+        names = [f.name for f in self.figures]
+        unknown = [n for n in names if n not in FIGURE_LABELS]
+        if unknown or len(set(names)) != len(names):
+            raise ValueError(f"figures must be distinct known figures, not {names}")
+
+    def __getitem__(self, name: str) -> Figure:
+        for fig in self.figures:
+            if fig.name == name:
+                return fig
+        raise UnknownFigureError(f"no figure named {name!r}; the figures are {', '.join(self.names)}"
+                                 + (" (the return-loss band and the terminations are attributes)"
+                                    if name in ("return_loss_band", "terminations") else ""))
+
+    def __contains__(self, name) -> bool:
+        return any(f.name == name for f in self.figures)
+
+    def __iter__(self):
+        order = list(FIGURE_LABELS)
+        return iter(sorted(self.figures, key=lambda f: order.index(f.name)))
+
+    def __len__(self) -> int:
+        return len(self.figures)
+
+    @property
+    def names(self) -> list[str]:
+        return [f.name for f in self]
+
+    def to_dict(self) -> dict:
+        parts = {f.name: f.to_dict() for f in self.figures}
+        parts["return_loss_band"] = self.return_loss_band.to_dict()
+        parts["terminations"] = self.terminations.to_dict()
+        return {key: parts[key] for key in sorted(parts, key=_json_place)}
+
+
 class _Builder:
-    """Turns scalars into figure objects, applying the rules about undetermined parameters."""
+    """Turns scalars into Figures, applying the rules about undetermined parameters."""
 
     def __init__(self, values, stderr, held: dict):
         self.values, self.stderr, self.held = values, stderr, held
@@ -168,25 +322,35 @@ class _Builder:
         reasons = sorted({self.held[n][1] for n in names})
         return f"needs {', '.join(names)}, not determined ({'; '.join(reasons)})"
 
-    def obj(self, key, scale: float = 1.0, **extra) -> dict:
+    def obj(self, key, name: str, label: str = "", unit: str = "", scale: float = 1.0, **extra) -> Figure:
+        """The Figure of scalar `key` as `name`; `extra` become its further fields (a 'note' there
+        replaces the figure's own)."""
+        if name in FIGURE_LABELS:
+            label, unit = FIGURE_LABELS[name]
         value = self.values.get(key, math.nan)
         err = self.stderr.get(key)
         no_value, no_err = self.missing(key)
-        d = {"value": None, "stderr": None}
+        note, stderr_note, shown, shown_err = "", "", None, None
         if no_value or not math.isfinite(value):
             if no_value:
-                d["note"] = self.reason(no_value)
+                note = self.reason(no_value)
         else:
-            d["value"] = value * scale
-            d["stderr"] = None if (no_err or err is None) else abs(err * scale)
+            shown = value * scale
+            shown_err = None if (no_err or err is None) else abs(err * scale)
             if no_err:
-                d["note"] = f"no standard error: {self.reason(no_err)}"
+                note = f"no standard error: {self.reason(no_err)}"
             else:  # never a bare confident number: 0, NaN or no standard error is said so
-                d["stderr"], why = checked_stderr(d["value"], d["stderr"])
-                if why:
-                    d["stderr_note"] = why
-        d.update(extra)
-        return d
+                shown_err, stderr_note = checked_stderr(shown, shown_err)
+                stderr_note = stderr_note or ""
+        late = "note" in extra and not note  # a note given here follows the further fields
+        note = extra.pop("note", note)
+        return Figure(name, label, unit, shown, shown_err, note, stderr_note, tuple(extra.items()),
+                      len(extra) if late else None)
+
+
+def _missing(name: str, note: str) -> Figure:
+    label, unit = FIGURE_LABELS[name]
+    return Figure(name, label, unit, None, None, note)
 
 
 def _measured_range(measurement) -> tuple[float, float]:
@@ -194,14 +358,14 @@ def _measured_range(measurement) -> tuple[float, float]:
     return (min(float(f[0]) for f in fs), max(float(f[-1]) for f in fs)) if fs else (math.nan, math.nan)
 
 
-def _mark_extrapolated(fig: dict, span: tuple[float, float]) -> dict:
-    v = fig.get("value")
+def _mark_extrapolated(fig: Figure, span: tuple[float, float]) -> Figure:
+    v = fig.value
     if v is not None and math.isfinite(span[0]):
         inside = span[0] <= v <= span[1]
-        fig["within_sweeps"] = inside
+        fig = fig.with_details(within_sweeps=inside)
         if not inside:
-            fig["note"] = (fig.get("note", "") + "; " if fig.get("note") else "") + \
-                f"outside the swept {eng(span[0], 'Hz')}–{eng(span[1], 'Hz')}: extrapolated from the model"
+            fig = fig.with_note(f"outside the swept {eng(span[0], 'Hz')}–{eng(span[1], 'Hz')}: "
+                                "extrapolated from the model")
     return fig
 
 
@@ -214,8 +378,9 @@ def _combined_key(prefix: str, primary_known: bool, secondary_known: bool, held:
     return f"{prefix}_secondary" if secondary_known else f"{prefix}_primary"
 
 
-def compute_figures(measurement, result, cannot_judge: tuple[str, ...] = ()) -> tuple[dict, dict | None, list[str]]:
-    """(figures, design_check, warnings) for a fitted measurement set; see docs/DESIGN.md 'JSON contract'.
+def compute_figures(measurement, result, cannot_judge: tuple[str, ...] = ()) \
+        -> tuple[Figures, DesignCheck | None, list[str]]:
+    """(figures, design check, warnings) for a fitted measurement set; see docs/DESIGN.md 'JSON contract'.
 
     With reasons in `cannot_judge` (rfmeas.fit.checks.review_fit) the design check is not judged.
     """
@@ -238,259 +403,119 @@ def compute_figures(measurement, result, cannot_judge: tuple[str, ...] = ()) -> 
     values, stderr = propagate(outcome, scalars)
     b = _Builder(values, stderr, dict(outcome.held))
     span = _measured_range(measurement)
-    figures: dict = {}
-    terms_note = {"note": terms.note} if terms.note else {}
+    figures: list[Figure] = []
 
     # inductance factor, both windings
+    name = "inductance_factor_nH_per_turn2"
     if n1 or n2:
-        pri = b.obj("al_primary", turns=n1, inductance_H=outcome.params.L1_H) if n1 else None
-        sec = b.obj("al_secondary", turns=n2, inductance_H=outcome.params.L2_H) if n2 else None
-        key = _combined_key("al", bool(n1), bool(n2), outcome.held)
-        al = b.obj(key, primary=pri, secondary=sec)
+        pri = b.obj("al_primary", "primary", "from the primary", "nH/turn²", turns=n1,
+                    inductance_H=outcome.params.L1_H) if n1 else None
+        sec = b.obj("al_secondary", "secondary", "from the secondary", "nH/turn²", turns=n2,
+                    inductance_H=outcome.params.L2_H) if n2 else None
+        al = b.obj(_combined_key("al", bool(n1), bool(n2), outcome.held), name, primary=pri, secondary=sec)
         agreement = None
-        if pri and sec and pri["value"] and sec["value"]:
-            agreement = 100.0 * (sec["value"] / pri["value"] - 1.0)
-        al["agreement_percent"] = agreement
+        if pri and sec and pri.value and sec.value:
+            agreement = 100.0 * (sec.value / pri.value - 1.0)
         tol = getattr(design, "ratio_tolerance_percent", 2.0) if design else 2.0
         # A_L goes as the square of the ratio error, hence twice the ratio tolerance
-        al["agrees"] = None if agreement is None else abs(agreement) <= 2 * tol
-        if al["agrees"] is False:
+        agrees = None if agreement is None else abs(agreement) <= 2 * tol
+        if agrees is False:
             warnings.append(
-                f"A_L from the primary ({pri['value']:.4g} nH) and the secondary ({sec['value']:.4g} nH) "
+                f"A_L from the primary ({pri.value:.4g} nH) and the secondary ({sec.value:.4g} nH) "
                 f"differ by {agreement:+.2g} %: the stated turns may be wrong or a winding does not sit "
                 "fully on the core")
-        for unit, name in (("uH/100", "uH_per_100_turns"), ("mH/1000", "mH_per_1000_turns")):
+        scaled = {}
+        for unit, key, label in (("uH/100", "uH_per_100_turns", "in µH per 100 turns"),
+                                 ("mH/1000", "mH_per_1000_turns", "in mH per 1000 turns")):
             conv = float(nH_per_turn2_to(1.0, unit))
-            al[name] = {"value": None if al["value"] is None else al["value"] * conv,
-                        "stderr": None if al["stderr"] is None else al["stderr"] * conv}
-        figures["inductance_factor_nH_per_turn2"] = al
+            scaled[key] = Figure(key, label, unit, None if al.value is None else al.value * conv,
+                                 None if al.stderr is None else al.stderr * conv)
+        figures.append(al.with_details(agreement_percent=agreement, agrees=agrees, **scaled))
     else:
-        figures["inductance_factor_nH_per_turn2"] = {"value": None, "stderr": None,
-                                                     "note": "needs the turn counts ([transformer] turns)"}
+        figures.append(_missing(name, "needs the turn counts ([transformer] turns)"))
 
     # effective permeability
+    name = "effective_permeability"
     if geometry is not None and (n1 or n2):
         key = _combined_key("mu", bool(n1), bool(n2), outcome.held)
-        figures["effective_permeability"] = b.obj(
-            key, primary=b.obj("mu_primary") if n1 else None, secondary=b.obj("mu_secondary") if n2 else None,
+        figures.append(b.obj(
+            key, name, primary=b.obj("mu_primary", "primary", "from the primary") if n1 else None,
+            secondary=b.obj("mu_secondary", "secondary", "from the secondary") if n2 else None,
             core={"shape": geometry.shape, "description": geometry.description,
                   "effective_area_mm2": geometry.effective_area_m2 * 1e6,
                   "effective_length_mm": geometry.effective_length_m * 1e3},
-            note="low-frequency value, µe = L·le/(µ0·N²·Ae)")
+            note="low-frequency value, µe = L·le/(µ0·N²·Ae)"))
     else:
-        figures["effective_permeability"] = {
-            "value": None, "stderr": None,
-            "note": "needs the core geometry ([core]) and turn counts" if geometry is None else "needs turn counts"}
+        figures.append(_missing(name, "needs the core geometry ([core]) and turn counts" if geometry is None
+                                else "needs turn counts"))
 
     # reactance rule
-    lf_pri = b.obj("lf_primary", impedance_ohm=terms.source_ohm)
-    lf_sec = b.obj("lf_secondary", impedance_ohm=terms.load_ohm)
+    lf_pri = b.obj("lf_primary", "primary", "from the primary", "Hz", impedance_ohm=terms.source_ohm)
+    lf_sec = b.obj("lf_secondary", "secondary", "from the secondary", "Hz", impedance_ohm=terms.load_ohm)
     key = _combined_key("lf", True, True, outcome.held)
     if key == "lf_mean":
         key = "lf_max"
         set_by = "primary" if values["lf_primary"] >= values["lf_secondary"] else "secondary"
     else:
         set_by = key.removeprefix("lf_")
-    lf = b.obj(key, set_by=set_by, primary=lf_pri, secondary=lf_sec,
+    lf = b.obj(key, "low_frequency_limit_Hz", set_by=set_by, primary=lf_pri, secondary=lf_sec,
                reactance_factor=terms.reactance_factor)
     if key != "lf_max":
-        lf["note"] = f"from the {set_by} alone: the other winding's inductance is not determined"
-    if terms.note:
-        lf["note"] = (lf["note"] + "; " if lf.get("note") else "") + terms.note
-    figures["low_frequency_limit_Hz"] = lf
+        alone = f"from the {set_by} alone: the other winding's inductance is not determined"
+        lf = replace(lf, note=alone) if lf.note else lf.with_note(alone)
+    figures.append(lf.with_note(terms.note))
 
     # band from the fitted model
     for key, name in (("low_1dB", "low_frequency_corner_1dB_Hz"), ("low_3dB", "low_frequency_corner_3dB_Hz"),
                       ("high_1dB", "high_frequency_corner_1dB_Hz"), ("high_3dB", "high_frequency_corner_3dB_Hz")):
-        fig = b.obj(key, source_ohm=terms.source_ohm, load_ohm=terms.load_ohm)
-        if fig["value"] is None and "note" not in fig:
-            fig["note"] = "beyond the evaluated range"
-        if terms.note:
-            fig["note"] = (fig.get("note", "") + "; " if fig.get("note") else "") + terms.note
-        figures[name] = _mark_extrapolated(fig, span)
-    figures["midband_insertion_loss_dB"] = b.obj("midband_loss", frequency_Hz=values["midband_Hz"],
-                                                 **terms_note)
-    start, stop = b.obj("rl_start"), b.obj("rl_stop")
-    rl_band = {"start_Hz": start["value"], "stop_Hz": stop["value"],
-               "start_stderr_Hz": start["stderr"], "stop_stderr_Hz": stop["stderr"],
-               "threshold_dB": terms.return_loss_dB, "best_return_loss_dB": values["best_rl"],
-               "source_ohm": terms.source_ohm, "load_ohm": terms.load_ohm}
-    if "note" in start or "note" in stop:
-        rl_band["note"] = start.get("note") or stop.get("note")
-    elif start["value"] is None and stop["value"] is None and values["best_rl"] < terms.return_loss_dB:
-        rl_band["note"] = (f"the return loss never reaches {terms.return_loss_dB:g} dB "
-                           f"(best {values['best_rl']:.3g} dB)")
-    figures["return_loss_band"] = rl_band
+        fig = b.obj(key, name, source_ohm=terms.source_ohm, load_ohm=terms.load_ohm)
+        if fig.value is None and not fig.note:
+            fig = fig.with_note("beyond the evaluated range")
+        figures.append(_mark_extrapolated(fig.with_note(terms.note), span))
+    figures.append(b.obj("midband_loss", "midband_insertion_loss_dB", frequency_Hz=values["midband_Hz"],
+                         **({"note": terms.note} if terms.note else {})))
+    start = b.obj("rl_start", "start", "return loss band start", "Hz")
+    stop = b.obj("rl_stop", "stop", "return loss band stop", "Hz")
+    rl_note = start.note or stop.note
+    if not rl_note and start.value is None and stop.value is None and values["best_rl"] < terms.return_loss_dB:
+        rl_note = (f"the return loss never reaches {terms.return_loss_dB:g} dB "
+                   f"(best {values['best_rl']:.3g} dB)")
+    rl_band = ReturnLossBand(start, stop, terms.return_loss_dB, values["best_rl"], terms.source_ohm,
+                             terms.load_ohm, rl_note)
     for winding in ("primary", "secondary"):
-        fig = b.obj(f"srf_{winding}")
-        if fig["value"] is None and "note" not in fig:
-            fig["note"] = "no resonance found"
-        figures[f"self_resonance_{winding}_Hz"] = _mark_extrapolated(fig, span)
+        fig = b.obj(f"srf_{winding}", f"self_resonance_{winding}_Hz")
+        if fig.value is None and not fig.note:
+            fig = fig.with_note("no resonance found")
+        figures.append(_mark_extrapolated(fig, span))
 
     # turns ratio
-    ratio = b.obj("ratio")
+    ratio = b.obj("ratio", "turns_ratio")
     n = values["ratio"]
-    ratio.update(
-        effective={"value": ratio["value"], "stderr": ratio["stderr"]},
-        open_circuit_voltage_ratio=b.obj("ocv_ratio", frequency_Hz=values["midband_Hz"]),
+    nearest_secondary = max(1, round(n1 * n)) if (n1 and ratio.value) else None
+    nearest_primary = max(1, round(n2 / n)) if (n2 and ratio.value) else None
+    ratio = ratio.with_details(
+        effective=Figure("effective", "effective turns ratio", "", ratio.value, ratio.stderr),
+        open_circuit_voltage_ratio=b.obj("ocv_ratio", "open_circuit_voltage_ratio", "open-circuit voltage ratio",
+                                         frequency_Hz=values["midband_Hz"]),
         stated_ratio=(n2 / n1) if (n1 and n2) else None,
-        nearest_secondary_turns=max(1, round(n1 * n)) if (n1 and ratio["value"]) else None,
-        nearest_primary_turns=max(1, round(n2 / n)) if (n2 and ratio["value"]) else None,
+        nearest_secondary_turns=nearest_secondary, nearest_primary_turns=nearest_primary,
         design_ratio=design.target_turns_ratio if design else None)
-    if n1 and n2 and ratio["value"] and (ratio["nearest_secondary_turns"] != n2
-                                         or ratio["nearest_primary_turns"] != n1):
-        warnings.append(f"the windings act like {n1}:{ratio['nearest_secondary_turns']} "
-                        f"(or {ratio['nearest_primary_turns']}:{n2}), not the stated {n1}:{n2}")
-    figures["turns_ratio"] = ratio
-    figures["terminations"] = terms.to_dict()
+    if n1 and n2 and ratio.value and (nearest_secondary != n2 or nearest_primary != n1):
+        warnings.append(f"the windings act like {n1}:{nearest_secondary} "
+                        f"(or {nearest_primary}:{n2}), not the stated {n1}:{n2}")
+    figures.append(ratio)
+    result_figures = Figures(tuple(figures), rl_band, terms)
 
     design_check = None
     if is_design(design):
         facts = DesignFacts(
-            effective_ratio=ratio["value"], primary_turns=n1, secondary_turns=n2,
-            low_frequency_limit_Hz=figures["low_frequency_limit_Hz"]["value"],
-            high_corner_3dB_Hz=figures["high_frequency_corner_3dB_Hz"]["value"],
+            effective_ratio=ratio.value, primary_turns=n1, secondary_turns=n2,
+            low_frequency_limit_Hz=result_figures["low_frequency_limit_Hz"].value,
+            high_corner_3dB_Hz=result_figures["high_frequency_corner_3dB_Hz"].value,
             evaluated_top_Hz=values["evaluated_top_Hz"],
             high_limited_by="leakage" if values["leakage_corner_Hz"] <= values["capacitance_corner_Hz"]
             else "capacitance",
             midband_Hz=values["midband_Hz"], midband_return_loss_dB=values["midband_rl"],
             min_return_loss_dB=values.get("min_rl"), min_return_loss_at_Hz=values.get("min_rl_at_Hz"))
-        design_check = check_design(facts, design, cannot_judge).to_dict()
-    return figures, design_check, warnings
-
-
-# ---- terminal presentation -------------------------------------------------------------------
-
-def _value_text(fig: dict | None, unit: str = "", digits: int = 4) -> str:
-    if not fig or fig.get("value") is None:
-        return "—"
-    err = fig.get("stderr")
-    if not err:  # None or 0: no standard error, which the note explains
-        return (eng(fig["value"], unit) if unit else f"{fig['value']:.{digits}g}") + " ± ?"
-    if unit:
-        return format_with_error(fig["value"], err, unit)
-    return f"{fig['value']:.{digits}g} ± {err:.2g}"
-
-
-def _plain_note(note: str, shared: str) -> str:
-    """A figure's note without the terminations note (which is said once, under the table)."""
-    if shared:
-        note = note.replace("; " + shared, "").replace(shared, "")
-    return note.strip("; ")
-
-
-def figure_rows(analysis) -> list[tuple[str, str, str]]:
-    """(label, value ± standard error, note) for every figure, in reading order, as plain text.
-
-    The terminal table and the HTML report both show these rows.
-    """
-    f = analysis.figures
-    if not f:
-        return []
-    shared = f.get("terminations", {}).get("note", "")
-    rows: list[tuple[str, str, str]] = []
-
-    def row(label, fig, unit="", note=""):
-        own = (fig or {}).get("note", "")
-        why = [own] if note and own.startswith("no standard error") else []  # said even beside another note
-        note = "; ".join(n for n in [note or own] + why + [(fig or {}).get("stderr_note", "")] if n)
-        rows.append((label, _value_text(fig, unit), _plain_note(note, shared)))
-
-    al = f.get("inductance_factor_nH_per_turn2", {})
-    if al.get("value") is not None:
-        agree = al.get("agreement_percent")
-        row("A_L (nH/turn²)", al, "", "" if agree is None else
-            f"windings agree to {agree:+.2g} %" + ("" if al.get("agrees") else " — check the turns"))
-        for side in ("primary", "secondary"):
-            sub = al.get(side)
-            if sub and sub.get("value") is not None:
-                row(f"  from the {side} ({sub['turns']} turns)", sub)
-        row("  in µH per 100 turns", al["uH_per_100_turns"])
-        row("  in mH per 1000 turns", al["mH_per_1000_turns"])
-    else:
-        row("A_L", al)
-    row("effective permeability µe", f.get("effective_permeability"))
-    lf = f.get("low_frequency_limit_Hz", {})
-    row(f"reactance-rule limit (X ≥ {lf.get('reactance_factor', 4):g}·R)", lf, "Hz",
-        f"set by the {lf.get('set_by')}; primary {_value_text(lf.get('primary'), 'Hz')}, "
-        f"secondary {_value_text(lf.get('secondary'), 'Hz')}; {lf.get('note', '')}")
-    for key, label in (("low_frequency_corner_3dB_Hz", "lower corner −3 dB"),
-                       ("low_frequency_corner_1dB_Hz", "lower corner −1 dB"),
-                       ("high_frequency_corner_1dB_Hz", "upper corner −1 dB"),
-                       ("high_frequency_corner_3dB_Hz", "upper corner −3 dB")):
-        row(label, f.get(key), "Hz")
-    mid = f.get("midband_insertion_loss_dB", {})
-    row("mid-band insertion loss (dB)", mid, "",
-        f"at {eng(mid.get('frequency_Hz'), 'Hz')}" if mid.get("value") is not None else "")
-    rl = f.get("return_loss_band", {})
-    band = "—" if rl.get("start_Hz") is None and rl.get("stop_Hz") is None else \
-        f"{eng(rl.get('start_Hz'), 'Hz')} – {eng(rl.get('stop_Hz'), 'Hz')}"
-    rows.append((f"return loss ≥ {rl.get('threshold_dB', 15):g} dB", band, _plain_note(rl.get("note", ""), shared)))
-    row("self-resonance, primary (secondary open)", f.get("self_resonance_primary_Hz"), "Hz")
-    row("self-resonance, secondary (primary open)", f.get("self_resonance_secondary_Hz"), "Hz")
-    tr = f.get("turns_ratio", {})
-    notes = []
-    if tr.get("nearest_secondary_turns") is not None:
-        notes.append(f"acts like {analysis.measurement.primary_turns}:{tr['nearest_secondary_turns']}")
-    if tr.get("design_ratio"):
-        notes.append(f"design 1:{tr['design_ratio']:.4g}")
-    row("turns ratio √(L2/L1)", tr, "", ", ".join(notes))
-    row("open-circuit voltage ratio", tr.get("open_circuit_voltage_ratio"))
-    return rows
-
-
-def figures_table(analysis):
-    from rich.markup import escape
-    from rich.table import Table
-
-    table = Table(title="Figures", title_justify="left", show_edge=False, pad_edge=False)
-    table.add_column("figure")
-    table.add_column("value ± standard error", justify="right")
-    table.add_column("note", overflow="fold")
-    for label, value, note in figure_rows(analysis):
-        table.add_row(label, value, escape(note))
-    return table
-
-
-def verdict_table(analysis):
-    from rich.markup import escape
-    from rich.table import Table
-
-    check = analysis.design_check
-    title = {"pass": "PASS", "fail": "FAIL"}.get(analysis.design_status, "NOT JUDGED")
-    table = Table(title="Design check: " + title, title_justify="left", show_edge=False, pad_edge=False)
-    for col in ("check", "verdict", "value", "limit", "margin", "what to change"):
-        table.add_column(col, overflow="fold")
-    for c in check["checks"]:
-        verdict = {True: "[green]pass[/]", False: "[bold red]FAIL[/]"}.get(c["passed"], "[yellow]not judged[/]")
-        unit = c["unit"]
-        fmt = (lambda v: eng(v, unit)) if unit == "Hz" else (lambda v: f"{v:.4g}{' ' + unit if unit else ''}")
-        table.add_row(escape(c["label"]), verdict, fmt(c["value"]), fmt(c["limit"]), escape(c["margin"]),
-                      escape(c["advice"]))
-    return table
-
-
-def _render_figures(analysis, console) -> None:
-    if analysis.figures:
-        console.print(figures_table(analysis))
-        note = analysis.figures.get("terminations", {}).get("note")
-        if note:
-            from rich.markup import escape
-
-            console.print(f"[dim]{escape(note)}[/]")
-        console.print()
-
-
-def _render_verdicts(analysis, console) -> None:
-    if analysis.design_check:
-        from rich.markup import escape
-
-        console.print(verdict_table(analysis))
-        for reason in analysis.design_check.get("not_judged_reasons") or ():
-            console.print(f"[yellow]not judged:[/] {escape(reason)}")
-        console.print()
-
-
-def terminal_renderers() -> list:
-    """Extra sections for rfmeas.present.terminal.render_analysis: the figures, then the design verdicts."""
-    return [_render_figures, _render_verdicts]
+        design_check = check_design(facts, design, cannot_judge)
+    return result_figures, design_check, warnings

@@ -82,10 +82,8 @@ def render_analysis(analysis, console) -> None:
                   "jig errors come on top. The T-model view uses the proportional leakage split "
                   "(Ll1 = L1(1−k), Ll2 = L2(1−k)): the terminals cannot tell how leakage divides.[/]")
     console.print()
-    from rfmeas.judge.figures import terminal_renderers
-
-    for extra in terminal_renderers():
-        extra(analysis, console)
+    _render_figures(analysis, console)
+    _render_verdicts(analysis, console)
     console.print(sweep_table(analysis))
     state = "[green]converged[/]" if fit.converged else "[red]did not converge[/]"
     console.print(f"fit {state} in {fit.elapsed_s * 1000:.0f} ms; rms misfit {fit.rms_residual:.2g}")
@@ -97,3 +95,130 @@ def render_analysis(analysis, console) -> None:
             console.print(title)
             for line in lines:
                 console.print(f"  • {escape(line)}")
+
+
+# ---- figures and the design check --------------------------------------------------------------
+
+def _value_text(fig, digits: int = 4) -> str:
+    """'3.21 ± 0.02 MHz' of a Figure; '—' without a value; '± ?' without a standard error."""
+    if fig is None or fig.value is None:
+        return "—"
+    unit = fig.unit if fig.unit == "Hz" else ""
+    if not fig.stderr:  # None or 0: no standard error, which the note explains
+        return (format_engineering(fig.value, unit) if unit else f"{fig.value:.{digits}g}") + " ± ?"
+    if unit:
+        return format_with_error(fig.value, fig.stderr, unit)
+    return f"{fig.value:.{digits}g} ± {fig.stderr:.2g}"
+
+
+def _plain_note(note: str, shared: str) -> str:
+    """A figure's note without the terminations note (which is said once, under the table)."""
+    if shared:
+        note = note.replace("; " + shared, "").replace(shared, "")
+    return note.strip("; ")
+
+
+def figure_rows(analysis) -> list[tuple[str, str, str]]:
+    """(label, value ± standard error, note) for every figure, in reading order, as plain text.
+
+    The terminal table and the HTML report both show these rows.
+    """
+    f = analysis.figures
+    if f is None:
+        return []
+    shared = f.terminations.note
+    rows: list[tuple[str, str, str]] = []
+
+    def row(label, fig, note=""):
+        own = fig.note if fig is not None else ""
+        why = [own] if note and own.startswith("no standard error") else []  # said even beside another note
+        stderr_note = fig.stderr_note if fig is not None else ""
+        note = "; ".join(n for n in [note or own] + why + [stderr_note] if n)
+        rows.append((label, _value_text(fig), _plain_note(note, shared)))
+
+    for fig in f:
+        name = fig.name
+        if name == "inductance_factor_nH_per_turn2":
+            if fig.value is None:
+                row("A_L", fig)
+                continue
+            agree = fig.detail("agreement_percent")
+            row(fig.label, fig, "" if agree is None else
+                f"windings agree to {agree:+.2g} %" + ("" if fig.detail("agrees") else " — check the turns"))
+            for side in ("primary", "secondary"):
+                sub = fig.detail(side)
+                if sub is not None and sub.value is not None:
+                    row(f"  from the {side} ({sub.detail('turns')} turns)", sub)
+            for key in ("uH_per_100_turns", "mH_per_1000_turns"):
+                sub = fig.detail(key)
+                row(f"  {sub.label}", sub)
+        elif name == "low_frequency_limit_Hz":
+            row(f"{fig.label} (X ≥ {fig.detail('reactance_factor', 4):g}·R)", fig,
+                f"set by the {fig.detail('set_by')}; primary {_value_text(fig.detail('primary'))}, "
+                f"secondary {_value_text(fig.detail('secondary'))}; {fig.note}")
+        elif name == "midband_insertion_loss_dB":
+            row(fig.label, fig, f"at {format_engineering(fig.detail('frequency_Hz'), 'Hz')}"
+                if fig.value is not None else "")
+            rl = f.return_loss_band
+            band = "—" if rl.start.value is None and rl.stop.value is None else \
+                f"{format_engineering(rl.start.value, 'Hz')} – {format_engineering(rl.stop.value, 'Hz')}"
+            rows.append((f"return loss ≥ {rl.threshold_dB:g} dB", band, _plain_note(rl.note, shared)))
+        elif name == "turns_ratio":
+            notes = []
+            if fig.detail("nearest_secondary_turns") is not None:
+                notes.append(f"acts like {analysis.measurement.primary_turns}:{fig.detail('nearest_secondary_turns')}")
+            if fig.detail("design_ratio"):
+                notes.append(f"design 1:{fig.detail('design_ratio'):.4g}")
+            row(fig.label, fig, ", ".join(notes))
+            ocv = fig.detail("open_circuit_voltage_ratio")
+            row(ocv.label, ocv)
+        else:
+            row(fig.label, fig)
+    return rows
+
+
+def figures_table(analysis):
+    from rich.table import Table
+
+    table = Table(title="Figures", title_justify="left", show_edge=False, pad_edge=False)
+    table.add_column("figure")
+    table.add_column("value ± standard error", justify="right")
+    table.add_column("note", overflow="fold")
+    for label, value, note in figure_rows(analysis):
+        table.add_row(label, value, escape(note))
+    return table
+
+
+def verdict_table(check):
+    """The design check's verdicts (a rfmeas.judge.design.DesignCheck) as a rich table."""
+    from rich.table import Table
+
+    title = {"pass": "PASS", "fail": "FAIL"}.get(check.status, "NOT JUDGED")
+    table = Table(title="Design check: " + title, title_justify="left", show_edge=False, pad_edge=False)
+    for col in ("check", "verdict", "value", "limit", "margin", "what to change"):
+        table.add_column(col, overflow="fold")
+    for v in check.verdicts:
+        verdict = {"pass": "[green]pass[/]", "fail": "[bold red]FAIL[/]"}.get(v.state, "[yellow]not judged[/]")
+        unit = v.unit
+        fmt = (lambda x: format_engineering(x, unit)) if unit == "Hz" else \
+            (lambda x: f"{x:.4g}{' ' + unit if unit else ''}")
+        table.add_row(escape(v.label), verdict, fmt(v.value), fmt(v.limit), escape(v.margin), escape(v.advice))
+    return table
+
+
+def _render_figures(analysis, console) -> None:
+    if analysis.figures is not None:
+        console.print(figures_table(analysis))
+        note = analysis.figures.terminations.note
+        if note:
+            console.print(f"[dim]{escape(note)}[/]")
+        console.print()
+
+
+def _render_verdicts(analysis, console) -> None:
+    check = analysis.design_check
+    if check is not None:
+        console.print(verdict_table(check))
+        for reason in check.not_judged:
+            console.print(f"[yellow]not judged:[/] {escape(reason)}")
+        console.print()

@@ -25,10 +25,9 @@ from rfmeas.present.plots.sweeps import model_sweeps
 RESPONSE_POINTS = 600
 
 
-def figure_value(figures: dict, key: str) -> float | None:
-    """A figure's value as a float, or None when it is missing or not a finite number."""
-    item = (figures or {}).get(key)
-    value = item.get("value") if isinstance(item, dict) else item
+def figure_value(figures, key: str) -> float | None:
+    """A figure's value (rfmeas.judge.figures.Figures) as a float, or None when it is missing or not finite."""
+    value = figures[key].value if figures is not None and key in figures else None
     if isinstance(value, (int, float)) and not isinstance(value, bool) and math.isfinite(value):
         return float(value)
     return None
@@ -73,7 +72,7 @@ def plot_response(analysis, path=None):
     fig, axes = style.new_figure(2, 1, height_ratios=[1, 1], height_in=5.0)
     gain_ax, rl_ax = axes[:, 0]
     design = analysis.measurement.design
-    figures = analysis.figures or {}
+    figures = analysis.figures
     for ax in (gain_ax, rl_ax):
         if design is not None:
             style.mark_band(ax, design.lowest_frequency_Hz, design.highest_frequency_Hz,
@@ -91,14 +90,12 @@ def plot_response(analysis, path=None):
         if value is not None:
             side = "low" if key.startswith("low") else "high"
             style.mark_frequency(gain_ax, value, f"{side} {label}", style=ls)
-    band = figures.get("return_loss_band")
-    if isinstance(band, dict):
-        threshold = band.get("threshold_dB")
-        if isinstance(threshold, (int, float)):
-            rl_ax.axhline(threshold, color=style.PALETTE["muted"], linestyle="--", linewidth=1.0,
-                          label=f"{threshold:g} dB")
-        for edge in ("start_Hz", "stop_Hz"):
-            value = band.get(edge)
+    band = None if figures is None else figures.return_loss_band
+    if band is not None:
+        threshold = band.threshold_dB
+        rl_ax.axhline(threshold, color=style.PALETTE["muted"], linestyle="--", linewidth=1.0,
+                      label=f"{threshold:g} dB")
+        for value in (band.start.value, band.stop.value):
             if isinstance(value, (int, float)) and math.isfinite(value):
                 rl_ax.axvline(value, color=style.PALETTE["third"], linestyle="-.", linewidth=1.0)
     finite_gain = gain_dB[np.isfinite(gain_dB)]

@@ -14,8 +14,8 @@ import platform
 from pathlib import Path
 
 from rfmeas import __version__
-from rfmeas.judge.figures import figure_rows
 from rfmeas.fit.result import LABELS, PARAMETER_KEYS
+from rfmeas.present.terminal import figure_rows
 from rfmeas.units import format_engineering, format_with_error
 
 CAUTIONS = (
@@ -138,30 +138,28 @@ def verdict_rows(analysis) -> list[dict]:
         rows.append({"name": "no target given", "state": "info", "value": "not checked",
                      "limit": "", "margin": "", "advice": advice})
         return rows
-    for item in check.get("checks") or []:
-        unit = item.get("unit") or ""
-        margin = item.get("margin")
+    for v in check.verdicts:
         rows.append({
-            "name": str(item.get("label") or item.get("name", "")),
-            "state": "notjudged" if item.get("state") == "not judged" else _state(item.get("passed")),
-            "value": format_number(item.get("value"), unit),
-            "limit": format_number(item.get("limit"), unit) if item.get("limit") is not None else "",
-            "margin": format_number(margin) if isinstance(margin, (int, float)) else (margin or ""),
-            "advice": str(item.get("advice") or item.get("reason") or ""),
+            "name": v.label,
+            "state": "notjudged" if v.passed is None else v.state,
+            "value": format_number(v.value, v.unit),
+            "limit": format_number(v.limit, v.unit),
+            "margin": v.margin,
+            "advice": v.advice or v.reason,
         })
     return rows
 
 
 def overall_verdict(analysis) -> dict:
-    passed = analysis.design_passed
-    if analysis.design_status == "not judged":
-        reasons = (analysis.design_check or {}).get("not_judged_reasons") or []
+    check = analysis.design_check
+    status = analysis.design_status
+    if status == "not judged":
+        reasons = check.not_judged
         return {"state": "notjudged", "text": "Design check not judged" + (f": {'; '.join(reasons)}" if reasons else "")}
-    if passed is True:
+    if status == "pass":
         return {"state": "pass", "text": "Design check passed"}
-    if passed is False:
-        failed = [c.get("label") or c.get("name", "") for c in (analysis.design_check or {}).get("checks") or []
-                  if c.get("passed") is False]
+    if status == "fail":
+        failed = [v.label for v in check.failed]
         return {"state": "fail", "text": "Design check failed" + (f": {'; '.join(failed)}" if failed else "")}
     if not analysis.fit.converged:
         return {"state": "fail", "text": "The fit did not converge; treat every number with suspicion"}
