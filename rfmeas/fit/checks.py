@@ -26,6 +26,7 @@ from rfmeas.fit.solver import BOUNDS
 from rfmeas.fit.start import inductance_at_low_frequency
 from rfmeas.fit.result import GOOD_MISFIT_RATIO, FitResult
 from rfmeas.measurement.sweep import MeasurementSet, Sweep
+from rfmeas.model.termination import Termination
 
 NOT_A_TRANSFORMER = "this does not look like a two-winding transformer"
 
@@ -140,16 +141,16 @@ def _check_one(sweep: Sweep) -> tuple[list[str], bool]:
         return notes + _two_port_notes(s), not _dead_transmission(s)
     s11 = sweep.equivalent_reflection()
     if _near(s11, -1.0):
-        if sweep.termination == "short":
+        if sweep.termination.is_short:
             return ["looks like a dead short over the whole sweep: no leakage inductance shows; sweep "
                     "higher, or check that port 1 itself is not shorted"] + notes, False
         return [_SHORT_NOTE] + notes, False
     if _near(s11, 1.0):
         return [_OPEN_NOTE] + notes, False
-    if sweep.termination in ("open", "short") and _near(s11, 0.0):
+    if not sweep.termination.is_load and _near(s11, 0.0):
         return [f"looks like a {sweep.z0_ohm[0]:g} Ω load, not a winding (S11 ≈ 0 over the whole sweep): "
                 "is the transformer on port 1, and is the other winding really "
-                f"{'open' if sweep.termination == 'open' else 'shorted'}?"] + notes, False
+                f"{sweep.termination.describe()}?"] + notes, False
     z_ohm = sweep.impedance_ohm()
     if np.mean(np.imag(z_ohm) < 0) >= CAPACITIVE_FRACTION:
         return [f"the winding is capacitive over the whole sweep ({f_Hz[0]:.3g}–{f_Hz[-1]:.3g} Hz): the "
@@ -196,8 +197,8 @@ def _check_open_short_pairs(sweeps) -> list[str]:
     """A 'short' sweep must show far less low-frequency inductance than the 'open' sweep of its winding."""
     out = []
     for winding in ("primary", "secondary"):
-        opens = _usable_inductances(sweeps, winding, "open")
-        shorts = _usable_inductances(sweeps, winding, "short")
+        opens = _usable_inductances(sweeps, winding, Termination.open())
+        shorts = _usable_inductances(sweeps, winding, Termination.short())
         if not opens or not shorts:
             continue
         l_open_H = float(np.median([l for _, l in opens]))
@@ -219,7 +220,7 @@ def _check_open_short_pairs(sweeps) -> list[str]:
     return out
 
 
-def _usable_inductances(sweeps, winding: str, termination: str) -> list[tuple[Sweep, float]]:
+def _usable_inductances(sweeps, winding: str, termination: Termination) -> list[tuple[Sweep, float]]:
     out = []
     for s in sweeps:
         if s.is_two_port or s.port1 != winding or s.termination != termination:

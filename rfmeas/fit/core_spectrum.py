@@ -1385,7 +1385,7 @@ def analyze_core_file(path, turns: int | None = None, geometry: CoreGeometry | N
 
 def _pick_sweep(mset, path):
     candidates = [s for s in mset.sweeps if s.port1 == "primary" and not s.is_two_port
-                  and s.termination == "open"]
+                  and s.termination.is_open]
     if candidates:
         return candidates[0]
     if len(mset.sweeps) == 1:

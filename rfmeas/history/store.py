@@ -670,7 +670,7 @@ def _manifest_for_files(measurement, names: list[str]) -> str:
         if sweep.port2 is not None and not sweep.is_through_method:
             entry["port2"] = sweep.port2
         else:
-            entry["termination"] = sweep.termination
+            entry["termination"] = sweep.termination.to_json()
         if sweep.is_through_method:
             entry["method"] = sweep.method
         doc["sweep"].append(entry)

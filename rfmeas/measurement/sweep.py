@@ -8,6 +8,8 @@ from typing import Any
 
 import numpy as np
 
+from rfmeas.model.termination import Termination
+
 WINDINGS = ("primary", "secondary")
 
 
@@ -20,8 +22,9 @@ class Sweep:
     """One measured sweep: a scikit-rf Network plus how the transformer was connected.
 
     port1        the winding on VNA port 1 ("primary" or "secondary")
-    termination  for a one-port sweep, what the other winding sees: "open",
-                 "short" or a resistance in ohms (float); None for a two-port sweep
+    termination  for a one-port sweep, what the other winding sees (a Termination;
+                 its JSON value "open", "short" or ohms is accepted and converted);
+                 None for a two-port sweep
     port2        for a two-port sweep, the winding on port 2; else None
     forward_only a two-port file whose S12/S22 were not measured
     unmeasured   S elements the file holds but did not measure (|S| <= -200 dB at
@@ -36,7 +39,7 @@ class Sweep:
 
     network: Any
     port1: str
-    termination: str | float | None = "open"
+    termination: Termination | None = Termination.open()
     port2: str | None = None
     forward_only: bool = False
     label: str = ""
@@ -48,6 +51,10 @@ class Sweep:
     fixture: str | None = None
     partial: bool = False
     unmeasured: tuple[str, ...] = ()
+
+    def __post_init__(self):
+        termination = None if self.port2 is not None else Termination.coerce(self.termination)
+        object.__setattr__(self, "termination", termination)
 
     @property
     def f_Hz(self) -> np.ndarray:
@@ -113,10 +120,7 @@ class Sweep:
             return text + (" (forward only)" if self.forward_only else "")
         other = other_winding(self.port1)
         where = f"{self.port1} {self.method}" if self.is_through_method else f"{self.port1} on port 1"
-        if self.termination in ("open", "short"):
-            state = "open" if self.termination == "open" else "shorted"
-            return f"{where}, {other} {state}"
-        return f"{where}, {other} loaded by {float(self.termination):g} Ω"
+        return f"{where}, {other} {self.termination.describe()}"
 
     def to_dict(self) -> dict:
         f = self.f_Hz
@@ -126,7 +130,7 @@ class Sweep:
             "sha256": self.sha256,
             "port1": self.port1,
             "port2": self.port2,
-            "termination": self.termination,
+            "termination": None if self.termination is None else self.termination.to_json(),
             "forward_only": self.forward_only,
             "unmeasured": list(self.unmeasured),
             "method": self.method,
