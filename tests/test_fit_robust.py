@@ -28,8 +28,7 @@ from rfmeas.errors import FitError
 from rfmeas.fit.solver import MIN_RESIDUALS_PER_PARAMETER, fit_sweeps
 from rfmeas.measurement.noise import error_sigma
 from rfmeas.fit.result import build_estimates
-
-POOR_MISFIT_RATIO = 5.0
+from rfmeas.fit.rules import POOR_MISFIT_RATIO
 
 
 def _check(case, keys=KEY_TOLERANCES):

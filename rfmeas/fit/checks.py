@@ -24,7 +24,9 @@ import numpy as np
 from rfmeas.errors import FitError, InputError
 from rfmeas.fit.solver import BOUNDS
 from rfmeas.fit.start import inductance_at_low_frequency
-from rfmeas.fit.result import GOOD_MISFIT_RATIO, FitResult
+from rfmeas.fit.result import FitResult
+from rfmeas.fit.rules import (EDGE_TOLERANCE_LOG, GOOD_MISFIT_RATIO, MISSED_RMS, RESIDUAL_OUTLIER_FACTOR,
+                              RESIDUAL_OUTLIER_FLOOR, SYSTEMATIC_CORRELATION)
 from rfmeas.measurement.sweep import MeasurementSet, Sweep
 from rfmeas.model.termination import Termination
 
@@ -68,26 +70,6 @@ practice); a ratio at or above 1 is impossible for the same winding."""
 TRANSMISSION_FLOOR = 0.03
 """A two-port sweep whose |S21| stays below this (−30 dB) at every point passes nothing: a
 coupled winding passes far more somewhere in its band (common practice)."""
-
-MISSED_RMS = 0.05
-"""A sweep the fit misses by more than this rms (−26 dB of full reflection) is not described by the
-circuit at all; a sound fit leaves about the trace noise, 1e-3 (common practice). When most sweeps
-are missed like that, the numbers describe none of them."""
-
-RESIDUAL_OUTLIER_FACTOR = 5.0
-"""A sweep fitted this many times worse (rms) than the median of the others is the suspect."""
-
-RESIDUAL_OUTLIER_FLOOR = 3e-3
-"""...but only when its misfit is above three times a typical trace noise of 1e-3 (common
-practice): below that every sweep fits down to its noise."""
-
-SYSTEMATIC_CORRELATION = 0.5
-"""Lag-1 residual correlation above this is a pattern along frequency, not noise (as in
-rfmeas.fit.result)."""
-
-EDGE_TOLERANCE = 0.01
-"""A parameter within this (in the fit's internal log coordinates, about 1 %) of its range
-edge is 'at the edge'."""
 
 TURNS_RATIO_TOLERANCE = 0.15
 """√(L2/L1) differs from Ns/Np by a few percent on a closed core because of leakage and flux
@@ -346,16 +328,16 @@ def _edges(result: FitResult) -> list[str]:
     params = result.params
     lo, hi = (to_internal("k", v) for v in BOUNDS["k"])
     x = to_internal("k", min(params.k, 1 - 1e-12))
-    if abs(x - hi) < EDGE_TOLERANCE:
+    if abs(x - hi) < EDGE_TOLERANCE_LOG:
         out.append(f"the coupling k came out at the top of its range ({params.k:.7f}): the leakage is too "
                    "small to show in these sweeps; a short-circuit sweep to a higher frequency would show it")
-    elif abs(x - lo) < EDGE_TOLERANCE:
+    elif abs(x - lo) < EDGE_TOLERANCE_LOG:
         out.append(f"the coupling k came out at the bottom of its range ({params.k:.2f}): the windings barely "
                    "couple; is the other winding connected, and are the sweeps labelled right?")
     for name, label in (("L1_H", "primary"), ("L2_H", "secondary")):
         value = getattr(params, name)
         low, high = BOUNDS[name]
-        if abs(math.log(value / low)) < EDGE_TOLERANCE or abs(math.log(high / value)) < EDGE_TOLERANCE:
+        if abs(math.log(value / low)) < EDGE_TOLERANCE_LOG or abs(math.log(high / value)) < EDGE_TOLERANCE_LOG:
             out.append(f"the {label} inductance came out at the edge of its range ({value:.3g} H): no winding "
                        "measures that; the sweeps do not describe a transformer as the manifest says")
     return out

@@ -29,6 +29,7 @@ from rfmeas.fit.solver import to_physical
 from rfmeas.magnetics import effective_permeability, geometry_from_table, nH_per_turn2_to
 from rfmeas.model.params import PARAMETER_NAMES, TransformerParams
 from rfmeas.fit.result import checked_stderr
+from rfmeas.measurement.sweep import DEFAULT_REACTANCE_FACTOR, DEFAULT_RETURN_LOSS_DB
 from rfmeas.model.response import band_response, minimum_return_loss_dB, open_circuit_voltage_ratio, \
     reactance_limit_Hz, return_loss_dB, self_resonance_Hz
 from rfmeas.units import format_engineering as eng
@@ -37,8 +38,6 @@ from rfmeas.units import format_with_error
 log = logging.getLogger(__name__)
 
 DEFAULT_SOURCE_OHM = 50.0
-DEFAULT_REACTANCE_FACTOR = 4.0
-DEFAULT_RETURN_LOSS_DB = 15.0
 _FD_STEP = 1e-5  # central-difference step in internal (log) coordinates
 _CAPACITANCES = ("C1_F", "C2_F", "C12_F")
 
@@ -460,7 +459,7 @@ def figure_rows(analysis) -> list[tuple[str, str, str]]:
     rl = f.get("return_loss_band", {})
     band = "—" if rl.get("start_Hz") is None and rl.get("stop_Hz") is None else \
         f"{eng(rl.get('start_Hz'), 'Hz')} – {eng(rl.get('stop_Hz'), 'Hz')}"
-    rows.append((f"return loss ≥ {rl.get('threshold_dB', 15):g} dB", band, _plain_note(rl.get("note", ""), shared)))
+    rows.append((f"return loss ≥ {rl.get('threshold_dB', DEFAULT_RETURN_LOSS_DB):g} dB", band, _plain_note(rl.get("note", ""), shared)))
     row("self-resonance, primary (secondary open)", f.get("self_resonance_primary_Hz"), "Hz")
     row("self-resonance, secondary (primary open)", f.get("self_resonance_secondary_Hz"), "Hz")
     tr = f.get("turns_ratio", {})

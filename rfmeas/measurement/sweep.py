@@ -12,6 +12,15 @@ from rfmeas.model.termination import Termination
 
 WINDINGS = ("primary", "secondary")
 
+# design defaults, used where the manifest's [design] table leaves them out
+DEFAULT_REACTANCE_FACTOR = 4.0
+"""Each winding's reactance at the lowest frequency is at least this × the impedance it works into
+(common practice)."""
+DEFAULT_RATIO_TOLERANCE_PERCENT = 2.0
+"""Allowed turns-ratio error of the design check."""
+DEFAULT_RETURN_LOSS_DB = 15.0
+"""Return-loss threshold of the band and of its design check."""
+
 
 def other_winding(winding: str) -> str:
     return "secondary" if winding == "primary" else "primary"
@@ -152,9 +161,9 @@ class DesignTarget:
     load_impedance_ohm: float | None = None
     lowest_frequency_Hz: float | None = None
     highest_frequency_Hz: float | None = None
-    reactance_factor: float = 4.0
-    ratio_tolerance_percent: float = 2.0
-    return_loss_dB: float = 15.0
+    reactance_factor: float = DEFAULT_REACTANCE_FACTOR
+    ratio_tolerance_percent: float = DEFAULT_RATIO_TOLERANCE_PERCENT
+    return_loss_dB: float = DEFAULT_RETURN_LOSS_DB
 
     @property
     def target_turns_ratio(self) -> float | None:
