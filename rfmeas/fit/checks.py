@@ -379,7 +379,8 @@ def method_warnings(measurement: MeasurementSet) -> list[str]:
             continue
         try:
             advice = method_advice(sweep.impedance_ohm(), sweep.z0_ohm[0])
-        except InputError:
+        except InputError as exc:  # a dropped advice is said, with its reason
+            out.append(f"{sweep.label}: no advice on the measurement method ({exc.message})")
             continue
         if advice.best != "reflection" and advice.gain_over_reflection >= METHOD_ADVICE_GAIN:
             out.append(f"{sweep.label}: {advice.sentence} (method = \"{advice.best}\" in the manifest)")

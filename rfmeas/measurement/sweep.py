@@ -216,11 +216,9 @@ class MeasurementSet:
             if sweep.raw_bytes is None:
                 continue
             name = Path(sweep.path).name if sweep.path else sweep.label
-            if base is not None and sweep.path:
-                try:  # keep the path the manifest names the file by
-                    name = Path(sweep.path).resolve().relative_to(base).as_posix()
-                except ValueError:
-                    pass
+            # keep the path the manifest names the file by (a file outside its folder: the bare name)
+            if base is not None and sweep.path and Path(sweep.path).resolve().is_relative_to(base):
+                name = Path(sweep.path).resolve().relative_to(base).as_posix()
             out.append((name, sweep.raw_bytes))
         return out
 
