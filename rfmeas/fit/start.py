@@ -176,12 +176,6 @@ def _readings(sweeps: list[Sweep]) -> tuple[dict, int]:
     return est, polarity
 
 
-def estimate_start(sweeps: list[Sweep]) -> tuple[dict, int]:
-    """Start values for every circuit parameter, and the winding polarity (+1 / -1)."""
-    starts, polarity = start_candidates(sweeps)
-    return starts[0], polarity
-
-
 CAPACITANCE_SPLITS = ((1 / 3, 1 / 3, 1 / 3), (0.8, 0.1, 0.1), (0.1, 0.8, 0.1), (0.1, 0.1, 0.8))
 """Shares of the open-circuit capacitance given to C1, n²·C2 and (n ∓ 1)²·C12 by the starts."""
 COUPLING_STARTS = (0.9, 0.99, 0.999)
