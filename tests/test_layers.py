@@ -111,3 +111,41 @@ def test_the_check_can_fail(tmp_path):
                                           ("rfmeas.fit.solver", 5), ("rfmeas.cli", 10)])
 def test_layer_lookup(module, layer):
     assert layer_of(module) == layer
+
+
+# The fit's internal coordinates and its problem object stay inside rfmeas/fit/ (issue 15): results,
+# figures and plots use rfmeas.fit.propagation and Sweep.predict instead.
+FIT_INTERNALS = ("to_internal", "to_physical", "SweepProblem", "internal_bounds")
+
+
+def fit_internal_uses(paths) -> list[str]:
+    found = []
+    for path in paths:
+        if module_name(path).startswith("rfmeas.fit"):
+            continue
+        tree = ast.parse(path.read_text(encoding="utf-8"))
+        for node in ast.walk(tree):
+            names = []
+            if isinstance(node, ast.ImportFrom) and (node.module or "").startswith("rfmeas"):
+                names = [a.name for a in node.names]
+            elif isinstance(node, ast.Attribute):
+                names = [node.attr]
+            for name in names:
+                if name in FIT_INTERNALS:
+                    found.append(f"{path.relative_to(ROOT)}:{node.lineno}: {name}")
+    return found
+
+
+def test_fit_internals_stay_inside_the_fit():
+    assert fit_internal_uses(sorted(PACKAGE.rglob("*.py"))) == []
+
+
+def test_the_fit_internals_check_can_fail():
+    fake = PACKAGE / "judge" / "_internals_probe_for_test.py"
+    fake.write_text("from rfmeas.fit.solver import fit_sweeps, to_physical\n"
+                    "import rfmeas.fit.solver as s\nx = s.SweepProblem\n", encoding="utf-8")
+    try:
+        found = fit_internal_uses([fake])
+    finally:
+        fake.unlink()
+    assert len(found) == 2 and "to_physical" in found[0] and "SweepProblem" in found[1]

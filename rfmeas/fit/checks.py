@@ -322,16 +322,15 @@ def _residual_outliers(result: FitResult) -> list[str]:
 
 
 def _edges(result: FitResult) -> list[str]:
-    from rfmeas.fit.solver import to_internal
-
     out = []
     params = result.params
-    lo, hi = (to_internal("k", v) for v in BOUNDS["k"])
-    x = to_internal("k", min(params.k, 1 - 1e-12))
-    if abs(x - hi) < EDGE_TOLERANCE_LOG:
+    # distance in log(1 − k), the scale on which the fit moves the coupling
+    gap = 1.0 - min(params.k, 1 - 1e-12)
+    lo_gap, hi_gap = (1.0 - v for v in BOUNDS["k"])
+    if abs(math.log(gap / hi_gap)) < EDGE_TOLERANCE_LOG:
         out.append(f"the coupling k came out at the top of its range ({params.k:.7f}): the leakage is too "
                    "small to show in these sweeps; a short-circuit sweep to a higher frequency would show it")
-    elif abs(x - lo) < EDGE_TOLERANCE_LOG:
+    elif abs(math.log(gap / lo_gap)) < EDGE_TOLERANCE_LOG:
         out.append(f"the coupling k came out at the bottom of its range ({params.k:.2f}): the windings barely "
                    "couple; is the other winding connected, and are the sweeps labelled right?")
     for name, label in (("L1_H", "primary"), ("L2_H", "secondary")):

@@ -41,8 +41,9 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
+from rfmeas.fit.propagation import checked_stderr, propagate_all  # noqa: F401 (checked_stderr: re-exported)
 from rfmeas.fit.rules import GOOD_MISFIT_RATIO, MISSED_SWEEP_FACTOR, POOR_MISFIT_RATIO, SYSTEMATIC_CORRELATION
-from rfmeas.fit.solver import FitOutcome, to_physical
+from rfmeas.fit.solver import FitOutcome
 from rfmeas.model.params import PARAMETER_NAMES, TransformerParams
 from rfmeas.measurement.noise import error_sigma
 from rfmeas.measurement.sweep import Sweep
@@ -248,65 +249,26 @@ class FitResult:
         }
 
 
-def _gradient(func, x: np.ndarray, step: float = 1e-6) -> np.ndarray:
-    f0 = func(x)
-    g = np.empty_like(x)
-    for j in range(x.size):
-        xp = x.copy()
-        xp[j] += step
-        g[j] = (func(xp) - f0) / step
-    return g
-
-
 def build_estimates(outcome: FitOutcome) -> dict:
-    """Estimates with first-order propagated standard errors for every JSON parameter key."""
-    params = outcome.params
-    values = {n: getattr(params, n) for n in PARAMETER_NAMES}
-    free = list(outcome.free)
-    cov = outcome.covariance
-
-    def vals_from_x(x):
-        v = dict(values)
-        for j, n in enumerate(free):
-            v[n] = float(to_physical(n, x[j]))
-        return v
-
+    """Estimates with first-order propagated standard errors for every JSON parameter key
+    (rfmeas.fit.propagation); a quantity that needs a held parameter is reported as not determined."""
+    values = {n: getattr(outcome.params, n) for n in PARAMETER_NAMES}
+    names = {key: name for key, name, _unit in PARAMETER_KEYS}
+    needs = {key: _DERIVED_INPUTS.get(name, (name,)) for key, name in names.items()}
+    propagated = propagate_all(
+        outcome, lambda p: {key: _derived_value(name, {n: getattr(p, n) for n in PARAMETER_NAMES})
+                            for key, name in names.items()}, needs)
     out = {}
-    for key, name, _unit in PARAMETER_KEYS:
-        inputs = _DERIVED_INPUTS.get(name, (name,))
-        held = [n for n in inputs if n in outcome.held]
-        if held:
-            reasons = sorted({outcome.held[n][1] for n in held})
-            held_at = _derived_value(name, values)
-            note = "; ".join(reasons)
+    for key, name in names.items():
+        p = propagated[key]
+        if p.held:
+            note = "; ".join(sorted({outcome.held[n][1] for n in p.held}))
             if name not in PARAMETER_NAMES:
-                note = f"needs {', '.join(held)}: {note}"
-            out[key] = Estimate(None, None, False, held_at, note)
+                note = f"needs {', '.join(p.held)}: {note}"
+            out[key] = Estimate(None, None, False, _derived_value(name, values), note)
             continue
-        value = _derived_value(name, values)
-        note = outcome.referred.get(name, "")
-        g = _gradient(lambda x: _derived_value(name, vals_from_x(x)), outcome.x.copy())
-        with np.errstate(invalid="ignore"):  # nan where the data leave a direction unseen
-            var = float(g @ cov @ g) if cov is not None else math.nan
-        stderr = math.sqrt(var) if math.isfinite(var) and var >= 0 else None
-        stderr, why = checked_stderr(value, stderr, cov is None)
-        out[key] = Estimate(float(value), stderr, note=note, stderr_note=why)
+        out[key] = Estimate(float(p.value), p.stderr, note=outcome.referred.get(name, ""), stderr_note=p.reason)
     return out
-
-
-def checked_stderr(value: float, stderr: float | None, no_covariance: bool = False) -> tuple[float | None, str]:
-    """(standard error, "") when it is a usable number, else (None, why).
-
-    A standard error of exactly zero (or one below 1e-12 of the value, floating-point dust),
-    NaN or infinity describes no measurement: it must never print as a confident number.
-    """
-    if no_covariance:
-        return None, "no standard error: the fit gave no covariance"
-    if stderr is None or not math.isfinite(stderr):
-        return None, "no standard error: the sweeps leave this quantity's direction unseen"
-    if stderr <= 1e-12 * abs(value):
-        return None, "no standard error: the fit's covariance gives 0, which no measurement supports"
-    return stderr, ""
 
 
 def _lag1_correlation(r: np.ndarray) -> float:

@@ -202,27 +202,15 @@ class SweepProblem:
         return int(sum(2 * m.size for m in self.measured))
 
     def predict(self, values: np.ndarray) -> list[np.ndarray]:
-        """Model S elements per sweep for parameter rows `values` (m, 9): list of (m, F, E)."""
+        """Model S elements per sweep for parameter rows `values` (m, 9): list of (m, F, E).
+
+        The forward model is the sweep's own (Sweep.s_from_admittance); sweeps on one grid
+        share one evaluation of the admittance matrix.
+        """
         cols = [values[:, i, None] for i in range(values.shape[1])]
         ys = [y_elements(f[None, :], *cols, polarity=self.polarity, core_loss=self.core_loss)
               for f in self.grids]
-        out = []
-        for sweep, g in zip(self.sweeps, self.grid_of_sweep):
-            y11, y12, y22 = ys[g]
-            if sweep.port1 == "secondary":
-                y11, y22 = y22, y11
-            if sweep.is_two_port:
-                z01, z02 = sweep.z0_ohm
-                s11, s21, s12, s22 = s_from_y(y11, y12, y22, z01, z02)
-                parts = {"S11": s11, "S21": s21, "S12": s12, "S22": s22}
-                out.append(np.stack([parts[e] for e in sweep.elements], axis=-1))
-            else:
-                yin = driving_point_admittance(y11, y12, y22, termination_admittance(sweep.termination))
-                if sweep.is_through_method:
-                    out.append(s_from_impedance(sweep.method, 1.0 / yin, sweep.z0_ohm[0])[..., None])
-                else:
-                    out.append(reflection_from_admittance(yin, sweep.z0_ohm[0])[..., None])
-        return out
+        return [sweep.s_from_admittance(*ys[g]) for sweep, g in zip(self.sweeps, self.grid_of_sweep)]
 
     def residual_rows(self, values: np.ndarray) -> np.ndarray:
         """Weighted real residuals, shape (m, N); a network that cannot be evaluated scores badly."""

@@ -1,10 +1,9 @@
 """Figures of merit of a fitted transformer, with propagated standard errors, and the design check.
 
 Every figure is computed from the fitted circuit values by one function of the
-parameter vector, so its standard error follows by first-order propagation:
-J = ∂figure/∂x by central differences in the fit's internal (log) coordinates,
-var = J·cov·Jᵀ with the fit's covariance (as rfmeas.fit.result does for the
-parameters). A figure that needs a parameter the fit could not determine gets
+parameter vector, so its standard error follows by first-order propagation
+with the fit's covariance (rfmeas.fit.propagation, the routine rfmeas.fit.result
+uses for the parameters). A figure that needs a parameter the fit could not determine gets
 no standard error (or no value) and a note saying which.
 
 Formulas:
@@ -25,9 +24,8 @@ from dataclasses import dataclass
 import numpy as np
 
 from rfmeas.judge.design import DesignFacts, check_design, is_design
-from rfmeas.fit.solver import to_physical
 from rfmeas.magnetics import effective_permeability, geometry_from_table, nH_per_turn2_to
-from rfmeas.model.params import PARAMETER_NAMES, TransformerParams
+from rfmeas.model.params import TransformerParams
 from rfmeas.fit.result import checked_stderr
 from rfmeas.measurement.sweep import DEFAULT_REACTANCE_FACTOR, DEFAULT_RETURN_LOSS_DB
 from rfmeas.model.response import band_response, minimum_return_loss_dB, open_circuit_voltage_ratio, \
@@ -38,7 +36,6 @@ from rfmeas.units import format_with_error
 log = logging.getLogger(__name__)
 
 DEFAULT_SOURCE_OHM = 50.0
-_FD_STEP = 1e-5  # central-difference step in internal (log) coordinates
 _CAPACITANCES = ("C1_F", "C2_F", "C12_F")
 
 # figure scalar -> (parameters without which it has no value, parameters without which it has no stderr)
@@ -146,44 +143,12 @@ def figure_scalars(params: TransformerParams, terms: Terminations, primary_turns
 
 
 def propagate(outcome, func) -> tuple[dict[str, float], dict[str, float | None]]:
-    """Values of `func(params) -> dict` at the fit, and first-order standard errors from its covariance."""
-    values = {n: getattr(outcome.params, n) for n in PARAMETER_NAMES}
-    free = list(outcome.free)
+    """Values of `func(params) -> dict` at the fit, and first-order standard errors from its covariance
+    (rfmeas.fit.propagation, the one propagation routine)."""
+    from rfmeas.fit.propagation import propagate_all
 
-    def at(x):
-        v = dict(values)
-        for j, name in enumerate(free):
-            v[name] = float(to_physical(name, x[j]))
-        return func(TransformerParams(**v, polarity=outcome.params.polarity))
-
-    base = func(outcome.params)
-    cov = outcome.covariance
-    stderr: dict[str, float | None] = {key: None for key in base}
-    if cov is None or not free:
-        return base, stderr
-    keys = list(base)
-    jac = np.full((len(keys), len(free)), np.nan)
-    for j in range(len(free)):
-        rows = []
-        for sign in (1.0, -1.0):
-            x = np.array(outcome.x, dtype=float)
-            x[j] += sign * _FD_STEP
-            try:
-                d = at(x)
-            except (ValueError, ArithmeticError):
-                d = {}
-            rows.append([d.get(k, math.nan) for k in keys])
-        jac[:, j] = (np.array(rows[0]) - np.array(rows[1])) / (2 * _FD_STEP)
-    with np.errstate(invalid="ignore"):
-        for i, key in enumerate(keys):
-            g = jac[i]
-            if not np.all(np.isfinite(g)):
-                continue
-            used = g != 0
-            var = float(g[used] @ cov[np.ix_(used, used)] @ g[used]) if np.any(used) else 0.0
-            if math.isfinite(var) and var >= 0:
-                stderr[key] = math.sqrt(var)
-    return base, stderr
+    done = propagate_all(outcome, func)
+    return {k: p.value for k, p in done.items()}, {k: p.stderr for k, p in done.items()}
 
 
 class _Builder:

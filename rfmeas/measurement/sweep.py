@@ -100,6 +100,44 @@ class Sweep:
         index = {"S11": (0, 0), "S21": (1, 0), "S12": (0, 1), "S22": (1, 1)}
         return np.stack([s[:, index[e][0], index[e][1]] for e in self.elements], axis=1)
 
+    def predict(self, params, f_Hz=None) -> np.ndarray:
+        """Model S elements of this sweep for the circuit `params` (TransformerParams), shape (F, E).
+
+        The forward model the fit compares with `measured()`: the circuit's admittance
+        matrix (rfmeas.model.circuit, with the params' polarity and core-loss placement)
+        seen the way this sweep was taken (`s_from_admittance`). `f_Hz` defaults to the
+        sweep's own frequencies.
+        """
+        from rfmeas.model.circuit import y_elements
+
+        f = self.f_Hz if f_Hz is None else np.asarray(f_Hz, dtype=float)
+        y = y_elements(f, *params.values(), polarity=params.polarity, core_loss=params.core_loss)
+        return self.s_from_admittance(*y)
+
+    def s_from_admittance(self, y11, y12, y22) -> np.ndarray:
+        """This sweep's S elements from the transformer's admittance elements (primary 1, secondary 2).
+
+        The y arrays broadcast over any leading axes (a stack of parameter sets) and end in
+        frequency; the result has the same shape plus a last axis of `elements`: two-port
+        sweeps convert the whole matrix (keeping only the elements fitted, so forward-only
+        files give S11, S21); one-port sweeps see the port-1 winding with the other one
+        terminated, as a reflection or through a two-port method (rfmeas.model.methods).
+        """
+        from rfmeas.model.circuit import driving_point_admittance, reflection_from_admittance, s_from_y
+        from rfmeas.model.methods import s_from_impedance
+
+        if self.port1 == "secondary":
+            y11, y22 = y22, y11
+        if self.is_two_port:
+            z01, z02 = self.z0_ohm
+            s11, s21, s12, s22 = s_from_y(y11, y12, y22, z01, z02)
+            parts = {"S11": s11, "S21": s21, "S12": s12, "S22": s22}
+            return np.stack([parts[e] for e in self.elements], axis=-1)
+        yin = driving_point_admittance(y11, y12, y22, self.termination.admittance_S())
+        if self.is_through_method:
+            return s_from_impedance(self.method, 1.0 / yin, self.z0_ohm[0])[..., None]
+        return reflection_from_admittance(yin, self.z0_ohm[0])[..., None]
+
     def impedance_ohm(self, values=None) -> np.ndarray:
         """The winding's impedance from a one-port sweep's measured (or given) S element.
 

@@ -2,8 +2,8 @@
 
 One-port sweeps are shown as the impedance the winding presents (|Z| and
 phase), two-port sweeps as |S| in dB and phase of each fitted element. The
-model values are exactly those the fit compared with the data
-(rfmeas.fit.solver.SweepProblem.predict at the fitted parameters).
+model values are exactly those the fit compared with the data (each sweep's own
+forward model, rfmeas.measurement.sweep.Sweep.predict, at the fitted parameters).
 """
 
 from __future__ import annotations
@@ -15,11 +15,8 @@ from rfmeas.present.plots import style
 
 def model_sweeps(analysis) -> list[np.ndarray]:
     """Model S elements of every sweep at the fitted parameters: list of (F, E) complex arrays."""
-    from rfmeas.fit.solver import SweepProblem
-
     params = analysis.fit.params
-    problem = SweepProblem(list(analysis.measurement.sweeps), params.polarity)
-    return [m[0] for m in problem.predict(np.array([params.values()], dtype=float))]
+    return [sweep.predict(params) for sweep in analysis.measurement.sweeps]
 
 
 def sweep_title(sweep) -> str:
