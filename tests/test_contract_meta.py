@@ -26,6 +26,7 @@ NOT_RESULTS = {
     "rfmeas.fit.solver.FitOutcome": "the solver's internal outcome; it reaches JSON only through FitResult.to_dict()",
     "rfmeas.instruments.simulation.Wiring": "a setting of the instrument simulator (an input, not a result)",
     "rfmeas.instruments.simulation.SimFaults": "faults staged by the instrument simulator (an input, not a result)",
+    "rfmeas.model.termination.Termination": "a value (open, short, ohms), not a result: its JSON value is a scalar, to_json()",
 }
 
 

@@ -19,6 +19,8 @@ from dataclasses import replace
 import numpy as np
 import pytest
 
+from rfmeas.model.termination import Termination
+
 from closed_form_population import KEY_TOLERANCES, population, sweep_set, true_values
 from reference import OnePort, TwoPort, four_sweeps, model_response
 from reference.spice import spice_available
@@ -26,8 +28,7 @@ from rfmeas.errors import FitError
 from rfmeas.fit.solver import MIN_RESIDUALS_PER_PARAMETER, fit_sweeps
 from rfmeas.measurement.noise import error_sigma
 from rfmeas.fit.result import build_estimates
-
-POOR_MISFIT_RATIO = 5.0
+from rfmeas.fit.rules import POOR_MISFIT_RATIO
 
 
 def _check(case, keys=KEY_TOLERANCES):
@@ -117,8 +118,9 @@ def test_weights_come_from_the_data_noise_and_a_wrong_model_reads_far_above_one(
     assert outcome.residual_variance == outcome.reduced_chi2
     # the open and shorted sweeps swapped in the manifest: no circuit fits, and χ² says so
     swapped = list(sweeps)
-    i_open = next(i for i, s in enumerate(sweeps) if s.termination == "open" and s.port1 == "primary")
-    i_short = next(i for i, s in enumerate(sweeps) if s.termination == "short")
+    i_open = next(i for i, s in enumerate(sweeps)
+                  if s.termination == Termination.open() and s.port1 == "primary")
+    i_short = next(i for i, s in enumerate(sweeps) if s.termination == Termination.short())
     swapped[i_open] = replace(sweeps[i_open], network=sweeps[i_short].network)
     swapped[i_short] = replace(sweeps[i_short], network=sweeps[i_open].network)
     assert fit_sweeps(swapped).reduced_chi2 > 100

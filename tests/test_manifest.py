@@ -8,7 +8,8 @@ import textwrap
 import pytest
 
 from rfmeas.errors import InputError
-from rfmeas.measurement.manifest import load_manifest, parse_termination
+from rfmeas.measurement.manifest import load_manifest
+from rfmeas.model.termination import Termination
 from rfmeas.io.strict import MAX_TOML_BYTES
 
 ONE_PORT = "# Hz S RI R 50\n1e5 0.1 0.2\n2e5 0.1 0.3\n3e5 0.2 0.3\n"
@@ -90,7 +91,7 @@ def test_the_valid_manifest_loads(folder):
     assert (m.primary_turns, m.secondary_turns) == (3, 9)
     assert m.core["shape"] == "toroid" and m.design.target_turns_ratio == pytest.approx(3.0)
     assert [s.label for s in m.sweeps] == ["pri_open.s1p", "thru.s2p"]
-    assert m.sweeps[1].is_two_port and m.sweeps[0].termination == "open"
+    assert m.sweeps[1].is_two_port and m.sweeps[0].termination.to_json() == "open"
 
 
 def test_a_folder_with_its_manifest_loads(folder):
@@ -213,7 +214,7 @@ def test_secondary_on_port1_and_a_two_port_file_as_one_port(folder):
         file = "thru.s2p"
         termination = "short"
         """))
-    assert m.sweeps[0].port1 == "secondary" and m.sweeps[0].termination == 1000.0
+    assert m.sweeps[0].port1 == "secondary" and m.sweeps[0].termination.to_json() == 1000.0
     assert not m.sweeps[1].is_two_port and m.sweeps[1].network.nports == 1
     assert any("one-port" in w for w in m.sweeps[1].warnings)
 
@@ -227,7 +228,7 @@ def test_secondary_on_port1_and_a_two_port_file_as_one_port(folder):
 ])
 def test_terminations_are_parsed(folder, value, expected):
     m = load_manifest(sweep_manifest(folder, f'file = "pri_open.s1p"\ntermination = {value}\n'))
-    assert m.sweeps[0].termination == expected
+    assert m.sweeps[0].termination.to_json() == expected
 
 
 @pytest.mark.parametrize("value", ['"ground"', '"-5"', "0", "-50", "true", "nan", "inf", '"1e400"', "[50]",
@@ -238,9 +239,9 @@ def test_bad_terminations_are_refused(folder, value):
 
 def test_parse_termination_names_where_and_file():
     with pytest.raises(InputError) as info:
-        parse_termination("lots", "--termination", "cmd")
+        Termination.parse("lots", "--termination", "cmd")
     assert info.value.path == "cmd" and "--termination" in info.value.message
-    assert parse_termination(75, "x", None) == 75.0
+    assert Termination.parse(75, "x", None) == Termination.load(75.0)
 
 
 # ---------------------------------------------------------------- core (validated by rfmeas.magnetics)

@@ -198,8 +198,8 @@ def check(folder, data: bytes) -> None:
     assert result.sweeps and result.name
     for sweep in result.sweeps:
         assert sweep.port1 in WINDINGS
-        assert sweep.is_two_port or sweep.termination in ("open", "short") \
-            or (isinstance(sweep.termination, float) and sweep.termination > 0)
+        assert sweep.is_two_port or sweep.termination.to_json() in ("open", "short") \
+            or (isinstance(sweep.termination.to_json(), float) and sweep.termination.to_json() > 0)
         assert sweep.network.f.size >= 3
 
 

@@ -24,8 +24,11 @@ import numpy as np
 from rfmeas.errors import FitError, InputError
 from rfmeas.fit.solver import BOUNDS
 from rfmeas.fit.start import inductance_at_low_frequency
-from rfmeas.fit.result import GOOD_MISFIT_RATIO, FitResult
+from rfmeas.fit.result import FitResult
+from rfmeas.fit.rules import (EDGE_TOLERANCE_LOG, GOOD_MISFIT_RATIO, MISSED_RMS, RESIDUAL_OUTLIER_FACTOR,
+                              RESIDUAL_OUTLIER_FLOOR, SYSTEMATIC_CORRELATION)
 from rfmeas.measurement.sweep import MeasurementSet, Sweep
+from rfmeas.model.termination import Termination
 
 NOT_A_TRANSFORMER = "this does not look like a two-winding transformer"
 
@@ -67,26 +70,6 @@ practice); a ratio at or above 1 is impossible for the same winding."""
 TRANSMISSION_FLOOR = 0.03
 """A two-port sweep whose |S21| stays below this (−30 dB) at every point passes nothing: a
 coupled winding passes far more somewhere in its band (common practice)."""
-
-MISSED_RMS = 0.05
-"""A sweep the fit misses by more than this rms (−26 dB of full reflection) is not described by the
-circuit at all; a sound fit leaves about the trace noise, 1e-3 (common practice). When most sweeps
-are missed like that, the numbers describe none of them."""
-
-RESIDUAL_OUTLIER_FACTOR = 5.0
-"""A sweep fitted this many times worse (rms) than the median of the others is the suspect."""
-
-RESIDUAL_OUTLIER_FLOOR = 3e-3
-"""...but only when its misfit is above three times a typical trace noise of 1e-3 (common
-practice): below that every sweep fits down to its noise."""
-
-SYSTEMATIC_CORRELATION = 0.5
-"""Lag-1 residual correlation above this is a pattern along frequency, not noise (as in
-rfmeas.fit.result)."""
-
-EDGE_TOLERANCE = 0.01
-"""A parameter within this (in the fit's internal log coordinates, about 1 %) of its range
-edge is 'at the edge'."""
 
 TURNS_RATIO_TOLERANCE = 0.15
 """√(L2/L1) differs from Ns/Np by a few percent on a closed core because of leakage and flux
@@ -140,16 +123,16 @@ def _check_one(sweep: Sweep) -> tuple[list[str], bool]:
         return notes + _two_port_notes(s), not _dead_transmission(s)
     s11 = sweep.equivalent_reflection()
     if _near(s11, -1.0):
-        if sweep.termination == "short":
+        if sweep.termination.is_short:
             return ["looks like a dead short over the whole sweep: no leakage inductance shows; sweep "
                     "higher, or check that port 1 itself is not shorted"] + notes, False
         return [_SHORT_NOTE] + notes, False
     if _near(s11, 1.0):
         return [_OPEN_NOTE] + notes, False
-    if sweep.termination in ("open", "short") and _near(s11, 0.0):
+    if not sweep.termination.is_load and _near(s11, 0.0):
         return [f"looks like a {sweep.z0_ohm[0]:g} Ω load, not a winding (S11 ≈ 0 over the whole sweep): "
                 "is the transformer on port 1, and is the other winding really "
-                f"{'open' if sweep.termination == 'open' else 'shorted'}?"] + notes, False
+                f"{sweep.termination.describe()}?"] + notes, False
     z_ohm = sweep.impedance_ohm()
     if np.mean(np.imag(z_ohm) < 0) >= CAPACITIVE_FRACTION:
         return [f"the winding is capacitive over the whole sweep ({f_Hz[0]:.3g}–{f_Hz[-1]:.3g} Hz): the "
@@ -196,8 +179,8 @@ def _check_open_short_pairs(sweeps) -> list[str]:
     """A 'short' sweep must show far less low-frequency inductance than the 'open' sweep of its winding."""
     out = []
     for winding in ("primary", "secondary"):
-        opens = _usable_inductances(sweeps, winding, "open")
-        shorts = _usable_inductances(sweeps, winding, "short")
+        opens = _usable_inductances(sweeps, winding, Termination.open())
+        shorts = _usable_inductances(sweeps, winding, Termination.short())
         if not opens or not shorts:
             continue
         l_open_H = float(np.median([l for _, l in opens]))
@@ -219,7 +202,7 @@ def _check_open_short_pairs(sweeps) -> list[str]:
     return out
 
 
-def _usable_inductances(sweeps, winding: str, termination: str) -> list[tuple[Sweep, float]]:
+def _usable_inductances(sweeps, winding: str, termination: Termination) -> list[tuple[Sweep, float]]:
     out = []
     for s in sweeps:
         if s.is_two_port or s.port1 != winding or s.termination != termination:
@@ -344,16 +327,16 @@ def _edges(result: FitResult) -> list[str]:
     # distance in log(1 − k), the scale on which the fit moves the coupling
     gap = 1.0 - min(params.k, 1 - 1e-12)
     lo_gap, hi_gap = (1.0 - v for v in BOUNDS["k"])
-    if abs(math.log(gap / hi_gap)) < EDGE_TOLERANCE:
+    if abs(math.log(gap / hi_gap)) < EDGE_TOLERANCE_LOG:
         out.append(f"the coupling k came out at the top of its range ({params.k:.7f}): the leakage is too "
                    "small to show in these sweeps; a short-circuit sweep to a higher frequency would show it")
-    elif abs(math.log(gap / lo_gap)) < EDGE_TOLERANCE:
+    elif abs(math.log(gap / lo_gap)) < EDGE_TOLERANCE_LOG:
         out.append(f"the coupling k came out at the bottom of its range ({params.k:.2f}): the windings barely "
                    "couple; is the other winding connected, and are the sweeps labelled right?")
     for name, label in (("L1_H", "primary"), ("L2_H", "secondary")):
         value = getattr(params, name)
         low, high = BOUNDS[name]
-        if abs(math.log(value / low)) < EDGE_TOLERANCE or abs(math.log(high / value)) < EDGE_TOLERANCE:
+        if abs(math.log(value / low)) < EDGE_TOLERANCE_LOG or abs(math.log(high / value)) < EDGE_TOLERANCE_LOG:
             out.append(f"the {label} inductance came out at the edge of its range ({value:.3g} H): no winding "
                        "measures that; the sweeps do not describe a transformer as the manifest says")
     return out
@@ -395,7 +378,8 @@ def method_warnings(measurement: MeasurementSet) -> list[str]:
             continue
         try:
             advice = method_advice(sweep.impedance_ohm(), sweep.z0_ohm[0])
-        except InputError:
+        except InputError as exc:  # a dropped advice is said, with its reason
+            out.append(f"{sweep.label}: no advice on the measurement method ({exc.message})")
             continue
         if advice.best != "reflection" and advice.gain_over_reflection >= METHOD_ADVICE_GAIN:
             out.append(f"{sweep.label}: {advice.sentence} (method = \"{advice.best}\" in the manifest)")

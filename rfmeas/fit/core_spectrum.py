@@ -147,6 +147,7 @@ class DispersionFit:
     comparison: dict
     reason: str
     static_permeability_stderr: float | None = None
+    converged: bool = True
 
     def permeability(self, f_Hz) -> np.ndarray:
         """µ' − jµ'' of this model at `f_Hz`."""
@@ -379,6 +380,11 @@ class _Trial:
     jac: np.ndarray
     chi2: float
     n: int
+    converged: bool = True   # False: the solver stopped at its evaluation budget (or failed)
+
+
+NOT_CONVERGED_NOTE = ("the solver stopped at its evaluation budget before converging, so the model's "
+                      "values are its last try, not a converged fit")
 
 
 def _unpack(name, theta, fixed_ls):
@@ -416,7 +422,7 @@ class _Problem:
         chi2 = float(np.sum(result.fun**2))
         if not np.isfinite(chi2):
             chi2 = math.inf
-        return _Trial(name, result.x, lower, upper, result.jac, chi2, result.fun.size)
+        return _Trial(name, result.x, lower, upper, result.jac, chi2, result.fun.size, bool(result.status > 0))
 
 
 def _start_values(f, z, sigma, turns, geometry, fixed_ls):
@@ -564,7 +570,7 @@ def _summarise(trial: _Trial, fixed_ls, comparison, reason) -> DispersionFit:
     mu0_se = mu0_se if np.isfinite(mu0_se) and mu0_se < 0.5 * mu0 else None
     return DispersionFit(name, values, tuple(stderr), tuple(undetermined), rs, rs_se, ls,
                          ls_se, fixed_ls is None, cw, cw_se, misfit, _bic(trial), trial.n // 2, comparison,
-                         reason, mu0_se)
+                         reason, mu0_se, trial.converged)
 
 
 def fit_dispersion(f_Hz, impedance_ohm, sigma_ohm, turns: int, geometry: CoreGeometry,
@@ -591,6 +597,8 @@ def fit_dispersion(f_Hz, impedance_ohm, sigma_ohm, turns: int, geometry: CoreGeo
     others = ", ".join(f"{n} {c['bic']:.1f}" for n, c in comparison.items() if n != chosen.name)
     reason = (f"lowest BIC ({_bic(chosen):.1f}; {others}); misfit {math.sqrt(chosen.chi2 / chosen.n):.2f}× "
               "the VNA error model")
+    if not chosen.converged:
+        reason += f"; {NOT_CONVERGED_NOTE}"
     return _summarise(chosen, lead_inductance_H, comparison, reason)
 
 
@@ -736,6 +744,8 @@ def leads_from_turns(windings, errors: VnaErrorModel = DEFAULT_VNA_ERRORS, z0_oh
     if sigma_l.size:
         ll_se = math.hypot(ll_se, float(np.percentile(sigma_l, 10)))
     rl, rl_se, r_note = _resolved_resistance(float(best.x[1]), float(se[1]))
+    if not best.success:
+        r_note += f"; {NOT_CONVERGED_NOTE}"
     at_bound = best.x[0] < 1e-3
     determined = bool(not at_bound and (ll_se < 0.3 * ll or ll_se < 1 * _NH))
     counts = ", ".join(str(int(t)) for t in sorted(set(turns.tolist())))
@@ -999,6 +1009,8 @@ def analyze_core(f_Hz, impedance_ohm, turns: int, geometry: CoreGeometry, z0_ohm
         warnings.append(f"the dispersion fit is poor: its residuals are {fit.misfit:.1f}× the VNA's error model "
                         "(several mechanisms, a dimensional resonance, or a measurement problem); no material "
                         "class is named with confidence")
+    if not fit.converged:
+        warnings.append(f"the dispersion fit: {NOT_CONVERGED_NOTE}")
     if fit.undetermined:
         warnings.append("not determined by these data (at a bound or unresolved): " + ", ".join(fit.undetermined))
     if np.isfinite(srf) and peak.frequency_Hz is not None and srf < peak.frequency_Hz:
@@ -1385,7 +1397,7 @@ def analyze_core_file(path, turns: int | None = None, geometry: CoreGeometry | N
 
 def _pick_sweep(mset, path):
     candidates = [s for s in mset.sweeps if s.port1 == "primary" and not s.is_two_port
-                  and s.termination == "open"]
+                  and s.termination.is_open]
     if candidates:
         return candidates[0]
     if len(mset.sweeps) == 1:

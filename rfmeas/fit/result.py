@@ -42,6 +42,7 @@ from dataclasses import dataclass, field
 import numpy as np
 
 from rfmeas.fit.propagation import checked_stderr, propagate_all  # noqa: F401 (checked_stderr: re-exported)
+from rfmeas.fit.rules import GOOD_MISFIT_RATIO, MISSED_SWEEP_FACTOR, POOR_MISFIT_RATIO, SYSTEMATIC_CORRELATION
 from rfmeas.fit.solver import FitOutcome
 from rfmeas.model.params import PARAMETER_NAMES, TransformerParams
 from rfmeas.measurement.noise import error_sigma
@@ -147,20 +148,6 @@ class SweepQuality:
         return dict(self.__dict__)
 
 
-GOOD_MISFIT_RATIO = 2.0
-"""Up to this overall misfit ratio the fit is good. A right model gives 0.9–1.1: the fit
-absorbs a few components, the data-noise estimate scatters by some 10 % on a few hundred
-points, and a real VNA's noise changes over the band. 2 allows a systematic misfit of up to
-√3 ≈ 1.7 σ per component (calibration residue beyond the floor, a core slightly off the
-lumped model): the values still stand and the standard errors are optimistic by at most ~2×."""
-POOR_MISFIT_RATIO = 5.0
-"""Above this the fit is poor: the misfit power is over 25× the noise power, a systematic
-error of ≥ √24 ≈ 4.9 σ at every point, so the model does not describe the data. Standard
-errors from the data's noise then understate the real error at least that much, and values
-many standard errors from the truth are to be expected; no design verdict rests on it."""
-MISSED_SWEEP_FACTOR = 3.0
-"""A sweep whose ratio is above GOOD_MISFIT_RATIO and this many times the median ratio of the
-other sweeps is named as missed, even when the set as a whole is not poor."""
 GRADES = ("good", "marginal", "poor")
 
 
@@ -311,8 +298,6 @@ def _worst_band(f_Hz: np.ndarray, r: np.ndarray, bins: int = 10, key: str = "rms
     return best or {"start_Hz": float(f_Hz[0]), "stop_Hz": float(f_Hz[-1]), key: 0.0}
 
 
-CORRELATION_WARNING = 0.5
-
 
 def sweep_misfit(measured: np.ndarray, residual: np.ndarray) -> tuple[np.ndarray, float, float]:
     """(residual in units of the data's error, data noise, misfit ratio) of one sweep.
@@ -398,7 +383,7 @@ def build_result(outcome: FitOutcome, sweeps: list[Sweep]) -> FitResult:
     for q in qualities:
         if q.label in missed:
             warnings.append(_missed_warning(q))
-        elif q.residual_correlation > CORRELATION_WARNING and q.misfit_ratio > GOOD_MISFIT_RATIO:
+        elif q.residual_correlation > SYSTEMATIC_CORRELATION and q.misfit_ratio > GOOD_MISFIT_RATIO:
             warnings.append(
                 f"{q.label}: the residuals follow a pattern along frequency (lag-1 correlation "
                 f"{q.residual_correlation:.2f}, misfit {q.misfit_ratio:.3g}× the noise): the model leaves "

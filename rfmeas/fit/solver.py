@@ -61,6 +61,7 @@ from scipy.optimize import least_squares
 
 from rfmeas.errors import FitError
 from rfmeas.model.methods import s_from_impedance
+from rfmeas.fit.rules import EDGE_TOLERANCE_LOG
 from rfmeas.fit.start import start_candidates, sweeps_that_see
 from rfmeas.model.circuit import driving_point_admittance, reflection_from_admittance, s_from_y, \
     termination_admittance, y_elements
@@ -660,7 +661,7 @@ def _worst_undetermined(free: list[str], x: np.ndarray, cov: np.ndarray) -> tupl
         if n in ("L1_H", "L2_H"):
             continue  # inductances with sweeps behind them are always reported
         lo, hi = internal_bounds(n)
-        edge = x[j] - lo < 1e-3 or hi - x[j] < 1e-3
+        edge = x[j] - lo < EDGE_TOLERANCE_LOG or hi - x[j] < EDGE_TOLERANCE_LOG
         badness = log_stderr[j] if np.isfinite(log_stderr[j]) else np.inf
         rank = (edge, badness)  # a parameter at the edge goes first: it can spoil the others' errors
         if (edge or badness > UNDETERMINED_LOG_STDERR) and (worst is None or rank > worst[0]):

@@ -146,7 +146,7 @@ def _readings(sweeps: list[Sweep]) -> tuple[dict, int]:
                 add(f"Lthru{side}", l_port1)
                 add(f"Lthru{other}", l_port1 * (n_sq if side == "1" else 1.0 / n_sq))
             continue
-        if sweep.termination == "open":
+        if sweep.termination.is_open:
             l_open, c_open = band_fit_LC(f, z, z0)
             if l_open is None:
                 l_open = inductance_at_low_frequency(f, z)
@@ -160,13 +160,13 @@ def _readings(sweeps: list[Sweep]) -> tuple[dict, int]:
                     add(f"Rc{side}", 1.0 / g)
                 w0 = 2 * np.pi * f[0]
                 add(f"R{side}", float(np.real(z[0])) - (w0 * l_open) ** 2 * (g or 0.0))
-        elif sweep.termination == "short":
+        elif sweep.termination.is_short:
             l_sc, c_sc = band_fit_LC(f, z, z0, short=True)
             add(f"Lsc{side}", l_sc or inductance_at_low_frequency(f, z))
             add(f"Csc{side}", c_sc)
             add(f"Rsc{side}", float(np.real(z[0])))
         else:  # resistive load R on the other winding: mid-band 1/Zin ≈ n'²/R
-            r_load = float(sweep.termination)
+            r_load = sweep.termination.resistance_ohm
             fr = first_resonance_Hz(f, z)
             g = shunt_conductance_S(f, z, fr)
             if g:
@@ -174,12 +174,6 @@ def _readings(sweeps: list[Sweep]) -> tuple[dict, int]:
             l_in, _ = band_fit_LC(f, z, z0)
             add(f"Lload{side}", l_in)
     return est, polarity
-
-
-def estimate_start(sweeps: list[Sweep]) -> tuple[dict, int]:
-    """Start values for every circuit parameter, and the winding polarity (+1 / -1)."""
-    starts, polarity = start_candidates(sweeps)
-    return starts[0], polarity
 
 
 CAPACITANCE_SPLITS = ((1 / 3, 1 / 3, 1 / 3), (0.8, 0.1, 0.1), (0.1, 0.8, 0.1), (0.1, 0.1, 0.8))
@@ -258,6 +252,6 @@ def sweeps_that_see(sweeps: list[Sweep], winding: str) -> bool:
     for s in sweeps:
         if s.is_two_port or s.port1 == winding:
             return True
-        if other_winding(s.port1) == winding and s.termination not in ("open", "short"):
+        if other_winding(s.port1) == winding and s.termination.is_load:
             return True
     return False

@@ -670,7 +670,7 @@ def _manifest_for_files(measurement, names: list[str]) -> str:
         if sweep.port2 is not None and not sweep.is_through_method:
             entry["port2"] = sweep.port2
         else:
-            entry["termination"] = sweep.termination
+            entry["termination"] = sweep.termination.to_json()
         if sweep.is_through_method:
             entry["method"] = sweep.method
         doc["sweep"].append(entry)
@@ -695,12 +695,9 @@ def record_sources(measurement) -> tuple[str | None, list[tuple[str, bytes]]]:
 
     inside, outside = {}, {}
     for sweep in sweeps:
-        if base is not None and sweep.path:
-            try:
-                inside.setdefault(key(sweep), Path(sweep.path).resolve().relative_to(base).as_posix())
-                continue
-            except ValueError:
-                pass
+        if base is not None and sweep.path and Path(sweep.path).resolve().is_relative_to(base):
+            inside.setdefault(key(sweep), Path(sweep.path).resolve().relative_to(base).as_posix())
+            continue
         bare = Path(sweep.path).name if sweep.path else (sweep.label or "sweep.s1p")
         outside.setdefault(key(sweep), f"{EXTERNAL_FOLDER}/{bare}" if base is not None else bare)
     taken = {FALLBACK_MANIFEST_NAME, *inside.values()}

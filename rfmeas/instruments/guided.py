@@ -12,6 +12,7 @@ from dataclasses import dataclass
 
 from rfmeas.errors import InputError
 from rfmeas.instruments.simulation import Wiring
+from rfmeas.model.termination import Termination
 
 
 @dataclass(frozen=True)
@@ -33,22 +34,21 @@ class PlannedSweep:
         if self.port2:
             return f"Connect the {self.port1} to port 1 and the {self.port2} to port 2."
         other = "secondary" if self.port1 == "primary" else "primary"
-        if self.termination == "open":
+        termination = Termination.parse(self.termination or "open", self.file)
+        if termination.is_open:
             rest = f"leave the {other} open"
-        elif self.termination == "short":
+        elif termination.is_short:
             rest = f"short the {other} with a short, low-inductance link"
         else:
-            rest = f"terminate the {other} in {self.termination} ohms"
+            rest = f"terminate the {other} in {termination.resistance_ohm:g} ohms"
         return f"Connect the {self.port1} to {where} and {rest}."
 
     def to_dict(self) -> dict:
         entry = {"file": self.file, "port1": self.port1}
         if self.port2:
             entry["port2"] = self.port2
-        elif self.termination in ("open", "short"):
-            entry["termination"] = self.termination
         else:
-            entry["termination"] = float(self.termination)
+            entry["termination"] = Termination.parse(self.termination or "open", self.file).to_json()
         return entry
 
 

@@ -25,6 +25,7 @@ import numpy as np
 
 from rfmeas.errors import InputError
 from rfmeas.model import TransformerParams, input_impedance, reflection, s_matrix
+from rfmeas.model.termination import Termination
 from rfmeas.instruments.acquisition import ONE_PORT, TWO_PORT, Z0_OHM, commanded_frequency_Hz
 from rfmeas.instruments.profiles import Profile
 from rfmeas.instruments.replies import format_point, format_trace
@@ -60,12 +61,11 @@ class Wiring:
             raise InputError(f"simulated port 1 winding must be primary or secondary (got '{self.port1}')")
         if self.ports not in (1, 2):
             raise InputError(f"a simulated sweep has 1 or 2 ports (got {self.ports})")
-        if self.termination not in ("open", "short"):
-            try:
-                float(self.termination)
-            except ValueError:
-                raise InputError(f"simulated termination must be open, short or a resistance in ohms "
-                                 f"(got '{self.termination}')") from None
+        try:
+            Termination.parse(self.termination, "simulated")
+        except InputError:
+            raise InputError(f"simulated termination must be open, short or a resistance in ohms "
+                             f"(got '{self.termination}')") from None
 
 
 @dataclass(frozen=True)

@@ -32,6 +32,7 @@ from rfmeas.judge.design import DesignCheck, DesignFacts, check_design, is_desig
 from rfmeas.magnetics import effective_permeability, geometry_from_table, nH_per_turn2_to
 from rfmeas.model.params import TransformerParams
 from rfmeas.fit.result import checked_stderr
+from rfmeas.measurement.sweep import DEFAULT_REACTANCE_FACTOR, DEFAULT_RETURN_LOSS_DB
 from rfmeas.model.response import band_response, minimum_return_loss_dB, open_circuit_voltage_ratio, \
     reactance_limit_Hz, return_loss_dB, self_resonance_Hz
 from rfmeas.units import format_engineering as eng
@@ -39,8 +40,6 @@ from rfmeas.units import format_engineering as eng
 log = logging.getLogger(__name__)
 
 DEFAULT_SOURCE_OHM = 50.0
-DEFAULT_REACTANCE_FACTOR = 4.0
-DEFAULT_RETURN_LOSS_DB = 15.0
 _CAPACITANCES = ("C1_F", "C2_F", "C12_F")
 
 # figure scalar -> (parameters without which it has no value, parameters without which it has no stderr)

@@ -22,6 +22,7 @@ from dataclasses import asdict, dataclass
 import numpy as np
 
 from rfmeas.errors import InputError
+from rfmeas.measurement.sweep import DEFAULT_REACTANCE_FACTOR
 
 log = logging.getLogger(__name__)
 
@@ -143,7 +144,7 @@ def _parallel(a_ohm: float, b_ohm: float) -> float:
 
 
 def plan_turns(source_impedance_ohm: float, load_impedance_ohm: float, lowest_frequency_Hz: float,
-               al_nH_per_turn2: float, reactance_factor: float = 4.0,
+               al_nH_per_turn2: float, reactance_factor: float = DEFAULT_REACTANCE_FACTOR,
                highest_frequency_Hz: float | None = None, max_turns: int = 60,
                alternatives: int = 5, ratio_tolerance_percent: float = 1.0) -> TurnsPlan:
     """Plan whole-turn windings; see the module docstring for the rules."""

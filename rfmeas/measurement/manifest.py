@@ -12,6 +12,7 @@ from rfmeas.errors import InputError
 from rfmeas.limits import check_range
 from rfmeas.usertext import plain
 from rfmeas.io.strict import check_keys, read_toml
+from rfmeas.model.termination import Termination
 from rfmeas.measurement.sweep import (WINDINGS, DesignTarget, MeasurementSet, Sweep, check_sweep_count, other_winding,
                      refuse_repeated_sweeps, thin_for_fit)
 
@@ -34,25 +35,6 @@ def _number(table: dict, key: str, where: str, path, positive=True, integer=Fals
     if not math.isfinite(float(value)) or (positive and value <= 0):
         raise InputError(f"{where}.{key} must be a positive number, not {value!r}", path)
     return int(value) if integer else float(value)
-
-
-def parse_termination(value, where: str, path) -> str | float:
-    """'open' | 'short' | a resistance in ohms (number, or text such as '200' or '1k')."""
-    if isinstance(value, str):
-        text = value.strip().lower()
-        if text in ("open", "short"):
-            return text
-        from rfmeas.units import parse_engineering
-
-        try:
-            value = parse_engineering(text.replace("ohms", "").replace("ohm", "").replace("ω", ""))
-        except InputError:
-            raise InputError(f"{where}.termination must be 'open', 'short' or a resistance in ohms, "
-                             f"not {value!r}", path) from None
-    if isinstance(value, bool) or not isinstance(value, (int, float)) or not math.isfinite(value) or value <= 0:
-        raise InputError(f"{where}.termination must be 'open', 'short' or a positive resistance in ohms, "
-                         f"not {value!r}", path)
-    return float(value)
 
 
 def load_sweep(file_path: Path, port1: str, termination=None, port2: str | None = None,
@@ -242,7 +224,7 @@ def load_manifest(path: str | Path) -> MeasurementSet:
                 raise InputError(f"{where}: port1 and port2 must be different windings", path)
         termination = None
         if "termination" in entry:
-            termination = parse_termination(entry["termination"], where, path)
+            termination = Termination.parse(entry["termination"], where, path)
         label = entry.get("label")
         if label is not None and not isinstance(label, str):
             raise InputError(f"{where}.label must be a string", path)
@@ -279,7 +261,7 @@ def measurement_set_from_files(paths: list[str | Path], turns: tuple[int, int] |
     one-port files are `port1` with the other winding as `termination`."""
     sweeps = []
     check_sweep_count(len(paths))
-    term = parse_termination(termination, "--termination", None)
+    term = Termination.parse(termination, "--termination", None)
     for p in paths:
         p = Path(p)
         if p.suffix.lower() == ".s2p":

@@ -8,7 +8,18 @@ from typing import Any
 
 import numpy as np
 
+from rfmeas.model.termination import Termination
+
 WINDINGS = ("primary", "secondary")
+
+# design defaults, used where the manifest's [design] table leaves them out
+DEFAULT_REACTANCE_FACTOR = 4.0
+"""Each winding's reactance at the lowest frequency is at least this × the impedance it works into
+(common practice)."""
+DEFAULT_RATIO_TOLERANCE_PERCENT = 2.0
+"""Allowed turns-ratio error of the design check."""
+DEFAULT_RETURN_LOSS_DB = 15.0
+"""Return-loss threshold of the band and of its design check."""
 
 
 def other_winding(winding: str) -> str:
@@ -20,8 +31,9 @@ class Sweep:
     """One measured sweep: a scikit-rf Network plus how the transformer was connected.
 
     port1        the winding on VNA port 1 ("primary" or "secondary")
-    termination  for a one-port sweep, what the other winding sees: "open",
-                 "short" or a resistance in ohms (float); None for a two-port sweep
+    termination  for a one-port sweep, what the other winding sees (a Termination;
+                 its JSON value "open", "short" or ohms is accepted and converted);
+                 None for a two-port sweep
     port2        for a two-port sweep, the winding on port 2; else None
     forward_only a two-port file whose S12/S22 were not measured
     unmeasured   S elements the file holds but did not measure (|S| <= -200 dB at
@@ -36,7 +48,7 @@ class Sweep:
 
     network: Any
     port1: str
-    termination: str | float | None = "open"
+    termination: Termination | None = Termination.open()
     port2: str | None = None
     forward_only: bool = False
     label: str = ""
@@ -48,6 +60,10 @@ class Sweep:
     fixture: str | None = None
     partial: bool = False
     unmeasured: tuple[str, ...] = ()
+
+    def __post_init__(self):
+        termination = None if self.port2 is not None else Termination.coerce(self.termination)
+        object.__setattr__(self, "termination", termination)
 
     @property
     def f_Hz(self) -> np.ndarray:
@@ -107,8 +123,7 @@ class Sweep:
         files give S11, S21); one-port sweeps see the port-1 winding with the other one
         terminated, as a reflection or through a two-port method (rfmeas.model.methods).
         """
-        from rfmeas.model.circuit import driving_point_admittance, reflection_from_admittance, s_from_y, \
-            termination_admittance
+        from rfmeas.model.circuit import driving_point_admittance, reflection_from_admittance, s_from_y
         from rfmeas.model.methods import s_from_impedance
 
         if self.port1 == "secondary":
@@ -118,7 +133,7 @@ class Sweep:
             s11, s21, s12, s22 = s_from_y(y11, y12, y22, z01, z02)
             parts = {"S11": s11, "S21": s21, "S12": s12, "S22": s22}
             return np.stack([parts[e] for e in self.elements], axis=-1)
-        yin = driving_point_admittance(y11, y12, y22, termination_admittance(self.termination))
+        yin = driving_point_admittance(y11, y12, y22, self.termination.admittance_S())
         if self.is_through_method:
             return s_from_impedance(self.method, 1.0 / yin, self.z0_ohm[0])[..., None]
         return reflection_from_admittance(yin, self.z0_ohm[0])[..., None]
@@ -152,10 +167,7 @@ class Sweep:
             return text + (" (forward only)" if self.forward_only else "")
         other = other_winding(self.port1)
         where = f"{self.port1} {self.method}" if self.is_through_method else f"{self.port1} on port 1"
-        if self.termination in ("open", "short"):
-            state = "open" if self.termination == "open" else "shorted"
-            return f"{where}, {other} {state}"
-        return f"{where}, {other} loaded by {float(self.termination):g} Ω"
+        return f"{where}, {other} {self.termination.describe()}"
 
     def to_dict(self) -> dict:
         f = self.f_Hz
@@ -165,7 +177,7 @@ class Sweep:
             "sha256": self.sha256,
             "port1": self.port1,
             "port2": self.port2,
-            "termination": self.termination,
+            "termination": None if self.termination is None else self.termination.to_json(),
             "forward_only": self.forward_only,
             "unmeasured": list(self.unmeasured),
             "method": self.method,
@@ -187,9 +199,9 @@ class DesignTarget:
     load_impedance_ohm: float | None = None
     lowest_frequency_Hz: float | None = None
     highest_frequency_Hz: float | None = None
-    reactance_factor: float = 4.0
-    ratio_tolerance_percent: float = 2.0
-    return_loss_dB: float = 15.0
+    reactance_factor: float = DEFAULT_REACTANCE_FACTOR
+    ratio_tolerance_percent: float = DEFAULT_RATIO_TOLERANCE_PERCENT
+    return_loss_dB: float = DEFAULT_RETURN_LOSS_DB
 
     @property
     def target_turns_ratio(self) -> float | None:
@@ -242,11 +254,9 @@ class MeasurementSet:
             if sweep.raw_bytes is None:
                 continue
             name = Path(sweep.path).name if sweep.path else sweep.label
-            if base is not None and sweep.path:
-                try:  # keep the path the manifest names the file by
-                    name = Path(sweep.path).resolve().relative_to(base).as_posix()
-                except ValueError:
-                    pass
+            # keep the path the manifest names the file by (a file outside its folder: the bare name)
+            if base is not None and sweep.path and Path(sweep.path).resolve().is_relative_to(base):
+                name = Path(sweep.path).resolve().relative_to(base).as_posix()
             out.append((name, sweep.raw_bytes))
         return out
 

@@ -7,6 +7,7 @@ from rfmeas.model.circuit import (
     reflection,
     s_matrix,
 )
+from rfmeas.model.termination import Termination
 
 __all__ = [
     "PARAMETER_NAMES",
@@ -15,4 +16,5 @@ __all__ = [
     "input_impedance",
     "reflection",
     "s_matrix",
+    "Termination",
 ]

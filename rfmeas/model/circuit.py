@@ -18,10 +18,7 @@ from __future__ import annotations
 import numpy as np
 
 from rfmeas.model.params import TransformerParams
-
-OPEN = 0.0
-SHORT = np.inf
-
+from rfmeas.model.termination import Termination
 
 CORE_LOSS_PLACEMENTS = ("magnetizing", "primary")
 """Where Rc sits: across the magnetising branch Lm (the design's model), or across the whole
@@ -101,15 +98,8 @@ def driving_point_admittance(y11, y12, y22, load_admittance_S):
 
 
 def termination_admittance(termination) -> float:
-    """'open' -> 0, 'short' -> inf, a resistance in ohms -> 1/R (siemens)."""
-    if termination == "open":
-        return OPEN
-    if termination == "short":
-        return SHORT
-    value = float(termination)
-    if value <= 0:
-        return SHORT
-    return 1.0 / value
+    """Admittance in siemens of a Termination (or its JSON value: 'open', 'short', ohms)."""
+    return Termination.coerce(termination).admittance_S()
 
 
 def input_impedance(params: TransformerParams, f_Hz, port1: str = "primary",

@@ -67,7 +67,7 @@ def winding_susceptance_S(params: TransformerParams, f_Hz, winding: str = "prima
     return np.imag(driving_point_admittance(y11, y12, y22, 0.0))
 
 
-def reactance_limit_Hz(inductance_H, impedance_ohm, factor=4.0):
+def reactance_limit_Hz(inductance_H, impedance_ohm, factor):
     """Lowest frequency at which 2π·f·L is still `factor` × the impedance: factor·R/(2π·L)."""
     return np.asarray(factor, float) * np.asarray(impedance_ohm, float) / (
         2.0 * math.pi * np.asarray(inductance_H, float))
@@ -212,7 +212,7 @@ class Response:
 
 
 def band_response(params: TransformerParams, source_ohm: float, load_ohm: float,
-                  return_loss_threshold_dB: float = 15.0) -> Response:
+                  return_loss_threshold_dB: float) -> Response:
     """Corners and return-loss band of `params` driven from `source_ohm` into `load_ohm`."""
     est = corner_estimates(params, source_ohm, load_ohm)
     f_low = est.magnetising_Hz

@@ -118,7 +118,7 @@ def spectra_sweep(analysis) -> int | None:
     ms = analysis.measurement
     turns = {"primary": ms.primary_turns, "secondary": ms.secondary_turns}
     for i, s in enumerate(ms.sweeps):
-        if not s.is_two_port and s.termination == "open" and turns.get(s.port1):
+        if not s.is_two_port and s.termination.is_open and turns.get(s.port1):
             return i
     return None
 

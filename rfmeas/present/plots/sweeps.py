@@ -103,9 +103,3 @@ def _plot_s_elements(top, phase, f, elements, measured, model):
     phase.set_ylim(-185, 185)
     phase.set_yticks([-180, -90, 0, 90, 180])
     top.legend(fontsize=8, frameon=False, ncol=2)
-
-
-def plot_all_sweeps(analysis) -> list:
-    """One figure per sweep, in manifest order."""
-    model = model_sweeps(analysis)
-    return [plot_sweep(analysis, i, model) for i in range(len(analysis.measurement.sweeps))]
