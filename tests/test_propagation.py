@@ -138,6 +138,7 @@ def test_no_covariance_and_failing_evaluation_say_why():
 
     got = propagate(_outcome(), breaks_next_to_the_fit)
     assert got.value == pytest.approx(L1 + L2) and got.stderr is None and "cannot be evaluated" in got.reason
+    assert "moving L2_H" in got.reason and "outside" in got.reason  # the failure itself is said
 
 
 def test_core_loss_placement_and_polarity_are_kept():

@@ -95,6 +95,7 @@ def propagate_all(outcome, func, needs: dict | None = None) -> dict[str, Propaga
     free, cov = physical_covariance(outcome)
     keys = list(base)
     jac = np.zeros((len(keys), len(free)))
+    failures: list[str] = []
     for j, name in enumerate(free):
         value = float(getattr(params, name))
         h = _step(name, value)
@@ -102,7 +103,8 @@ def propagate_all(outcome, func, needs: dict | None = None) -> dict[str, Propaga
         for sign in (1.0, -1.0):
             try:
                 d = func(params.replace(**{name: value + sign * h}))
-            except (ValueError, ArithmeticError):
+            except (ValueError, ArithmeticError) as exc:
+                failures.append(f"moving {name} by {sign * h:+.3g}: {exc}")
                 d = {}
             sides.append(np.array([float(d.get(k, math.nan)) for k in keys]))
         with np.errstate(invalid="ignore"):
@@ -125,8 +127,9 @@ def propagate_all(outcome, func, needs: dict | None = None) -> dict[str, Propaga
             continue
         g = jac[i]
         if not np.all(np.isfinite(g)):
+            why = f" ({failures[0]})" if failures else ""
             out[key] = Propagated(value, None, "no standard error: the quantity cannot be evaluated next to "
-                                               "the fitted values")
+                                               f"the fitted values{why}")
             continue
         used = g != 0
         sub = cov[np.ix_(used, used)]
