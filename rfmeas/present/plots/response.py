@@ -125,7 +125,7 @@ def plot_response(analysis, path=None):
                              style=CORNER_STYLES[kind] if inside else EXTRAPOLATED_STYLE)
         gain_ax.lines[-1].set_label(f"{kind} corners" if inside else "corner outside the sweep (extrapolated)")
         style.annotate_frequency(gain_ax, value, f"{kind} {format_engineering(value, 'Hz', 3)}"
-                                 + (" extrapolated" if not inside else ""), y=0.03 if kind == "3 dB" else 0.5)
+                                 + (" extrapolated" if not inside else ""), y=0.03 if kind == "3 dB" else 0.97)
     band = None if figures is None else figures.return_loss_band
     if band is not None:
         threshold = band.threshold_dB
@@ -145,7 +145,6 @@ def plot_response(analysis, path=None):
     rl_ax.set_ylabel("return loss (dB)")
     for ax in (gain_ax, rl_ax):
         style.frequency_axis(ax, label=ax is rl_ax)
-        ax.set_xlim(f[0], f[-1])
     gain_ax.set_title(f"fitted model between {source:g} Ω and {load:g} Ω ({how})", fontsize=10, loc="left")
     for ax in (gain_ax, rl_ax):
         style.place_legend(ax, fontsize=7)

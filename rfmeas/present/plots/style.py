@@ -235,6 +235,11 @@ def data_points_px(ax):
         xy = xy[np.all(np.isfinite(xy), axis=1)]
         if xy.size:
             chunks.append(line.get_transform().transform(xy))
+    renderer = ax.figure.canvas.get_renderer()
+    for text in ax.texts:  # value labels are kept clear of the legend too
+        box = text.get_window_extent(renderer)
+        xs, ys = np.linspace(box.x0, box.x1, 4), np.linspace(box.y0, box.y1, 8)
+        chunks.append(np.column_stack([np.repeat(xs, ys.size), np.tile(ys, xs.size)]))
     return np.concatenate(chunks) if chunks else np.empty((0, 2))
 
 
@@ -323,5 +328,6 @@ def decade_axis(ax, axis: str = "y", unit: str = "Ω") -> None:
 def annotate_frequency(ax, f_Hz: float, text: str, color: str | None = None, y: float = 0.98) -> None:
     """A small rotated value label beside a vertical marker at `f_Hz` (top of the axes)."""
     ax.annotate(text, xy=(f_Hz, y), xycoords=ax.get_xaxis_transform(), xytext=(2, 0),
-                textcoords="offset points", rotation=90, va="top", ha="left", fontsize=7,
+                textcoords="offset points", rotation=90, va="top" if y > 0.5 else "bottom", ha="left",
+                fontsize=7,
                 color=color or PALETTE["muted"], annotation_clip=False)
