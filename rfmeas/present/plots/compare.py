@@ -55,7 +55,7 @@ def plot_comparison(before, after, path=None, names: tuple[str, str] | None = No
     if not pairs:
         raise InputError("the two measurement sets have no sweep taken the same way to compare")
     fig, axes = style.new_figure(len(pairs), 1, height_in=2.6 * len(pairs) + 0.6, sharex=False,
-                                 margins={"hspace": 0.55})
+                                 margins={"hspace": 0.55, "top": 0.8})
     models = {"before": model_sweeps(before), "after": model_sweeps(after)}
     for ax, (i, j) in zip(axes[:, 0], pairs):
         for n, (tag, analysis, index) in enumerate((("before", before, i), ("after", after, j))):
@@ -78,7 +78,8 @@ def plot_comparison(before, after, path=None, names: tuple[str, str] | None = No
         style.frequency_axis(ax, label=ax is axes[-1, 0])
         ax.set_title(sweep.describe(), fontsize=9, loc="left")
     names = names or (record_name(before), record_name(after))
-    fig.suptitle(f"before: {names[0]}   →   after: {names[1]}", fontsize=10, x=0.02, ha="left")
+    fig.suptitle(f"before: {names[0]}\nafter: {names[1]}", fontsize=10, x=0.02, y=0.995, ha="left",
+                 va="top")
     for ax in axes[:, 0]:
         style.place_legend(ax, ncol=2)
     if path is not None:

@@ -219,17 +219,32 @@ def plot_core_spectra(analysis, model=None, path=None):
     al_ax = axes[0, 0]
     _pair_plot(al_ax, f, spectra["al_data"], spectra["al_model"], 0, "A_L")
     al_ax.set_ylabel("A_L (nH/turn²)")
+    limits = style.robust_limits(spectra["al_data"], include=spectra["al_model"])
+    if limits is not None:
+        al_ax.set_ylim(*limits)
     al_ax.set_title(f"{spectra['sweep']}, {spectra['turns']} turns; up to half the self-resonance",
                     fontsize=10, loc="left")
     if has_mu:
         mu_ax = axes[1, 0]
         mu_d, mu_m = spectra["mu_data"], spectra["mu_model"]
-        _pair_plot(mu_ax, f, mu_d.real, mu_m.real, 0, "mu_real", "µ′")
-        _pair_plot(mu_ax, f, -mu_d.imag, -mu_m.imag, 1, "mu_imag", "µ″")
+        # the same log scale as `rfmeas core` draws µ with; µ″ < 0 (noise) shown hollow, not dropped
+        real_colour, model_colour, _marker, _ls = style.pair(0)
+        loss_colour, loss_model_colour, _m2, loss_ls = style.pair(1)
+        mu_ax.plot(f, np.where(mu_d.real > 0, mu_d.real, np.nan), color=real_colour,
+                   **dict(style.DATA_STYLE, marker="o"), label="µ′ measured", gid="data:mu_real")
+        mu_ax.plot(f, mu_m.real, color=model_colour, **style.MODEL_STYLE, label="µ′ model", gid="model:mu_real")
+        style.plot_loss_part(mu_ax, f, -mu_d.imag, loss_colour, "µ″ measured", "data:mu_imag")
+        mu_ax.plot(f, np.where(-mu_m.imag > 0, -mu_m.imag, np.nan), color=loss_model_colour,
+                   **dict(style.MODEL_STYLE, linestyle=loss_ls), label="µ″ model", gid="model:mu_imag")
+        mu_ax.set_yscale("log")
+        limits = style.robust_limits(np.concatenate([mu_d.real, np.abs(mu_d.imag)]), log=True,
+                                     include=np.concatenate([mu_m.real, -mu_m.imag]))
+        if limits is not None:
+            mu_ax.set_ylim(*limits)
         mu_ax.set_ylabel("relative permeability")
     for ax in axes[:, 0]:
         style.frequency_axis(ax, label=ax is axes[-1, 0])
-        ax.legend(fontsize=8, frameon=False)
+        style.place_legend(ax, fontsize=7)
     if path is not None:
         style.save_figure(fig, path)
     return fig

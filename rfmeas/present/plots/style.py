@@ -329,5 +329,52 @@ def annotate_frequency(ax, f_Hz: float, text: str, color: str | None = None, y: 
     """A small rotated value label beside a vertical marker at `f_Hz` (top of the axes)."""
     ax.annotate(text, xy=(f_Hz, y), xycoords=ax.get_xaxis_transform(), xytext=(2, 0),
                 textcoords="offset points", rotation=90, va="top" if y > 0.5 else "bottom", ha="left",
-                fontsize=7,
-                color=color or PALETTE["muted"], annotation_clip=False)
+                fontsize=7, color=color or PALETTE["muted"], annotation_clip=False,
+                bbox={"facecolor": "white", "edgecolor": "none", "pad": 0.6, "alpha": 0.8})
+
+
+def robust_limits(values, log: bool = False, percentiles=(1.0, 99.0), pad: float = 0.08,
+                  include=()) -> tuple[float, float] | None:
+    """Axis limits from a percentile range of `values` (so a few wild points cannot set the scale).
+
+    `include` are values that must stay in view (a model curve, a plateau). On a
+    log axis only positive values count and the padding is in decades.
+    """
+    import numpy as np
+
+    v = np.asarray(values, float).ravel()
+    v = v[np.isfinite(v) & ((v > 0) if log else True)]
+    extra = np.asarray(list(include), float).ravel()
+    extra = extra[np.isfinite(extra) & ((extra > 0) if log else True)]
+    if v.size == 0 and extra.size == 0:
+        return None
+    lo_hi = [np.percentile(v, percentiles[0]), np.percentile(v, percentiles[1])] if v.size else []
+    lo, hi = float(np.min(np.concatenate([lo_hi, extra]))), float(np.max(np.concatenate([lo_hi, extra])))
+    if log:
+        lo, hi = np.log10(lo), np.log10(hi)
+        span = max(hi - lo, 0.3)
+        return 10 ** (lo - pad * span - 0.05), 10 ** (hi + pad * span + 0.05)
+    span = (hi - lo) or abs(hi) or 1.0
+    return lo - pad * span, hi + pad * span
+
+
+def plot_loss_part(ax, f_Hz, loss, color: str, label: str, gid: str, marker: str = "s"):
+    """µ″ (or any loss part) on a log axis: positive points filled, negative ones as hollow red triangles at |value|.
+
+    Noise makes a small loss part come out below zero; a log axis cannot show
+    it, and dropping it would hide that the value is not resolved there.
+    Returns the number of negative points shown.
+    """
+    import numpy as np
+
+    loss = np.asarray(loss, float)
+    positive = np.where(loss > 0, loss, np.nan)
+    negative = np.where(loss < 0, -loss, np.nan)
+    ax.plot(f_Hz, positive, linestyle="none", marker=marker, markersize=2.2, color=color,
+            markerfacecolor=color, markeredgewidth=0.0, alpha=0.85, label=label, gid=gid)
+    count = int(np.count_nonzero(np.isfinite(negative)))
+    if count:
+        ax.plot(f_Hz, negative, linestyle="none", marker="v", markersize=3.2, markerfacecolor="none",
+                markeredgecolor=PALETTE["fail"], markeredgewidth=0.7,
+                label=f"{label.split(' ')[0]} < 0, drawn at |value| ({count} points)", gid=f"{gid}-negative")
+    return count
