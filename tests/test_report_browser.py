@@ -247,3 +247,56 @@ def test_report_sections_in_order_and_version_shown(page):
     from rfmeas import __version__
 
     assert f"rfmeas {__version__}" in text
+
+
+LAYOUT_FACTS = """(() => {
+    scrollTo(0, 0);
+    const table = document.getElementById('verdicts');
+    const box = table.getBoundingClientRect();
+    const lines = cell => {  // how many lines a cell's text takes: distinct tops of its line boxes
+        const range = document.createRange();
+        range.selectNodeContents(cell);
+        return new Set(Array.from(range.getClientRects()).map(r => Math.round(r.top))).size;
+    };
+    const short = Array.from(table.querySelectorAll('td.state, td.num'))
+        .map(c => ({text: c.innerText, lines: lines(c)}));
+    return {scrollWidth: document.documentElement.scrollWidth, innerWidth: innerWidth,
+            innerHeight: innerHeight, top: box.top, bottom: box.bottom, left: box.left, right: box.right,
+            short: short};
+})()"""
+
+
+@pytest.mark.parametrize("width", [1280, 800])
+def test_layout_at_common_window_widths(page, width):
+    """Screenshots at 1280 and 800 px: no sideways scroll, verdicts on the first screen, short cells unwrapped."""
+    try:
+        page.call("Emulation.setDeviceMetricsOverride", width=width, height=VIEWPORT[1],
+                  deviceScaleFactor=1, mobile=False)
+        facts = page.evaluate(LAYOUT_FACTS)
+        image = screenshot(page)
+        assert image.shape[1] == width
+        assert facts["scrollWidth"] <= facts["innerWidth"], facts  # no horizontal scroll bar
+        assert 0 <= facts["top"] and facts["bottom"] <= facts["innerHeight"], facts  # verdicts on screen one
+        region = image[int(facts["top"]):int(facts["bottom"]), int(facts["left"]):int(facts["right"])]
+        assert (region < 128).mean() > 0.01  # and drawn there
+        if width >= 1280:
+            wrapped = [c for c in facts["short"] if c["text"].strip() and c["lines"] != 1]
+            assert facts["short"] and wrapped == [], wrapped
+    finally:
+        page.call("Emulation.setDeviceMetricsOverride", width=VIEWPORT[0], height=VIEWPORT[1],
+                  deviceScaleFactor=1, mobile=False)
+
+
+def test_pdf_is_a4_and_keeps_the_cautions_whole(demo_report, tmp_path):
+    """The printed report: A4 pages (595 × 842 pt, ISO 216), the caution box not split across pages."""
+    from rfmeas.present.report.pdf import print_pdf
+
+    pdf = print_pdf(demo_report, tmp_path / "report.pdf").read_bytes()
+    boxes = re.findall(rb"/MediaBox\s*\[\s*0\s+0\s+([\d.]+)\s+([\d.]+)\s*\]", pdf)
+    assert boxes
+    for w, h in boxes:
+        assert abs(float(w) - 595.3) < 2 and abs(float(h) - 841.9) < 2, (w, h)
+    html = demo_report.read_text(encoding="utf-8")
+    assert "@page { size: A4" in html
+    cautions_css = re.search(r"\.cautions \{[^}]*\}", html).group(0)
+    assert "break-inside: avoid" in cautions_css

@@ -5,7 +5,8 @@ from __future__ import annotations
 import numpy as np
 
 from rfmeas.units import format_engineering
-from rfmeas.present.plots.style import PALETTE, close, engineering_axis, new_figure, save_figure
+from rfmeas.present.plots.style import (PALETTE, close, engineering_axis, new_figure, place_legend,
+                                        plot_loss_part, robust_limits, save_figure)
 
 MODEL_POINTS = 400
 
@@ -22,11 +23,10 @@ def plot_permeability(analysis, path=None):
     if analysis.trustworthy_band_Hz is not None:
         lo, hi = analysis.trustworthy_band_Hz
         ax.axvspan(lo, hi, color=PALETTE["band"], alpha=0.6, lw=0, label="trustworthy band", zorder=0)
-    # log axes cannot show µ'' ≤ 0 (noise at the low end); those points are masked, not altered
+    # log axes cannot show µ ≤ 0: µ′ ≤ 0 is masked; µ″ < 0 (noise at the low end) is drawn hollow at |µ″|
     real = np.where(analysis.mu_real > 0, analysis.mu_real, np.nan)
-    imag = np.where(analysis.mu_imag > 0, analysis.mu_imag, np.nan)
     ax.plot(f, real, ".", color=PALETTE["data"], ms=2, label="µ′ measured", gid="measured-real")
-    ax.plot(f, imag, "x", color=PALETTE["third"], ms=2, label="µ″ measured", gid="measured-imag")
+    plot_loss_part(ax, f, analysis.mu_imag, PALETTE["third"], "µ″ measured", "measured-imag")
     model_f = np.geomspace(f[0], f[-1], MODEL_POINTS)
     mu = analysis.model_permeability(model_f)
     ax.plot(model_f, mu.real, "-", color=PALETTE["model"], lw=1.6,
@@ -42,10 +42,12 @@ def plot_permeability(analysis, path=None):
         ax.axvline(fr, color=PALETTE["muted"], lw=0.8, ls=":", label="µ″ peak")
     ax.set_xscale("log")
     ax.set_yscale("log")
-    # scale to the trustworthy points and the model: unresolved points can be wild
-    shown = real[analysis.trustworthy] if analysis.trustworthy.any() else real
-    top = np.nanmax(np.concatenate([shown, mu.real, [1.0]]))
-    ax.set_ylim(top * 1e-3, top * 2)
+    # scale to a percentile range of the trustworthy points and the model: unresolved points can be wild
+    keep = analysis.trustworthy if analysis.trustworthy.any() else np.ones(f.size, bool)
+    limits = robust_limits(np.concatenate([real[keep], np.abs(analysis.mu_imag[keep])]), log=True,
+                           include=np.concatenate([mu.real, -mu.imag]))
+    if limits is not None:
+        ax.set_ylim(limits[0], limits[1])
     engineering_axis(ax, "x", "Hz")
     ax.set_xlabel("frequency")
     ax.set_ylabel("relative permeability  µ = µ′ − jµ″")
@@ -53,7 +55,7 @@ def plot_permeability(analysis, path=None):
     source = "" if analysis.initial_permeability_source == "plateau" else " (extrapolated)"
     ax.set_title(f"µi {analysis.initial_permeability:.4g}{source}, {peak}, {analysis.turns} turns",
                  fontsize=10)
-    ax.legend(fontsize=8, loc="lower left")
+    place_legend(ax, fontsize=7)
     if path is not None:
         save_figure(fig, path)
         close(fig)

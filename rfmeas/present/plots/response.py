@@ -55,19 +55,52 @@ def transducer_response(params, f_Hz, source_ohm: float, load_ohm: float):
         return 20 * np.log10(np.abs(s[:, 1, 0])), -20 * np.log10(np.abs(s[:, 0, 0]))
 
 
-def response_frequencies(analysis) -> np.ndarray:
+def swept_range(analysis) -> tuple[float, float]:
+    """Lowest and highest swept frequency over all sweeps (Hz)."""
     lo = min(float(s.f_Hz.min()) for s in analysis.measurement.sweeps)
     hi = max(float(s.f_Hz.max()) for s in analysis.measurement.sweeps)
+    return lo, hi
+
+
+CORNERS = (("low_frequency_corner_1dB_Hz", "1 dB"), ("high_frequency_corner_1dB_Hz", "1 dB"),
+           ("low_frequency_corner_3dB_Hz", "3 dB"), ("high_frequency_corner_3dB_Hz", "3 dB"))
+# in-sweep corners: one line style per corner kind; any corner outside the sweep is dashed
+CORNER_STYLES = {"1 dB": "-", "3 dB": ":"}
+EXTRAPOLATED_STYLE = "--"
+
+
+def response_corners(analysis) -> list[tuple[str, str, float, bool]]:
+    """(figure key, '1 dB' or '3 dB', frequency Hz, inside the swept range) of each corner found."""
+    lo, hi = swept_range(analysis)
+    out = []
+    for key, kind in CORNERS:
+        value = figure_value(analysis.figures, key)
+        if value is not None:
+            out.append((key, kind, value, lo <= value <= hi))
+    return out
+
+
+def response_frequencies(analysis) -> np.ndarray:
+    """The swept range, widened to take in corners found outside it (extrapolated)."""
+    lo, hi = swept_range(analysis)
+    for _key, _kind, value, _inside in response_corners(analysis):
+        lo, hi = min(lo, value / 1.25), max(hi, value * 1.25)
     return np.geomspace(lo, hi, RESPONSE_POINTS)
 
 
 def plot_response(analysis, path=None):
     """Gain and return loss of the fitted model, design band shaded, 1 dB / 3 dB corners marked.
 
-    Lines carry gids "model:gain" and "model:return_loss"; corner markers "marker:<label>".
+    Lines carry gids "model:gain" and "model:return_loss"; corner markers
+    "marker:<side> <1 dB|3 dB> corner" (" (extrapolated)" appended, and drawn
+    dashed, when the corner lies outside the swept range, where the plot is
+    widened to show it and the unswept part is greyed).
     """
+    from rfmeas.units import format_engineering
+
     source, load, how = response_terminations(analysis)
     f = response_frequencies(analysis)
+    swept_lo, swept_hi = swept_range(analysis)
     gain_dB, return_loss_dB = transducer_response(analysis.fit.params, f, source, load)
     fig, axes = style.new_figure(2, 1, height_ratios=[1, 1], height_in=5.0)
     gain_ax, rl_ax = axes[:, 0]
@@ -77,27 +110,33 @@ def plot_response(analysis, path=None):
         if design is not None:
             style.mark_band(ax, design.lowest_frequency_Hz, design.highest_frequency_Hz,
                             label="design band")
+        for a, b in ((f[0], swept_lo), (swept_hi, f[-1])):
+            if b > a:
+                ax.axvspan(a, b, facecolor="#e6e6e6", alpha=0.7, lw=0, zorder=0, label="not swept")
     g, = gain_ax.plot(f, gain_dB, color=style.PALETTE["data"], **style.MODEL_STYLE, label="gain (model)")
     g.set_gid("model:gain")
     r, = rl_ax.plot(f, return_loss_dB, color=style.PALETTE["model"], **style.MODEL_STYLE,
                     label="return loss (model)")
     r.set_gid("model:return_loss")
-    for key, label, ls in (("low_frequency_corner_1dB_Hz", "1 dB corner", "--"),
-                           ("high_frequency_corner_1dB_Hz", "1 dB corner", "--"),
-                           ("low_frequency_corner_3dB_Hz", "3 dB corner", ":"),
-                           ("high_frequency_corner_3dB_Hz", "3 dB corner", ":")):
-        value = figure_value(figures, key)
-        if value is not None:
-            side = "low" if key.startswith("low") else "high"
-            style.mark_frequency(gain_ax, value, f"{side} {label}", style=ls)
+    for key, kind, value, inside in response_corners(analysis):
+        side = "low" if key.startswith("low") else "high"
+        extrapolated = "" if inside else " (extrapolated)"
+        style.mark_frequency(gain_ax, value, f"{side} {kind} corner{extrapolated}",
+                             style=CORNER_STYLES[kind] if inside else EXTRAPOLATED_STYLE)
+        gain_ax.lines[-1].set_label(f"{kind} corners" if inside else "corner outside the sweep (extrapolated)")
+        style.annotate_frequency(gain_ax, value, f"{kind} {format_engineering(value, 'Hz', 3)}"
+                                 + (" extrapolated" if not inside else ""), y=0.03 if kind == "3 dB" else 0.97)
     band = None if figures is None else figures.return_loss_band
     if band is not None:
         threshold = band.threshold_dB
         rl_ax.axhline(threshold, color=style.PALETTE["muted"], linestyle="--", linewidth=1.0,
-                      label=f"{threshold:g} dB")
+                      label=f"{threshold:g} dB return loss")
         for value in (band.start.value, band.stop.value):
             if isinstance(value, (int, float)) and math.isfinite(value):
-                rl_ax.axvline(value, color=style.PALETTE["third"], linestyle="-.", linewidth=1.0)
+                rl_ax.axvline(value, color=style.PALETTE["third"], linestyle="-.", linewidth=1.0,
+                              label=f"band edges (≥ {threshold:g} dB)")
+                style.annotate_frequency(rl_ax, value, format_engineering(value, "Hz", 3),
+                                         color=style.PALETTE["third"])
     finite_gain = gain_dB[np.isfinite(gain_dB)]
     gain_ax.set_ylim(max(float(finite_gain.min()) - 1, -30) if finite_gain.size else -30, 1)
     rl_ax.set_ylim(0, min(float(np.nanmax(np.where(np.isfinite(return_loss_dB), return_loss_dB, 0))) + 5,
@@ -106,8 +145,9 @@ def plot_response(analysis, path=None):
     rl_ax.set_ylabel("return loss (dB)")
     for ax in (gain_ax, rl_ax):
         style.frequency_axis(ax, label=ax is rl_ax)
-        ax.legend(fontsize=8, frameon=True, framealpha=0.85, edgecolor="none", loc="lower center")
     gain_ax.set_title(f"fitted model between {source:g} Ω and {load:g} Ω ({how})", fontsize=10, loc="left")
+    for ax in (gain_ax, rl_ax):
+        style.place_legend(ax, fontsize=7)
     if path is not None:
         style.save_figure(fig, path)
     return fig
@@ -179,17 +219,32 @@ def plot_core_spectra(analysis, model=None, path=None):
     al_ax = axes[0, 0]
     _pair_plot(al_ax, f, spectra["al_data"], spectra["al_model"], 0, "A_L")
     al_ax.set_ylabel("A_L (nH/turn²)")
+    limits = style.robust_limits(spectra["al_data"], include=spectra["al_model"])
+    if limits is not None:
+        al_ax.set_ylim(*limits)
     al_ax.set_title(f"{spectra['sweep']}, {spectra['turns']} turns; up to half the self-resonance",
                     fontsize=10, loc="left")
     if has_mu:
         mu_ax = axes[1, 0]
         mu_d, mu_m = spectra["mu_data"], spectra["mu_model"]
-        _pair_plot(mu_ax, f, mu_d.real, mu_m.real, 0, "mu_real", "µ′")
-        _pair_plot(mu_ax, f, -mu_d.imag, -mu_m.imag, 1, "mu_imag", "µ″")
+        # the same log scale as `rfmeas core` draws µ with; µ″ < 0 (noise) shown hollow, not dropped
+        real_colour, model_colour, _marker, _ls = style.pair(0)
+        loss_colour, loss_model_colour, _m2, loss_ls = style.pair(1)
+        mu_ax.plot(f, np.where(mu_d.real > 0, mu_d.real, np.nan), color=real_colour,
+                   **dict(style.DATA_STYLE, marker="o"), label="µ′ measured", gid="data:mu_real")
+        mu_ax.plot(f, mu_m.real, color=model_colour, **style.MODEL_STYLE, label="µ′ model", gid="model:mu_real")
+        style.plot_loss_part(mu_ax, f, -mu_d.imag, loss_colour, "µ″ measured", "data:mu_imag")
+        mu_ax.plot(f, np.where(-mu_m.imag > 0, -mu_m.imag, np.nan), color=loss_model_colour,
+                   **dict(style.MODEL_STYLE, linestyle=loss_ls), label="µ″ model", gid="model:mu_imag")
+        mu_ax.set_yscale("log")
+        limits = style.robust_limits(np.concatenate([mu_d.real, np.abs(mu_d.imag)]), log=True,
+                                     include=np.concatenate([mu_m.real, -mu_m.imag]))
+        if limits is not None:
+            mu_ax.set_ylim(*limits)
         mu_ax.set_ylabel("relative permeability")
     for ax in axes[:, 0]:
         style.frequency_axis(ax, label=ax is axes[-1, 0])
-        ax.legend(fontsize=8, frameon=False)
+        style.place_legend(ax, fontsize=7)
     if path is not None:
         style.save_figure(fig, path)
     return fig

@@ -211,3 +211,170 @@ def soften_chart(ax, color: str = "#b5b5b5") -> None:
     for text in ax.texts:
         text.set_fontsize(7)
         text.set_color("#555555")
+
+
+LEGEND_CORNERS = ("upper right", "upper left", "lower right", "lower left", "upper center",
+                  "lower center", "center right", "center left")
+
+
+def data_points_px(ax):
+    """Display coordinates (N×2) of every drawn data and model point of `ax`.
+
+    Lines count when they carry a gid other than "marker:…" (the gids every
+    plot gives its measured points and model curves); grid lines, band edges
+    and reference lines do not.
+    """
+    import numpy as np
+
+    chunks = []
+    for line in ax.get_lines():
+        gid = line.get_gid() or ""
+        if not gid or gid.startswith("marker:") or not line.get_visible():
+            continue
+        xy = np.column_stack([np.asarray(line.get_xdata(), float), np.asarray(line.get_ydata(), float)])
+        xy = xy[np.all(np.isfinite(xy), axis=1)]
+        if xy.size:
+            chunks.append(line.get_transform().transform(xy))
+    renderer = ax.figure.canvas.get_renderer()
+    for text in ax.texts:  # value labels are kept clear of the legend too
+        box = text.get_window_extent(renderer)
+        xs, ys = np.linspace(box.x0, box.x1, 4), np.linspace(box.y0, box.y1, 8)
+        chunks.append(np.column_stack([np.repeat(xs, ys.size), np.tile(ys, xs.size)]))
+    return np.concatenate(chunks) if chunks else np.empty((0, 2))
+
+
+def points_inside(box, points, pad_px: float = 2.0) -> int:
+    """How many of `points` (display coordinates) fall inside `box` (a Bbox), padded by `pad_px`."""
+    import numpy as np
+
+    if not len(points):
+        return 0
+    x, y = points[:, 0], points[:, 1]
+    return int(np.count_nonzero((x >= box.x0 - pad_px) & (x <= box.x1 + pad_px)
+                                & (y >= box.y0 - pad_px) & (y <= box.y1 + pad_px)))
+
+
+def _legend_entries(ax):
+    """Handles and labels with one entry per label (repeated labels drawn once)."""
+    handles, labels = ax.get_legend_handles_labels()
+    seen = {}
+    for handle, label in zip(handles, labels):
+        seen.setdefault(label, handle)
+    return list(seen.values()), list(seen.keys())
+
+
+def _grow_top(ax, share: float) -> None:
+    """Add headroom above the data: `share` of the current height (in log space on a log axis)."""
+    import math
+
+    lo, hi = ax.get_ylim()
+    if ax.get_yscale() == "log" and lo > 0 and hi > 0:
+        ax.set_ylim(lo, 10 ** (math.log10(hi) + share * (math.log10(hi) - math.log10(lo))))
+    else:
+        ax.set_ylim(lo, hi + share * (hi - lo))
+
+
+def place_legend(ax, tries: int = 4, **kwargs):
+    """A legend in the emptiest corner of `ax`, off the data; returns the Legend.
+
+    Tries each corner and keeps the first whose box covers no data point (in
+    display coordinates); when every corner is taken, it adds headroom above the
+    data and tries again, and as a last resort puts the legend outside the axes,
+    under them.
+    """
+    fig = ax.figure
+    renderer = fig.canvas.get_renderer()
+    handles, labels = _legend_entries(ax)
+    if not handles:
+        return None
+    options = dict({"fontsize": 7, "frameon": True, "framealpha": 0.9, "edgecolor": "none"}, **kwargs)
+    ax.get_ylim()  # settle the autoscaled limits before measuring
+    for attempt in range(tries):
+        points = data_points_px(ax)
+        for loc in LEGEND_CORNERS:
+            legend = ax.legend(handles, labels, loc=loc, **options)
+            if points_inside(legend.get_window_extent(renderer), points) == 0:
+                return legend
+        if attempt < tries - 1:
+            _grow_top(ax, 0.25)
+    legend = ax.legend(handles, labels, loc="upper left", bbox_to_anchor=(1.0, 1.0), **options)
+    return legend
+
+
+def decade_axis(ax, axis: str = "y", unit: str = "Ω") -> None:
+    """Log axis with a labelled tick at every decade it spans, in engineering notation.
+
+    Limits that hold fewer than two decades are widened to the decades around
+    them, so a reader always has two labelled decades to read a value between.
+    """
+    import math
+
+    from matplotlib.ticker import EngFormatter, LogLocator, NullFormatter
+
+    target = ax.yaxis if axis == "y" else ax.xaxis
+    get_lim, set_lim = (ax.get_ylim, ax.set_ylim) if axis == "y" else (ax.get_xlim, ax.set_xlim)
+    (ax.set_yscale if axis == "y" else ax.set_xscale)("log")
+    lo, hi = get_lim()
+    if lo > 0 and hi > lo:
+        decades = math.floor(math.log10(hi)) - math.ceil(math.log10(lo)) + 1
+        if decades < 2:
+            set_lim(min(lo, 10 ** math.floor(math.log10(lo))), max(hi, 10 ** math.ceil(math.log10(hi))))
+    target.set_major_locator(LogLocator(base=10, numticks=100))
+    target.set_minor_locator(LogLocator(base=10, subs=tuple(range(2, 10)), numticks=100))
+    target.set_major_formatter(EngFormatter(unit=unit, places=None, sep=" "))
+    target.set_minor_formatter(NullFormatter())
+
+
+def annotate_frequency(ax, f_Hz: float, text: str, color: str | None = None, y: float = 0.98) -> None:
+    """A small rotated value label beside a vertical marker at `f_Hz` (top of the axes)."""
+    ax.annotate(text, xy=(f_Hz, y), xycoords=ax.get_xaxis_transform(), xytext=(2, 0),
+                textcoords="offset points", rotation=90, va="top" if y > 0.5 else "bottom", ha="left",
+                fontsize=7, color=color or PALETTE["muted"], annotation_clip=False,
+                bbox={"facecolor": "white", "edgecolor": "none", "pad": 0.6, "alpha": 0.8})
+
+
+def robust_limits(values, log: bool = False, percentiles=(1.0, 99.0), pad: float = 0.08,
+                  include=()) -> tuple[float, float] | None:
+    """Axis limits from a percentile range of `values` (so a few wild points cannot set the scale).
+
+    `include` are values that must stay in view (a model curve, a plateau). On a
+    log axis only positive values count and the padding is in decades.
+    """
+    import numpy as np
+
+    v = np.asarray(values, float).ravel()
+    v = v[np.isfinite(v) & ((v > 0) if log else True)]
+    extra = np.asarray(list(include), float).ravel()
+    extra = extra[np.isfinite(extra) & ((extra > 0) if log else True)]
+    if v.size == 0 and extra.size == 0:
+        return None
+    lo_hi = [np.percentile(v, percentiles[0]), np.percentile(v, percentiles[1])] if v.size else []
+    lo, hi = float(np.min(np.concatenate([lo_hi, extra]))), float(np.max(np.concatenate([lo_hi, extra])))
+    if log:
+        lo, hi = np.log10(lo), np.log10(hi)
+        span = max(hi - lo, 0.3)
+        return 10 ** (lo - pad * span - 0.05), 10 ** (hi + pad * span + 0.05)
+    span = (hi - lo) or abs(hi) or 1.0
+    return lo - pad * span, hi + pad * span
+
+
+def plot_loss_part(ax, f_Hz, loss, color: str, label: str, gid: str, marker: str = "s"):
+    """µ″ (or any loss part) on a log axis: positive points filled, negative ones as hollow red triangles at |value|.
+
+    Noise makes a small loss part come out below zero; a log axis cannot show
+    it, and dropping it would hide that the value is not resolved there.
+    Returns the number of negative points shown.
+    """
+    import numpy as np
+
+    loss = np.asarray(loss, float)
+    positive = np.where(loss > 0, loss, np.nan)
+    negative = np.where(loss < 0, -loss, np.nan)
+    ax.plot(f_Hz, positive, linestyle="none", marker=marker, markersize=2.2, color=color,
+            markerfacecolor=color, markeredgewidth=0.0, alpha=0.85, label=label, gid=gid)
+    count = int(np.count_nonzero(np.isfinite(negative)))
+    if count:
+        ax.plot(f_Hz, negative, linestyle="none", marker="v", markersize=3.2, markerfacecolor="none",
+                markeredgecolor=PALETTE["fail"], markeredgewidth=0.7,
+                label=f"{label.split(' ')[0]} < 0, drawn at |value| ({count} points)", gid=f"{gid}-negative")
+    return count

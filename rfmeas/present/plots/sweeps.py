@@ -50,14 +50,19 @@ def plot_sweep(analysis, index: int, model=None, path=None):
         resid.axhline(quality.noise_estimate * np.sqrt(2.0), color=style.PALETTE["muted"],
                       linestyle=":", linewidth=1.0, label="noise estimate")
         band = quality.worst_band
-        resid.axvspan(band["start_Hz"], band["stop_Hz"], color=style.PALETTE["fail"], alpha=0.08, lw=0,
-                      label="worst tenth")
+        for ax in axes[:, 0]:  # the worst band through every panel, so the eye finds it above too
+            ax.axvspan(band["start_Hz"], band["stop_Hz"], facecolor=style.PALETTE["fail"],
+                       alpha=0.16 if ax is resid else 0.07, lw=0, zorder=0,
+                       label="worst tenth of the misfit" if ax is resid else None)
     resid.set_yscale("log")
     resid.set_ylabel("|model − data|", fontsize=9)
-    resid.legend(fontsize=7, loc="upper left", ncol=4, frameon=True, framealpha=0.85, edgecolor="none")
     for ax in axes[:, 0]:
         style.frequency_axis(ax, label=ax is resid)
+    if not sweep.is_two_port:
+        style.decade_axis(top, "y", "Ω")
     top.set_title(sweep_title(sweep), fontsize=10, loc="left")
+    style.place_legend(top, fontsize=8, ncol=1 if not sweep.is_two_port else 2)
+    style.place_legend(resid, ncol=3)
     if path is not None:
         style.save_figure(fig, path)
     return fig
@@ -75,13 +80,10 @@ def _plot_impedance(top, phase, f, sweep, s_data, s_model):
         tag = "Z" if ax is top else "phase"
         d.set_gid(f"data:{tag}")
         m.set_gid(f"model:{tag}")
-    top.set_yscale("log")
-    style.engineering_axis(top, "y", "Ω")
     top.set_ylabel("|Z|")
     phase.set_ylabel("phase of Z (°)")
     phase.set_ylim(-95, 95)
     phase.set_yticks([-90, -45, 0, 45, 90])
-    top.legend(fontsize=8, frameon=False)
 
 
 def _plot_s_elements(top, phase, f, elements, measured, model):
@@ -102,4 +104,3 @@ def _plot_s_elements(top, phase, f, elements, measured, model):
     phase.set_ylabel("phase of S (°)")
     phase.set_ylim(-185, 185)
     phase.set_yticks([-180, -90, 0, 90, 180])
-    top.legend(fontsize=8, frameon=False, ncol=2)
