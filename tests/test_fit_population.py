@@ -102,3 +102,19 @@ def test_written_unit_reads_back_as_simulated(tmp_path):
     residual = thru.network.s[:, 1, 0] - clean[:, 1, 0]
     # noise of 3e-4 per component: the rms difference is the noise, not a layout error
     assert 2e-4 < np.sqrt(np.mean(np.abs(residual) ** 2) / 2) < 4.5e-4
+
+
+THRU_SEED = 43
+
+
+def test_thru_only_units_are_never_silently_wrong(tmp_path):
+    # A thru alone leaves whole directions open (the core loss, the capacitance split, where
+    # the core loss sits): ten random thru-only units of issue 12's population, each either
+    # right within its standard errors or graded poor, never a wrong value with a small error bar.
+    report = []
+    for spec in pop.draw_population(10, THRU_SEED, quirks=False, sweeps="thru"):
+        truth = pop.write_unit(spec, tmp_path / spec.name)
+        verdict = pop.judge(truth, analyze_manifest(truth.manifest).to_dict())
+        if verdict.silent:
+            report.append(f"{spec.name} (Rc across {spec.core_loss}): {verdict.describe()}")
+    assert not report, "\n".join(report)

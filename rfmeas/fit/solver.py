@@ -543,24 +543,43 @@ def fit_sweeps(sweeps: list[Sweep]) -> FitOutcome:
         total_evals += evaluations
         runs[j] = (res, obj, score, weights)
     res, obj, score, weights = min(runs, key=lambda r: r[2])
-    agreement, disagree, spread = _start_agreement(runs, res, obj, coarse)
+    agreement, disagree, spread, start_shifts = _start_agreement(runs, res, obj, coarse, free)
     if "Rc_ohm" in free:
-        # The other place the core loss may sit: taken only when the sweeps clearly prefer it.
+        # The other place the core loss may sit: taken only when the sweeps clearly prefer it,
+        # tried from the chosen solution and from the best-screened start (the chosen solution
+        # may be the other placement's impostor).
         coarse.core_loss = "primary"
-        res2, obj2, score2, evaluations, weights2 = _robust_solve(coarse, free, fixed, res.x, START_BUDGET,
-                                                                  ROBUST_ROUNDS, weights)
-        total_evals += evaluations
+        alt = None
+        for x_try in (res.x, X0[int(np.argmin(costs))]):
+            tried = _robust_solve(coarse, free, fixed, x_try, START_BUDGET, ROBUST_ROUNDS, weights)
+            total_evals += tried[3]
+            if alt is None or tried[2] < alt[2]:
+                alt = tried
+            if tried[2] < score - PLACEMENT_DELTA_CHI2:
+                break
+        res2, obj2, score2, _, weights2 = alt
+        other = (res2, obj2)
         if score2 < score - PLACEMENT_DELTA_CHI2:
+            other = (res, obj)
             res, obj, weights = res2, obj2, weights2
             problem.core_loss = "primary"
             referred["Rc_ohm"] = ("across the whole primary inductance: these sweeps show the core loss "
                                   "outside the leakage, not across the magnetising branch alone")
         else:
             coarse.core_loss = "magnetizing"
+        if abs(score2 - score) <= COMPETITIVE_DELTA_CHI2:
+            # both placements fit about as well: what they disagree on is not known better than that
+            mine = _key_quantities(obj.values(res.x[None, :])[0])
+            theirs = _key_quantities(other[1].values(other[0].x[None, :])[0])
+            for k in mine:
+                spread[k] = max(spread.get(k, 0.0), abs(theirs[k] / mine[k] - 1.0))
+            start_shifts.append(dict(zip(free, (float(d) for d in other[0].x - res.x))))
+            disagree = disagree or any(abs(theirs[k] / mine[k] - 1.0) > AGREEMENT_TOLERANCE[k] for k in mine)
 
     # Local stage on every point, then hold what the data do not determine and refit.
     x = res.x
     probed: set[str] = set()
+    hidden: list[dict] = []  # what holding each unconstrained parameter would hide (see _hidden_by_holding)
     while True:
         res, obj, score, evaluations, weights = _robust_solve(problem, free, fixed, x, 200, ROBUST_ROUNDS, weights)
         total_evals += evaluations
@@ -588,6 +607,8 @@ def fit_sweeps(sweeps: list[Sweep]) -> FitOutcome:
         values = obj.values(res.x[None, :])[0]
         reason = ("pressed against the edge of its range: too small (or too large) to show in these sweeps"
                   if edge else "the sweeps do not constrain it")
+        if not edge:
+            hidden.append(_hidden_by_holding(free, j, cov))
         held[name] = (NEUTRAL.get(name, float(values[PARAMETER_NAMES.index(name)])), reason)
         fixed[name] = held[name][0]
         free.pop(j)
@@ -597,6 +618,10 @@ def fit_sweeps(sweeps: list[Sweep]) -> FitOutcome:
 
     cov = cov + _smooth_error_covariance(problem, res.jac, res.fun)
     cov = cov + _held_parameter_covariance(problem, obj, res, held, starts[0], max(1.0, weighted_chi2))
+    for extra in hidden:
+        cov = cov + _on_free(extra, free)
+    if start_shifts:
+        cov = cov + _start_spread_covariance(start_shifts, free)
     final_values = obj.values(res.x[None, :])[0]
     params = _to_params(final_values, polarity, problem.core_loss)
     residuals = problem.complex_residuals(final_values)
@@ -680,12 +705,17 @@ def _worst_undetermined(free: list[str], x: np.ndarray, cov: np.ndarray) -> tupl
     return (None, False) if worst is None else (worst[1], worst[2])
 
 
-def _start_agreement(runs, best_res, best_obj, problem) -> tuple[float, bool, dict]:
-    """Share of starts ending on the chosen solution; whether a competitive one ends elsewhere."""
+def _start_agreement(runs, best_res, best_obj, problem, free) -> tuple[float, bool, dict, list]:
+    """Share of starts ending on the chosen solution; whether a competitive one ends elsewhere.
+
+    Also returns, for each competitive start that ended elsewhere, its shift from
+    the chosen solution in internal coordinates (name -> shift), so the standard
+    errors can be widened to cover it (_start_spread_covariance).
+    """
     best_values = best_obj.values(best_res.x[None, :])[0]
     best = _key_quantities(best_values)
     best_score = _profile_score(problem, best_values)
-    agree, disagree, spread = 0, False, {}
+    agree, disagree, spread, shifts = 0, False, {}, []
     for res, obj, score, _ in runs:
         keys = _key_quantities(obj.values(res.x[None, :])[0])
         dev = {k: abs(keys[k] / best[k] - 1.0) for k in best}
@@ -695,7 +725,53 @@ def _start_agreement(runs, best_res, best_obj, problem) -> tuple[float, bool, di
             for k, d in dev.items():
                 spread[k] = max(spread.get(k, 0.0), float(d))
             disagree = disagree or not same
-    return agree / max(len(runs), 1), disagree, spread
+            if not same:
+                shifts.append(dict(zip(free, (float(d) for d in res.x - best_res.x))))
+    return agree / max(len(runs), 1), disagree, spread, shifts
+
+
+def _start_spread_covariance(shifts: list[dict], free: list[str]) -> np.ndarray:
+    """Covariance covering the starts that fit about as well but end elsewhere.
+
+    Each such start's shift δ from the chosen solution adds δ·δᵀ (in internal
+    coordinates): a key quantity the data leave ambiguous between two minima then
+    carries a standard error at least as large as the distance between them,
+    never a small error bar on one of them. Parameters held since then are left out.
+    """
+    out = np.zeros((len(free), len(free)))
+    for shift in shifts:
+        d = np.array([shift.get(n, 0.0) for n in free])
+        d = np.where(np.isfinite(d), d, 0.0)
+        out += np.outer(d, d)
+    return out
+
+
+def _hidden_by_holding(free: list[str], j: int, cov: np.ndarray) -> dict:
+    """What holding free parameter j hides from the others' covariance (name pair -> covariance).
+
+    Left free, parameter j (poorly determined, so about to be held) lets the others
+    move along with it: their covariance is the marginal one. Held, it is the
+    conditional one, smaller by c·cᵀ/σ_j² (c: their covariance with j). When the
+    data cannot pin j, the part it hides is what the others could be off by, so
+    it is kept and added back after the fit (_on_free). Unseen directions (NaN,
+    infinite) add nothing here: they are held for their own reason.
+    """
+    var = cov[j, j]
+    if not (np.isfinite(var) and var > 0):
+        return {}
+    c = np.array(cov[:, j], float)
+    c = np.where(np.isfinite(c), c, 0.0)
+    out = {}
+    for a, na in enumerate(free):
+        for b, nb in enumerate(free):
+            if a != j and b != j:
+                out[(na, nb)] = c[a] * c[b] / var
+    return out
+
+
+def _on_free(pairs: dict, free: list[str]) -> np.ndarray:
+    """A name-pair covariance (see _hidden_by_holding) on the current free parameters."""
+    return np.array([[pairs.get((a, b), 0.0) for b in free] for a in free])
 
 
 def _to_params(values: np.ndarray, polarity: int, core_loss: str = "magnetizing") -> TransformerParams:
