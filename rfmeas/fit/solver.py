@@ -102,6 +102,8 @@ MIN_RESIDUALS_PER_PARAMETER = 5
 AGREEMENT_TOLERANCE = {"primary_inductance_H": 0.01, "secondary_inductance_H": 0.01,
                        "leakage_inductance_H": 0.03, "effective_turns_ratio": 0.005}
 """Two starts ending this close in the key quantities found the same solution."""
+SETTLED_CHI2 = 1.5
+"""When the first two starts agree with a reduced χ² at most this, the remaining starts are skipped."""
 COMPETITIVE_DELTA_CHI2 = 25.0
 """A start whose χ² is within this of the best (after scaling by the reduced χ²) fits about as well."""
 SMOOTH_DEGREE = 4
@@ -183,6 +185,10 @@ class SweepProblem:
         self.measured = [s.measured()[i] for s, i in zip(sweeps, self.index)]
         self.sweep_weights = np.ones(len(sweeps))  # robust down-weighting of a sweep the model misses
         self.core_loss = "magnetizing"
+        # what predict needs of each sweep, read once (Sweep's properties are not free)
+        self._layout = [(s.port1 == "secondary", s.is_two_port, s.z0_ohm, s.elements, s.is_through_method,
+                         s.method, None if s.is_two_port else termination_admittance(s.termination))
+                        for s in sweeps]
         # sweeps sharing a frequency grid share one evaluation of the network
         self._grids: dict[bytes, int] = {}
         self.grid_of_sweep = []
@@ -206,21 +212,20 @@ class SweepProblem:
         ys = [y_elements(f[None, :], *cols, polarity=self.polarity, core_loss=self.core_loss)
               for f in self.grids]
         out = []
-        for sweep, g in zip(self.sweeps, self.grid_of_sweep):
+        for (swap, two_port, z0, elements, through, method, y_load), g in zip(self._layout, self.grid_of_sweep):
             y11, y12, y22 = ys[g]
-            if sweep.port1 == "secondary":
+            if swap:
                 y11, y22 = y22, y11
-            if sweep.is_two_port:
-                z01, z02 = sweep.z0_ohm
-                s11, s21, s12, s22 = s_from_y(y11, y12, y22, z01, z02)
+            if two_port:
+                s11, s21, s12, s22 = s_from_y(y11, y12, y22, *z0)
                 parts = {"S11": s11, "S21": s21, "S12": s12, "S22": s22}
-                out.append(np.stack([parts[e] for e in sweep.elements], axis=-1))
+                out.append(np.stack([parts[e] for e in elements], axis=-1))
             else:
-                yin = driving_point_admittance(y11, y12, y22, termination_admittance(sweep.termination))
-                if sweep.is_through_method:
-                    out.append(s_from_impedance(sweep.method, 1.0 / yin, sweep.z0_ohm[0])[..., None])
+                yin = driving_point_admittance(y11, y12, y22, y_load)
+                if through:
+                    out.append(s_from_impedance(method, 1.0 / yin, z0[0])[..., None])
                 else:
-                    out.append(reflection_from_admittance(yin, sweep.z0_ohm[0])[..., None])
+                    out.append(reflection_from_admittance(yin, z0[0])[..., None])
         return out
 
     def residual_rows(self, values: np.ndarray) -> np.ndarray:
@@ -270,13 +275,17 @@ class _Objective:
         self.base = np.array([fixed.get(n, 0.0) for n in PARAMETER_NAMES], dtype=float)
         self.evaluations = 0
         self._last = (None, None)
+        bounds = [internal_bounds(n) for n in free]
+        self._lo = np.array([lo - _MARGIN for lo, _ in bounds])
+        self._hi = np.array([hi if n == "k" else hi + _MARGIN  # k itself must stay positive
+                             for n, (_, hi) in zip(free, bounds)])
+        self._is_k = np.array([n == "k" for n in free], bool)
 
     def values(self, X: np.ndarray) -> np.ndarray:
         rows = np.repeat(self.base[None, :], X.shape[0], axis=0)
-        for j, (name, i) in enumerate(zip(self.free, self.index)):
-            lo, hi = internal_bounds(name)
-            upper = hi if name == "k" else hi + _MARGIN  # k itself must stay positive
-            rows[:, i] = to_physical(name, np.clip(X[:, j], lo - _MARGIN, upper))
+        if self.index:
+            e = np.exp(np.clip(X, self._lo, self._hi))
+            rows[:, self.index] = np.where(self._is_k, 1.0 - e, e)
         return rows
 
     def residuals(self, x: np.ndarray) -> np.ndarray:
@@ -536,6 +545,8 @@ def fit_sweeps(sweeps: list[Sweep]) -> FitOutcome:
         res, obj, score, evaluations, weights = _robust_solve(coarse, free, fixed, X0[i], START_BUDGET, 0)
         total_evals += evaluations
         runs.append((res, obj, score, weights))
+        if len(runs) == 2 and _settled(runs, coarse):
+            break
     # the most promising starts go on, re-weighted against sweeps the model misses
     for j in sorted(range(len(runs)), key=lambda r: runs[r][2])[:ROBUST_STARTS]:
         res, obj, score, evaluations, weights = _robust_solve(coarse, free, fixed, runs[j][0].x, START_BUDGET,
@@ -545,19 +556,11 @@ def fit_sweeps(sweeps: list[Sweep]) -> FitOutcome:
     res, obj, score, weights = min(runs, key=lambda r: r[2])
     agreement, disagree, spread, start_shifts = _start_agreement(runs, res, obj, coarse, free)
     if "Rc_ohm" in free:
-        # The other place the core loss may sit: taken only when the sweeps clearly prefer it,
-        # tried from the chosen solution and from the best-screened start (the chosen solution
-        # may be the other placement's impostor).
+        # The other place the core loss may sit: taken only when the sweeps clearly prefer it.
         coarse.core_loss = "primary"
-        alt = None
-        for x_try in (res.x, X0[int(np.argmin(costs))]):
-            tried = _robust_solve(coarse, free, fixed, x_try, START_BUDGET, ROBUST_ROUNDS, weights)
-            total_evals += tried[3]
-            if alt is None or tried[2] < alt[2]:
-                alt = tried
-            if tried[2] < score - PLACEMENT_DELTA_CHI2:
-                break
-        res2, obj2, score2, _, weights2 = alt
+        res2, obj2, score2, evaluations, weights2 = _robust_solve(coarse, free, fixed, res.x, START_BUDGET,
+                                                                  ROBUST_ROUNDS, weights)
+        total_evals += evaluations
         other = (res2, obj2)
         if score2 < score - PLACEMENT_DELTA_CHI2:
             other = (res, obj)
@@ -728,6 +731,21 @@ def _start_agreement(runs, best_res, best_obj, problem, free) -> tuple[float, bo
             if not same:
                 shifts.append(dict(zip(free, (float(d) for d in res.x - best_res.x))))
     return agree / max(len(runs), 1), disagree, spread, shifts
+
+
+def _settled(runs, problem) -> bool:
+    """The first two starts ended on the same key quantities, fitted down to the noise: no
+    further start is run (SETTLED_CHI2). Anything worse, or any disagreement, runs them all."""
+    keys = [_key_quantities(obj.values(res.x[None, :])[0]) for res, obj, _, _ in runs[:2]]
+    same = all(abs(keys[1][k] / keys[0][k] - 1.0) <= AGREEMENT_TOLERANCE[k] for k in keys[0])
+    if not same:
+        return False
+    n = np.array([2 * m.size for m in problem.measured], float)
+    for res, obj, _, _ in runs[:2]:
+        per_sweep = problem.sweep_chi2(obj.values(res.x[None, :])[0])
+        if float(np.sum(per_sweep * n) / np.sum(n)) > SETTLED_CHI2:
+            return False
+    return True
 
 
 def _start_spread_covariance(shifts: list[dict], free: list[str]) -> np.ndarray:
