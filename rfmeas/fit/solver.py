@@ -45,8 +45,13 @@ Standard errors: cov = (JᵀJ)⁻¹·max(1, χ²/dof) with J the weighted Jacobi
 plus what the white-noise errors leave out: the shift a smooth systematic
 error of the size the fit leaves unexplained could cause
 (_smooth_error_covariance), and the spread of the held parameters, in their
-linear coordinates, carried into the free ones (_held_parameter_covariance).
-Derived quantities follow by first-order propagation (rfmeas.fit.result).
+linear coordinates, carried into the free ones (_held_parameter_covariance),
+what holding an unconstrained parameter hides from the others (their marginal,
+not conditional, covariance: _hidden_by_holding), and the shifts to the starts
+and the other core-loss placement that fit about as well but end elsewhere
+(_start_spread_covariance): a value the data leave ambiguous never carries a
+small error bar. Derived quantities follow by first-order propagation
+(rfmeas.fit.result).
 """
 
 from __future__ import annotations
