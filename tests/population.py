@@ -205,10 +205,16 @@ _SPEC_FIELDS = {f.name for f in fields(UnitSpec)}
 _DRAWN = {"ratio", "one_minus_k", "corner_Hz"}
 
 
-def draw_unit(rng: np.random.Generator, name: str = "unit", **overrides) -> UnitSpec:
+def draw_unit(rng: np.random.Generator, name: str = "unit", quirks: bool = True, **overrides) -> UnitSpec:
     """One random unit. Overrides: any UnitSpec field, any TransformerParams field, or
     `ratio` (sqrt(L2/L1)), `one_minus_k`, `corner_Hz` (Rc / (2 pi L)); `sweeps` may be
-    a SUBSETS key."""
+    a SUBSETS key.
+
+    `quirks=False` gives issue 12's population exactly: noise, RI/MA/DB files in
+    Hz/kHz/MHz, forward-only thrus with their fillers, linear and log grids, both
+    core-loss placements, the sweep subsets; no calibration residue, no stitched
+    repeat, no option line in odd order, no Touchstone v2. The same draws are made,
+    so each unit is its quirky twin without the quirks."""
     unknown = set(overrides) - _PARAM_FIELDS - _SPEC_FIELDS - _DRAWN - {"sweeps"}
     if unknown:
         raise TypeError(f"unknown overrides {sorted(unknown)}")
@@ -245,6 +251,8 @@ def draw_unit(rng: np.random.Generator, name: str = "unit", **overrides) -> Unit
         "option_perm": tuple(int(i) for i in rng.permutation(4)),
         "noise_seed": int(rng.integers(2**31)),
     }
+    if not quirks:
+        d.update(calibration=None, stitch=False, odd_options=False, version=1)
     for key in ("L1_H", "ratio", "one_minus_k", "R1_ohm", "C1_F", "C2_F", "C12_F", "corner_Hz",
                 "polarity", "core_loss", "subset", "start_Hz", "stop_Hz", "points", "spacing", "noise",
                 "file_format", "file_unit", "version", "forward_only", "calibration", "noise_seed"):
@@ -281,10 +289,11 @@ def draw_unit(rng: np.random.Generator, name: str = "unit", **overrides) -> Unit
     return replace(spec, **rest) if rest else spec
 
 
-def draw_population(n: int, seed: int, **overrides) -> list[UnitSpec]:
-    """`n` units; unit i is drawn from its own stream (seed, i), so a prefix is stable."""
-    return [draw_unit(np.random.default_rng([seed, i]), name=f"unit-{seed}-{i:03d}", **overrides)
-            for i in range(n)]
+def draw_population(n: int, seed: int, quirks: bool = True, **overrides) -> list[UnitSpec]:
+    """`n` units; unit i is drawn from its own stream (seed, i), so a prefix is stable.
+    `quirks=False`: issue 12's population as specified (see draw_unit)."""
+    return [draw_unit(np.random.default_rng([seed, i]), name=f"unit-{seed}-{i:03d}", quirks=quirks,
+                      **dict(overrides)) for i in range(n)]
 
 
 # --------------------------------------------------------------------------- simulation

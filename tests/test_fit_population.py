@@ -102,3 +102,34 @@ def test_written_unit_reads_back_as_simulated(tmp_path):
     residual = thru.network.s[:, 1, 0] - clean[:, 1, 0]
     # noise of 3e-4 per component: the rms difference is the noise, not a layout error
     assert 2e-4 < np.sqrt(np.mean(np.abs(residual) ** 2) / 2) < 4.5e-4
+
+
+THRU_SEED = 43
+
+
+def test_thru_only_units_are_never_silently_wrong(tmp_path):
+    # A thru alone leaves whole directions open (the core loss, the capacitance split, where
+    # the core loss sits): ten random thru-only units of issue 12's population, each either
+    # right within its standard errors or graded poor, never a wrong value with a small error bar.
+    report = []
+    for spec in pop.draw_population(10, THRU_SEED, quirks=False, sweeps="thru"):
+        truth = pop.write_unit(spec, tmp_path / spec.name)
+        verdict = pop.judge(truth, analyze_manifest(truth.manifest).to_dict())
+        if verdict.silent:
+            report.append(f"{spec.name} (Rc across {spec.core_loss}): {verdict.describe()}")
+    assert not report, "\n".join(report)
+
+
+def test_open_winding_resonating_early_on_a_linear_grid_is_kept(tmp_path):
+    # A large winding (1.8 mH, ~8 pF referred: self-resonance near 1.3 MHz) swept linearly from 50 kHz to
+    # 30 MHz is inductive only on its first few dozen of 831 points. It still starts below
+    # resonance, so its open sweeps carry L1 and L2 and must stay in the fit (dropped, only the
+    # shorted sweep is left and the fit read the leakage as L1, graded good).
+    spec = pop.draw_unit(np.random.default_rng([SEED, 5]), name="early", quirks=False, sweeps="three-oneport",
+                         core_loss="magnetizing", L1_H=1.83e-3, ratio=1.33, one_minus_k=5e-4, C1_F=3.6e-12, C2_F=2.1e-12, corner_Hz=20e6,
+                         C12_F=2.7e-12, start_Hz=50e3, stop_Hz=30e6, points=831, spacing="linear")
+    truth = pop.write_unit(spec, tmp_path / "unit")
+    analysis = analyze_manifest(truth.manifest)
+    assert len(analysis.measurement.sweeps) == 3, analysis.warnings
+    verdict = pop.judge(truth, analysis.to_dict())
+    assert not verdict.silent, verdict.describe()

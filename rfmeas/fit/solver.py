@@ -45,8 +45,13 @@ Standard errors: cov = (JᵀJ)⁻¹·max(1, χ²/dof) with J the weighted Jacobi
 plus what the white-noise errors leave out: the shift a smooth systematic
 error of the size the fit leaves unexplained could cause
 (_smooth_error_covariance), and the spread of the held parameters, in their
-linear coordinates, carried into the free ones (_held_parameter_covariance).
-Derived quantities follow by first-order propagation (rfmeas.fit.result).
+linear coordinates, carried into the free ones (_held_parameter_covariance),
+what holding an unconstrained parameter hides from the others (their marginal,
+not conditional, covariance: _hidden_by_holding), and the shifts to the starts
+and the other core-loss placement that fit about as well but end elsewhere
+(_start_spread_covariance): a value the data leave ambiguous never carries a
+small error bar. Derived quantities follow by first-order propagation
+(rfmeas.fit.result).
 """
 
 from __future__ import annotations
@@ -60,11 +65,9 @@ import numpy as np
 from scipy.optimize import least_squares
 
 from rfmeas.errors import FitError
-from rfmeas.model.methods import s_from_impedance
 from rfmeas.fit.rules import EDGE_TOLERANCE_LOG
 from rfmeas.fit.start import start_candidates, sweeps_that_see
-from rfmeas.model.circuit import driving_point_admittance, reflection_from_admittance, s_from_y, \
-    termination_admittance, y_elements
+from rfmeas.model.circuit import y_elements
 from rfmeas.model.params import PARAMETER_NAMES, TransformerParams
 from rfmeas.measurement.noise import error_sigma
 from rfmeas.measurement.sweep import Sweep
@@ -103,6 +106,8 @@ MIN_RESIDUALS_PER_PARAMETER = 5
 AGREEMENT_TOLERANCE = {"primary_inductance_H": 0.01, "secondary_inductance_H": 0.01,
                        "leakage_inductance_H": 0.03, "effective_turns_ratio": 0.005}
 """Two starts ending this close in the key quantities found the same solution."""
+SETTLED_CHI2 = 1.5
+"""When the first two starts agree with a reduced χ² at most this, the remaining starts are skipped."""
 COMPETITIVE_DELTA_CHI2 = 25.0
 """A start whose χ² is within this of the best (after scaling by the reduced χ²) fits about as well."""
 SMOOTH_DEGREE = 4
@@ -259,13 +264,17 @@ class _Objective:
         self.base = np.array([fixed.get(n, 0.0) for n in PARAMETER_NAMES], dtype=float)
         self.evaluations = 0
         self._last = (None, None)
+        bounds = [internal_bounds(n) for n in free]
+        self._lo = np.array([lo - _MARGIN for lo, _ in bounds])
+        self._hi = np.array([hi if n == "k" else hi + _MARGIN  # k itself must stay positive
+                             for n, (_, hi) in zip(free, bounds)])
+        self._is_k = np.array([n == "k" for n in free], bool)
 
     def values(self, X: np.ndarray) -> np.ndarray:
         rows = np.repeat(self.base[None, :], X.shape[0], axis=0)
-        for j, (name, i) in enumerate(zip(self.free, self.index)):
-            lo, hi = internal_bounds(name)
-            upper = hi if name == "k" else hi + _MARGIN  # k itself must stay positive
-            rows[:, i] = to_physical(name, np.clip(X[:, j], lo - _MARGIN, upper))
+        if self.index:
+            e = np.exp(np.clip(X, self._lo, self._hi))
+            rows[:, self.index] = np.where(self._is_k, 1.0 - e, e)
         return rows
 
     def residuals(self, x: np.ndarray) -> np.ndarray:
@@ -525,6 +534,8 @@ def fit_sweeps(sweeps: list[Sweep]) -> FitOutcome:
         res, obj, score, evaluations, weights = _robust_solve(coarse, free, fixed, X0[i], START_BUDGET, 0)
         total_evals += evaluations
         runs.append((res, obj, score, weights))
+        if len(runs) == 2 and _settled(runs, coarse):
+            break
     # the most promising starts go on, re-weighted against sweeps the model misses
     for j in sorted(range(len(runs)), key=lambda r: runs[r][2])[:ROBUST_STARTS]:
         res, obj, score, evaluations, weights = _robust_solve(coarse, free, fixed, runs[j][0].x, START_BUDGET,
@@ -532,24 +543,35 @@ def fit_sweeps(sweeps: list[Sweep]) -> FitOutcome:
         total_evals += evaluations
         runs[j] = (res, obj, score, weights)
     res, obj, score, weights = min(runs, key=lambda r: r[2])
-    agreement, disagree, spread = _start_agreement(runs, res, obj, coarse)
+    agreement, disagree, spread, start_shifts = _start_agreement(runs, res, obj, coarse, free)
     if "Rc_ohm" in free:
         # The other place the core loss may sit: taken only when the sweeps clearly prefer it.
         coarse.core_loss = "primary"
         res2, obj2, score2, evaluations, weights2 = _robust_solve(coarse, free, fixed, res.x, START_BUDGET,
                                                                   ROBUST_ROUNDS, weights)
         total_evals += evaluations
+        other = (res2, obj2)
         if score2 < score - PLACEMENT_DELTA_CHI2:
+            other = (res, obj)
             res, obj, weights = res2, obj2, weights2
             problem.core_loss = "primary"
             referred["Rc_ohm"] = ("across the whole primary inductance: these sweeps show the core loss "
                                   "outside the leakage, not across the magnetising branch alone")
         else:
             coarse.core_loss = "magnetizing"
+        if abs(score2 - score) <= COMPETITIVE_DELTA_CHI2:
+            # both placements fit about as well: what they disagree on is not known better than that
+            mine = _key_quantities(obj.values(res.x[None, :])[0])
+            theirs = _key_quantities(other[1].values(other[0].x[None, :])[0])
+            for k in mine:
+                spread[k] = max(spread.get(k, 0.0), abs(theirs[k] / mine[k] - 1.0))
+            start_shifts.append(dict(zip(free, (float(d) for d in other[0].x - res.x))))
+            disagree = disagree or any(abs(theirs[k] / mine[k] - 1.0) > AGREEMENT_TOLERANCE[k] for k in mine)
 
     # Local stage on every point, then hold what the data do not determine and refit.
     x = res.x
     probed: set[str] = set()
+    hidden: list[dict] = []  # what holding each unconstrained parameter would hide (see _hidden_by_holding)
     while True:
         res, obj, score, evaluations, weights = _robust_solve(problem, free, fixed, x, 200, ROBUST_ROUNDS, weights)
         total_evals += evaluations
@@ -577,6 +599,8 @@ def fit_sweeps(sweeps: list[Sweep]) -> FitOutcome:
         values = obj.values(res.x[None, :])[0]
         reason = ("pressed against the edge of its range: too small (or too large) to show in these sweeps"
                   if edge else "the sweeps do not constrain it")
+        if not edge:
+            hidden.append(_hidden_by_holding(free, j, cov))
         held[name] = (NEUTRAL.get(name, float(values[PARAMETER_NAMES.index(name)])), reason)
         fixed[name] = held[name][0]
         free.pop(j)
@@ -586,6 +610,10 @@ def fit_sweeps(sweeps: list[Sweep]) -> FitOutcome:
 
     cov = cov + _smooth_error_covariance(problem, res.jac, res.fun)
     cov = cov + _held_parameter_covariance(problem, obj, res, held, starts[0], max(1.0, weighted_chi2))
+    for extra in hidden:
+        cov = cov + _on_free(extra, free)
+    if start_shifts:
+        cov = cov + _start_spread_covariance(start_shifts, free)
     final_values = obj.values(res.x[None, :])[0]
     params = _to_params(final_values, polarity, problem.core_loss)
     residuals = problem.complex_residuals(final_values)
@@ -669,12 +697,17 @@ def _worst_undetermined(free: list[str], x: np.ndarray, cov: np.ndarray) -> tupl
     return (None, False) if worst is None else (worst[1], worst[2])
 
 
-def _start_agreement(runs, best_res, best_obj, problem) -> tuple[float, bool, dict]:
-    """Share of starts ending on the chosen solution; whether a competitive one ends elsewhere."""
+def _start_agreement(runs, best_res, best_obj, problem, free) -> tuple[float, bool, dict, list]:
+    """Share of starts ending on the chosen solution; whether a competitive one ends elsewhere.
+
+    Also returns, for each competitive start that ended elsewhere, its shift from
+    the chosen solution in internal coordinates (name -> shift), so the standard
+    errors can be widened to cover it (_start_spread_covariance).
+    """
     best_values = best_obj.values(best_res.x[None, :])[0]
     best = _key_quantities(best_values)
     best_score = _profile_score(problem, best_values)
-    agree, disagree, spread = 0, False, {}
+    agree, disagree, spread, shifts = 0, False, {}, []
     for res, obj, score, _ in runs:
         keys = _key_quantities(obj.values(res.x[None, :])[0])
         dev = {k: abs(keys[k] / best[k] - 1.0) for k in best}
@@ -684,7 +717,68 @@ def _start_agreement(runs, best_res, best_obj, problem) -> tuple[float, bool, di
             for k, d in dev.items():
                 spread[k] = max(spread.get(k, 0.0), float(d))
             disagree = disagree or not same
-    return agree / max(len(runs), 1), disagree, spread
+            if not same:
+                shifts.append(dict(zip(free, (float(d) for d in res.x - best_res.x))))
+    return agree / max(len(runs), 1), disagree, spread, shifts
+
+
+def _settled(runs, problem) -> bool:
+    """The first two starts ended on the same key quantities, fitted down to the noise: no
+    further start is run (SETTLED_CHI2). Anything worse, or any disagreement, runs them all."""
+    keys = [_key_quantities(obj.values(res.x[None, :])[0]) for res, obj, _, _ in runs[:2]]
+    same = all(abs(keys[1][k] / keys[0][k] - 1.0) <= AGREEMENT_TOLERANCE[k] for k in keys[0])
+    if not same:
+        return False
+    n = np.array([2 * m.size for m in problem.measured], float)
+    for res, obj, _, _ in runs[:2]:
+        per_sweep = problem.sweep_chi2(obj.values(res.x[None, :])[0])
+        if float(np.sum(per_sweep * n) / np.sum(n)) > SETTLED_CHI2:
+            return False
+    return True
+
+
+def _start_spread_covariance(shifts: list[dict], free: list[str]) -> np.ndarray:
+    """Covariance covering the starts that fit about as well but end elsewhere.
+
+    Each such start's shift δ from the chosen solution adds δ·δᵀ (in internal
+    coordinates): a key quantity the data leave ambiguous between two minima then
+    carries a standard error at least as large as the distance between them,
+    never a small error bar on one of them. Parameters held since then are left out.
+    """
+    out = np.zeros((len(free), len(free)))
+    for shift in shifts:
+        d = np.array([shift.get(n, 0.0) for n in free])
+        d = np.where(np.isfinite(d), d, 0.0)
+        out += np.outer(d, d)
+    return out
+
+
+def _hidden_by_holding(free: list[str], j: int, cov: np.ndarray) -> dict:
+    """What holding free parameter j hides from the others' covariance (name pair -> covariance).
+
+    Left free, parameter j (poorly determined, so about to be held) lets the others
+    move along with it: their covariance is the marginal one. Held, it is the
+    conditional one, smaller by c·cᵀ/σ_j² (c: their covariance with j). When the
+    data cannot pin j, the part it hides is what the others could be off by, so
+    it is kept and added back after the fit (_on_free). Unseen directions (NaN,
+    infinite) add nothing here: they are held for their own reason.
+    """
+    var = cov[j, j]
+    if not (np.isfinite(var) and var > 0):
+        return {}
+    c = np.array(cov[:, j], float)
+    c = np.where(np.isfinite(c), c, 0.0)
+    out = {}
+    for a, na in enumerate(free):
+        for b, nb in enumerate(free):
+            if a != j and b != j:
+                out[(na, nb)] = c[a] * c[b] / var
+    return out
+
+
+def _on_free(pairs: dict, free: list[str]) -> np.ndarray:
+    """A name-pair covariance (see _hidden_by_holding) on the current free parameters."""
+    return np.array([[pairs.get((a, b), 0.0) for b in free] for a in free])
 
 
 def _to_params(values: np.ndarray, polarity: int, core_loss: str = "magnetizing") -> TransformerParams:

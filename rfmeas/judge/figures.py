@@ -26,7 +26,6 @@ import logging
 import math
 from dataclasses import dataclass, field, replace
 
-import numpy as np
 
 from rfmeas.judge.design import DesignCheck, DesignFacts, check_design, is_design
 from rfmeas.magnetics import effective_permeability, geometry_from_table, nH_per_turn2_to

@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+import functools
 import math
 from dataclasses import dataclass, field
 from typing import Any
@@ -73,9 +74,9 @@ class Sweep:
     def is_two_port(self) -> bool:
         return self.port2 is not None
 
-    @property
+    @functools.cached_property
     def z0_ohm(self) -> tuple[float, ...]:
-        """Real reference impedance of each port used (taken at the first point)."""
+        """Real reference impedance of each port used (taken at the first point; read once)."""
         z0 = np.asarray(self.network.z0)
         ports = 2 if self.is_two_port else 1
         return tuple(float(np.real(z0[0, i])) for i in range(ports))
