@@ -20,13 +20,16 @@ def register(app: typer.Typer) -> None:
                                             help="Folders (every *.toml below), glob patterns or manifests."),
         workers: Optional[int] = typer.Option(None, "--workers", min=1, help="Worker processes (default: all cores)."),
         csv_path: Optional[Path] = typer.Option(None, "--csv", metavar="FILE", help="Also write one CSV row per unit."),
+        overwrite: bool = typer.Option(False, "--overwrite", help="Replace an existing --csv file."),
         json_out: bool = typer.Option(False, "--json", help="Print JSON on stdout."),
     ):
         """Analyse every unit; exit 1 if any failed its design check, 2 if any could not be analysed."""
         from rich.progress import BarColumn, MofNCompleteColumn, Progress, TextColumn, TimeElapsedColumn
 
+        from rfmeas.commands._csvfile import check_csv_target, write_csv
         from rfmeas.history import batch as batch_module
 
+        check_csv_target(csv_path, overwrite)
         paths = batch_module.find_manifests(targets)
         columns = (TextColumn("analysing"), BarColumn(), MofNCompleteColumn(), TimeElapsedColumn())
         finished = [0]
@@ -48,7 +51,7 @@ def register(app: typer.Typer) -> None:
             if unit.error:
                 report_error(unit.error)
         if csv_path is not None:
-            result.write_csv(csv_path)
+            write_csv(csv_path, result.to_csv(), overwrite)
         if json_out:
             print_json(result.to_dict())
         else:

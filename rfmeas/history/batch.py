@@ -14,9 +14,7 @@ thread in each worker also notices that it was re-parented.
 
 from __future__ import annotations
 
-import csv
 import glob
-import io
 import json
 import logging
 import multiprocessing
@@ -116,25 +114,17 @@ class BatchResult:
                 "spread": {k: s.to_dict() for k, s in self.spread.items()}}
 
     def to_csv(self) -> str:
-        """One row per unit: path, name, status, error, then each value and its standard error."""
-        keys = sorted({k for u in self.units for k in u.values})
-        buf = io.StringIO()
-        writer = csv.writer(buf, lineterminator="\n")
-        writer.writerow(["path", "name", "status", "error"] + [c for k in keys for c in (k, f"{k}_stderr")])
-        for u in self.units:
-            writer.writerow([u.path, u.name or "", u.status, u.error or ""] +
-                            [_csv_number(d.get(k)) for k in keys for d in (u.values, u.stderrs)])
-        return buf.getvalue()
+        """One row per unit: path, name, status, error, then each value and its standard error,
+        under headers with their units (rfmeas.present.csvout)."""
+        from rfmeas.present.csvout import batch_csv
+
+        return batch_csv(self)
 
     def write_csv(self, path: str | Path) -> None:
         atomic_write_text(path, self.to_csv())
 
     def write_json(self, path: str | Path) -> None:
         atomic_write_text(path, json.dumps(self.to_dict(), indent=2, allow_nan=False) + "\n")
-
-
-def _csv_number(value) -> str:
-    return "" if value is None else repr(value)
 
 
 def _entry_value(entry) -> tuple[float | None, float | None] | None:
