@@ -70,7 +70,8 @@ def test_unexpected_exception_is_reported_not_raised(units):
 
 def test_worker_returns_no_big_arrays(units):
     outcome = summarise("x", fake_analyse(str(units[0])))
-    assert set(outcome.to_dict()) == {"path", "name", "status", "error", "values", "stderrs", "warnings"}
+    assert set(outcome.to_dict()) == {"path", "name", "status", "error", "values", "stderrs", "warnings",
+                                      "record_id", "record_error"}
     assert all(isinstance(v, float) for v in outcome.values.values())
 
 

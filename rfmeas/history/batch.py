@@ -59,10 +59,13 @@ class UnitOutcome:
     values: dict[str, float | None]
     stderrs: dict[str, float | None]
     warnings: tuple[str, ...] = ()
+    record_id: int | None = None     # its record in the history store, when kept
+    record_error: str | None = None  # why it was not kept, when keeping it was asked for and failed
 
     def to_dict(self) -> dict:
         return {"path": self.path, "name": self.name, "status": self.status, "error": self.error,
-                "values": self.values, "stderrs": self.stderrs, "warnings": list(self.warnings)}
+                "values": self.values, "stderrs": self.stderrs, "warnings": list(self.warnings),
+                "record_id": self.record_id, "record_error": self.record_error}
 
 
 @dataclass(frozen=True)
@@ -162,10 +165,30 @@ def _failed(path: str, message: str) -> UnitOutcome:
     return UnitOutcome(path=path, name=None, status="error", error=message, values={}, stderrs={})
 
 
-def _run_one(analyse: Callable[[str], object], path: str) -> UnitOutcome:
-    """Analyse one unit; any failure becomes an 'error' outcome carrying its message."""
+def _kept(outcome: UnitOutcome, analysis, db: str | None) -> UnitOutcome:
+    """The outcome with the record id of `analysis` kept in the history store at `db` (None: the
+    default store), or with why it could not be kept. A result given as a dict (no sweeps) is not kept."""
+    from dataclasses import replace
+
+    from rfmeas.history.store import HistoryStore, record_analysis
+
+    if isinstance(analysis, dict):
+        return outcome
     try:
-        return summarise(path, analyse(path))
+        with HistoryStore(db) as store:
+            return replace(outcome, record_id=record_analysis(store, analysis))
+    except RfmeasError as exc:
+        return replace(outcome, record_error=f"{outcome.path}: not kept in the history: {exc}")
+
+
+def _run_one(analyse: Callable[[str], object], path: str, record: bool = False,
+             db: str | None = None) -> UnitOutcome:
+    """Analyse one unit (and keep it in the history store when `record`); any failure of the
+    analysis becomes an 'error' outcome carrying its message."""
+    try:
+        analysis = analyse(path)
+        outcome = summarise(path, analysis)
+        return _kept(outcome, analysis, db) if record else outcome
     except RfmeasError as exc:
         return _failed(path, str(exc))
     except Exception as exc:  # a bug must not stop the lot; it is reported with its type
@@ -237,8 +260,10 @@ def _stop_workers(pool: ProcessPoolExecutor) -> None:
 
 def run_batch(manifest_paths: Iterable[str | Path], workers: int | None = None,
               progress: Callable[[int, int, UnitOutcome], None] | None = None,
-              analyse: Callable[[str], object] = analyse_manifest) -> BatchResult:
-    """Analyse every manifest over `workers` processes (default: all cores).
+              analyse: Callable[[str], object] = analyse_manifest, record: bool = False,
+              db: str | Path | None = None) -> BatchResult:
+    """Analyse every manifest over `workers` processes (default: all cores); with `record`, each
+    worker keeps its unit in the history store at `db` (None: the default store), as `analyze` does.
 
     `analyse` must be picklable (a module-level function); workers=1 runs in
     this process. `progress(done, total, outcome)` is called as each unit ends.
@@ -258,7 +283,7 @@ def run_batch(manifest_paths: Iterable[str | Path], workers: int | None = None,
     workers = min(workers or os.cpu_count() or 1, max(total, 1))
     if workers == 1:
         for i, path in enumerate(paths):
-            finished(i, _run_one(analyse, path))
+            finished(i, _run_one(analyse, path, record, db))
     else:
         # Workers are direct children started afresh (not a plain fork: the progress bar's thread
         # is running here), so that they can be tied to this process's life.
@@ -266,7 +291,8 @@ def run_batch(manifest_paths: Iterable[str | Path], workers: int | None = None,
                                    initializer=_worker_start, initargs=(os.getpid(),))
         with _CtrlC() as ctrl_c:
             try:
-                futures = {pool.submit(_run_one, analyse, path): i for i, path in enumerate(paths)}
+                db = None if db is None else str(db)
+                futures = {pool.submit(_run_one, analyse, path, record, db): i for i, path in enumerate(paths)}
                 pending = set(futures)
                 while pending:
                     if ctrl_c.pressed.is_set():
