@@ -287,15 +287,10 @@ def _analyze(manifest: Path, err, record: bool = False, db: Optional[Path] = Non
 
     analysis = analyze_manifest(manifest)
     record_id, not_kept = None, None
-    if record:
-        from rfmeas.errors import RfmeasError
-        from rfmeas.history.store import HistoryStore, record_analysis
+    if record:  # the figures are still shown when the store fails; the store's problem ends the run
+        from rfmeas.history.store import keep_analysis
 
-        try:
-            with HistoryStore(db) as store:
-                record_id = record_analysis(store, analysis)
-        except RfmeasError as exc:  # the figures are still shown; the store's problem ends the run
-            not_kept = exc
+        record_id, not_kept = keep_analysis(analysis, db)
     result = analysis.to_dict()
     parameters = result.get("parameters", {})
     for key, label, unit in (("primary_inductance_H", "primary inductance", "H"),

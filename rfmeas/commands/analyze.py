@@ -80,15 +80,10 @@ def analyze_command(
     check_csv_target(csv_path, overwrite)
     analysis = run_analysis(inputs, turns, termination, port1, plan, return_loss)
     record_id, not_kept = None, None
-    if record:
-        from rfmeas.errors import RfmeasError
-        from rfmeas.history.store import HistoryStore, record_analysis
+    if record:  # the analysis is still shown when the store fails; the store's problem ends the run
+        from rfmeas.history.store import keep_analysis
 
-        try:
-            with HistoryStore(db) as store:
-                record_id = record_analysis(store, analysis)
-        except RfmeasError as exc:  # the analysis is still shown; the store's problem ends the run
-            not_kept = exc
+        record_id, not_kept = keep_analysis(analysis, db)
     if json_output:
         print_json(analysis.to_dict())
     else:

@@ -170,15 +170,14 @@ def _kept(outcome: UnitOutcome, analysis, db: str | None) -> UnitOutcome:
     default store), or with why it could not be kept. A result given as a dict (no sweeps) is not kept."""
     from dataclasses import replace
 
-    from rfmeas.history.store import HistoryStore, record_analysis
+    from rfmeas.history.store import keep_analysis
 
     if isinstance(analysis, dict):
         return outcome
-    try:
-        with HistoryStore(db) as store:
-            return replace(outcome, record_id=record_analysis(store, analysis))
-    except RfmeasError as exc:
-        return replace(outcome, record_error=f"{outcome.path}: not kept in the history: {exc}")
+    record_id, not_kept = keep_analysis(analysis, db)
+    if not_kept is not None:
+        return replace(outcome, record_error=f"{outcome.path}: not kept in the history: {not_kept}")
+    return replace(outcome, record_id=record_id)
 
 
 def _run_one(analyse: Callable[[str], object], path: str, record: bool = False,

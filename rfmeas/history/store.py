@@ -852,3 +852,16 @@ def record_analysis(store: HistoryStore, analysis, note: str | None = None) -> i
         manifest_text = next((content.decode("utf-8", errors="replace") for rel_path, content in sources
                               if str(rel_path).lower().endswith(".toml")), None)
     return store.record(result.get("name") or "unnamed", manifest_text, sources, result, note=note)
+
+
+def keep_analysis(analysis, db: str | Path | None = None):
+    """Keep `analysis` in the store at `db` (None: the default store): (record id, None), or
+    (None, the store's error) when it could not be kept, so the caller can still show the
+    analysis before it reports the error."""
+    from rfmeas.errors import RfmeasError
+
+    try:
+        with HistoryStore(db) as store:
+            return record_analysis(store, analysis), None
+    except RfmeasError as exc:
+        return None, exc
