@@ -70,7 +70,8 @@ def test_unexpected_exception_is_reported_not_raised(units):
 
 def test_worker_returns_no_big_arrays(units):
     outcome = summarise("x", fake_analyse(str(units[0])))
-    assert set(outcome.to_dict()) == {"path", "name", "status", "error", "values", "stderrs", "warnings"}
+    assert set(outcome.to_dict()) == {"path", "name", "status", "error", "values", "stderrs", "warnings",
+                                      "record_id", "record_error"}
     assert all(isinstance(v, float) for v in outcome.values.values())
 
 
@@ -97,9 +98,10 @@ def test_csv_and_json_export(units, tmp_path):
     rows = list(csv.DictReader(io.StringIO(out.read_text())))
     assert len(rows) == N_UNITS
     assert rows[0]["name"] == "unit 0" and rows[0]["status"] == "pass"
-    assert float(rows[4]["primary_inductance_H"]) == inductance_H(4)
-    assert float(rows[4]["primary_inductance_H_stderr"]) == pytest.approx(inductance_H(4) * 0.01)
-    assert rows[BAD]["status"] == "error" and rows[BAD]["primary_inductance_H"] == ""
+    # headers carry the label and the unit (rfmeas.present.csvout)
+    assert float(rows[4]["primary inductance L1 [H]"]) == inductance_H(4)
+    assert float(rows[4]["primary inductance L1 standard error [H]"]) == pytest.approx(inductance_H(4) * 0.01)
+    assert rows[BAD]["status"] == "error" and rows[BAD]["primary inductance L1 [H]"] == ""
     assert rows[2]["status"] == "fail"
     js = tmp_path / "lot.json"
     result.write_json(js)

@@ -161,6 +161,10 @@ def register(app: typer.Typer) -> None:
         analyze: Optional[bool] = typer.Option(None, "--analyze/--no-analyze",
                                                help="Analyse at the end without asking (default: ask)."),
         as_json: bool = typer.Option(False, "--json", help="Print the session summary as JSON on stdout."),
+        record: bool = typer.Option(True, "--record/--no-record",
+                                    help="Keep the analysis at the end in the history store (with its raw files)."),
+        db: Optional[Path] = typer.Option(None, "--db", help="History store file (default: RFMEAS_DB or the "
+                                                             "user's data folder)."),
     ):
         """Guided session: walks through each sweep of a measurement set and writes the manifest."""
         from rfmeas.instruments import load_profile, parse_sweep
@@ -208,13 +212,20 @@ def register(app: typer.Typer) -> None:
         if interrupted:
             err.print("interrupted; the manifest lists the sweeps finished so far")
             raise typer.Exit(EXIT_INTERRUPTED)
-        summary = {"manifest": str(manifest), "sweeps": [s.to_dict() for s in taken], "analysis": None}
+        summary = {"manifest": str(manifest), "sweeps": [s.to_dict() for s in taken], "analysis": None,
+                   "record_id": None}
         if analyze is None:
             analyze = typer.confirm("Analyse the measurement set now?", default=True, err=True)
+        not_kept = None
         if analyze:
-            summary["analysis"] = _analyze(manifest, err)
+            summary["analysis"], summary["record_id"], not_kept = _analyze(manifest, err, record, db)
         if as_json:
             print_json(summary)
+        if not_kept is not None:
+            from rfmeas.commands._common import report_error
+
+            report_error(f"{not_kept}; this analysis was not kept in the history (--no-record skips keeping it)")
+            raise typer.Exit(not_kept.exit_code)
         if last_error is not None:
             raise typer.Exit(EXIT_INSTRUMENT)
 
@@ -263,16 +274,24 @@ def _ask_turns(winding: str) -> Optional[int]:
         stderr_console().print("turns must be a whole number above 0")
 
 
-def _analyze(manifest: Path, err) -> Optional[dict]:
-    """Run the analysis if this installation has it; print the headline figures."""
+def _analyze(manifest: Path, err, record: bool = False, db: Optional[Path] = None):
+    """Run the analysis if this installation has it; print the headline figures. With `record`,
+    keep it in the history store as `analyze` does. Returns (result dict, record id, the store's
+    error when it could not be kept)."""
     try:
         from rfmeas.analysis import analyze_manifest
     except ImportError:
         err.print("analysis is unavailable in this installation; run `rfmeas analyze` on the manifest later")
-        return None
+        return None, None, None
     from rfmeas.units import format_with_error
 
-    result = analyze_manifest(manifest).to_dict()
+    analysis = analyze_manifest(manifest)
+    record_id, not_kept = None, None
+    if record:  # the figures are still shown when the store fails; the store's problem ends the run
+        from rfmeas.history.store import keep_analysis
+
+        record_id, not_kept = keep_analysis(analysis, db)
+    result = analysis.to_dict()
     parameters = result.get("parameters", {})
     for key, label, unit in (("primary_inductance_H", "primary inductance", "H"),
                              ("secondary_inductance_H", "secondary inductance", "H"),
@@ -281,4 +300,6 @@ def _analyze(manifest: Path, err) -> Optional[dict]:
         if key in parameters:
             value = parameters[key]
             err.print(f"{label}: {format_with_error(value.get('value'), value.get('stderr'), unit)}")
-    return result
+    if record_id is not None:
+        err.print(f"[dim]recorded in the history as @{record_id}[/]")
+    return result, record_id, not_kept

@@ -70,21 +70,20 @@ def analyze_command(
     db: Optional[Path] = typer.Option(None, "--db", help="History store file (default: RFMEAS_DB or the user's data folder)."),
     report: Optional[Path] = typer.Option(None, "--report", help="Also write the HTML report to this file."),
     plots_dir: Optional[Path] = typer.Option(None, "--plots", help="Also write every plot as PNG, SVG and PDF into this folder."),
+    csv_path: Optional[Path] = typer.Option(None, "--csv", metavar="FILE", help="Also write the parameters and figures as CSV (one row per quantity, with units)."),
+    overwrite: bool = typer.Option(False, "--overwrite", help="Replace an existing --csv file."),
 ):
     """Fit the equivalent circuit to all sweeps of one transformer at once."""
+    from rfmeas.commands._csvfile import check_csv_target
     from rfmeas.errors import EXIT_DESIGN_FAILED
 
+    check_csv_target(csv_path, overwrite)
     analysis = run_analysis(inputs, turns, termination, port1, plan, return_loss)
     record_id, not_kept = None, None
-    if record:
-        from rfmeas.errors import RfmeasError
-        from rfmeas.history.store import HistoryStore, record_analysis
+    if record:  # the analysis is still shown when the store fails; the store's problem ends the run
+        from rfmeas.history.store import keep_analysis
 
-        try:
-            with HistoryStore(db) as store:
-                record_id = record_analysis(store, analysis)
-        except RfmeasError as exc:  # the analysis is still shown; the store's problem ends the run
-            not_kept = exc
+        record_id, not_kept = keep_analysis(analysis, db)
     if json_output:
         print_json(analysis.to_dict())
     else:
@@ -99,6 +98,14 @@ def analyze_command(
         from rfmeas.commands.report import tell, write_outputs
 
         tell(write_outputs(analysis, report, plots_dir), stderr_console() if json_output else stdout_console())
+    if csv_path is not None:
+        from rfmeas.commands._csvfile import write_csv
+        from rfmeas.present.csvout import analysis_csv
+        from rfmeas.usertext import markup
+
+        write_csv(csv_path, analysis_csv(analysis.to_dict()), overwrite)
+        if not json_output:
+            stdout_console().print(f"CSV: {markup(csv_path)}")
     if not_kept is not None:
         from rfmeas.commands._common import report_error
 

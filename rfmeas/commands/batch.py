@@ -8,7 +8,7 @@ from typing import List, Optional
 import typer
 from rich.markup import escape
 
-from rfmeas.errors import EXIT_INTERRUPTED
+from rfmeas.errors import EXIT_BAD_INPUT, EXIT_INTERRUPTED
 from rfmeas.commands._common import handles_errors, print_json, report_error, stderr_console, stdout_console
 
 
@@ -20,13 +20,20 @@ def register(app: typer.Typer) -> None:
                                             help="Folders (every *.toml below), glob patterns or manifests."),
         workers: Optional[int] = typer.Option(None, "--workers", min=1, help="Worker processes (default: all cores)."),
         csv_path: Optional[Path] = typer.Option(None, "--csv", metavar="FILE", help="Also write one CSV row per unit."),
+        overwrite: bool = typer.Option(False, "--overwrite", help="Replace an existing --csv file."),
         json_out: bool = typer.Option(False, "--json", help="Print JSON on stdout."),
+        record: bool = typer.Option(True, "--record/--no-record",
+                                    help="Keep each unit's analysis in the history store (with its raw files)."),
+        db: Optional[Path] = typer.Option(None, "--db", help="History store file (default: RFMEAS_DB or the "
+                                                             "user's data folder)."),
     ):
         """Analyse every unit; exit 1 if any failed its design check, 2 if any could not be analysed."""
         from rich.progress import BarColumn, MofNCompleteColumn, Progress, TextColumn, TimeElapsedColumn
 
+        from rfmeas.commands._csvfile import check_csv_target, write_csv
         from rfmeas.history import batch as batch_module
 
+        check_csv_target(csv_path, overwrite)
         paths = batch_module.find_manifests(targets)
         columns = (TextColumn("analysing"), BarColumn(), MofNCompleteColumn(), TimeElapsedColumn())
         finished = [0]
@@ -39,7 +46,7 @@ def register(app: typer.Typer) -> None:
             with Progress(*columns, console=stderr_console()) as bar:
                 task = bar.add_task("analysing", total=len(paths))
                 result = batch_module.run_batch(paths, workers=workers, progress=progress,
-                                                analyse=batch_module.analyse_manifest)
+                                                analyse=batch_module.analyse_manifest, record=record, db=db)
         except KeyboardInterrupt:
             stderr_console().print(f"interrupted after {finished[0]} of {len(paths)} units; the workers are "
                                    "stopped and nothing was written", markup=False)
@@ -47,13 +54,20 @@ def register(app: typer.Typer) -> None:
         for unit in result.units:
             if unit.error:
                 report_error(unit.error)
+        not_kept = [unit.record_error for unit in result.units if unit.record_error]
+        for message in not_kept:
+            report_error(f"{message} (--no-record skips keeping it)")
         if csv_path is not None:
-            result.write_csv(csv_path)
+            write_csv(csv_path, result.to_csv(), overwrite)
         if json_out:
             print_json(result.to_dict())
         else:
             _print_summary(result)
-        raise typer.Exit(result.exit_code)
+            kept = sorted(unit.record_id for unit in result.units if unit.record_id is not None)
+            if kept:
+                ids = ", ".join(f"@{i}" for i in kept) if len(kept) <= 10 else f"@{kept[0]} to @{kept[-1]}"
+                stdout_console().print(f"[dim]recorded {len(kept)} unit(s) in the history: {ids}[/]")
+        raise typer.Exit(EXIT_BAD_INPUT if not_kept else result.exit_code)
 
 
 def _print_summary(result) -> None:

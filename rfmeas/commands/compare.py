@@ -38,6 +38,24 @@ def load_side(side: str, store, other_unit: str | None = None, other_id: int | N
     return analysis.to_dict(), str(side), None, analysis
 
 
+def analysis_of_record(store, record_id: int):
+    """An Analysis of a stored record's own sweeps and manifest, written to a temporary folder
+    (store.export, byte for byte) and analysed there; the folder is gone afterwards."""
+    import tempfile
+
+    from rfmeas.commands.analyze import run_analysis
+    from rfmeas.history.store import FALLBACK_MANIFEST_NAME
+
+    with tempfile.TemporaryDirectory(prefix="rfmeas-record-") as folder:
+        written = store.export(record_id, folder)
+        manifests = [p for p in written if p.parent == Path(folder).resolve() and p.suffix.lower() == ".toml"]
+        manifests.sort(key=lambda p: p.name != FALLBACK_MANIFEST_NAME)
+        if not manifests:
+            raise InputError(f"record {record_id} keeps no manifest, so its sweeps cannot be plotted",
+                             path=store.path)
+        return run_analysis([manifests[0]])
+
+
 def register(app: typer.Typer) -> None:
     @app.command("compare")
     @handles_errors
@@ -48,7 +66,8 @@ def register(app: typer.Typer) -> None:
         db: Optional[Path] = db_option(),
         json_out: bool = typer.Option(False, "--json", help="Print JSON on stdout."),
         plot: Optional[Path] = typer.Option(None, "--plot", help="Write an overlay of both measurements "
-                                            "and both fitted models (PNG, SVG or PDF; manifests and sweeps only)."),
+                                            "and both fitted models (PNG, SVG or PDF); a stored record's "
+                                            "sweeps come from the store."),
     ):
         """Compare two analyses: every shared quantity, whether it moved by more than 3σ, and a verdict."""
         from rfmeas.history.compare import compare_results
@@ -56,15 +75,17 @@ def register(app: typer.Typer) -> None:
 
         with HistoryStore(db) as store:
             after_result, after_label, after_id, after_analysis = load_side(after, store)
-            before_result, before_label, _, before_analysis = load_side(
+            before_result, before_label, before_id, before_analysis = load_side(
                 before, store, other_unit=after_result.get("name"), other_id=after_id)
+            if plot is not None:  # a stored side is analysed again from the sweeps the store keeps
+                before_analysis = before_analysis or analysis_of_record(store, before_id)
+                after_analysis = after_analysis or analysis_of_record(store, after_id)
             notes = list(store.notes)
         print_notes(notes)
         # an analysis made here is compared as such; a stored record as the JSON it was kept as
-        comparison = compare_results(before_analysis or before_result, after_analysis or after_result)
+        comparison = compare_results(before_result if before_id is not None else before_analysis,
+                                     after_result if after_id is not None else after_analysis)
         if plot is not None:
-            if before_analysis is None or after_analysis is None:
-                raise InputError("--plot needs the sweeps: give manifests or sweep files, not store references")
             from rfmeas.present.plots.compare import plot_comparison
 
             plot_comparison(before_analysis, after_analysis, plot)

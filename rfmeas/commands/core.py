@@ -246,6 +246,9 @@ def core_command(
                                                      "(MnZn-like) or insulating (NiZn-like)."),
     plot: Optional[Path] = typer.Option(None, "--plot", help="Write the µ′, µ″ plot (PNG, SVG or PDF)."),
     json_output: bool = typer.Option(False, "--json", help="Print the JSON result on stdout and nothing else."),
+    csv_path: Optional[Path] = typer.Option(None, "--csv", metavar="FILE",
+                                            help="Also write the permeability spectrum as CSV (one row per point)."),
+    overwrite: bool = typer.Option(False, "--overwrite", help="Replace an existing --csv file."),
 ):
     """Identify an unknown core from test windings: µi, dispersion, loss factor, material class."""
     from dataclasses import replace
@@ -254,7 +257,9 @@ def core_command(
     from rfmeas.errors import InputError
     from rfmeas.magnetics.materials import RESISTIVITY
     from rfmeas.units import parse_engineering
+    from rfmeas.commands._csvfile import check_csv_target
 
+    check_csv_target(csv_path, overwrite)
     if dc_resistance is not None and dc_resistance not in RESISTIVITY:
         raise InputError(f"--dc-resistance must be one of {', '.join(RESISTIVITY)}, not {dc_resistance!r}")
     sweeps = list(sweeps or [])
@@ -284,6 +289,8 @@ def core_command(
             lcr_leads = leads_from_short(f_s, z_s, errors or _default_errors(), z0_s, m_s)
         lcr = analyze_readings_file(readings, counts[-1], geometry, lcr_leads)
         if not sweeps:
+            if csv_path is not None:
+                raise InputError("--csv writes the spectrum of a sweep; LCR readings alone have none")
             if json_output:
                 print_json(lcr.to_dict())
             else:
@@ -305,12 +312,19 @@ def core_command(
         from rfmeas.present.plots.permeability import plot_permeability
 
         plot_permeability(analysis, plot)
+    if csv_path is not None:
+        from rfmeas.commands._csvfile import write_csv
+        from rfmeas.present.csvout import spectrum_csv
+
+        write_csv(csv_path, spectrum_csv(analysis.to_dict()), overwrite)
     if json_output:
         print_json(analysis.to_dict())
     else:
         render_core(analysis)
         if plot is not None:
             stdout_console().print(f"Plot written to {markup(plot)}")
+        if csv_path is not None:
+            stdout_console().print(f"CSV: {markup(csv_path)}")
 
 
 def _default_errors():

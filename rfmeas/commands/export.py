@@ -26,6 +26,9 @@ def export_command(
     points: int = typer.Option(401, "--points", help="Model grid points (log-spaced)."),
     z0: float = typer.Option(50.0, "--z0", help="Reference impedance of the Touchstone model, ohms."),
     turns: Optional[str] = typer.Option(None, "--turns", help="Turns PRIMARY:SECONDARY for files without a manifest."),
+    floating_secondary: bool = typer.Option(False, "--floating-secondary",
+                                            help="SPICE subcircuit with four pins P_HI P_LO S_HI S_LO (an isolated "
+                                                 "secondary) instead of P1 S1 GND."),
     json_output: bool = typer.Option(False, "--json", help="Print what was written as JSON."),
 ):
     """Fit the transformer and export the equivalent circuit for a circuit simulator."""
@@ -52,7 +55,8 @@ def export_command(
                 "small-signal model only: no saturation, heating or insulation behaviour"] + held
     written = {}
     if spice is not None:
-        atomic_write_text(spice, spice_subcircuit(params, name=name, comments=comments))
+        atomic_write_text(spice, spice_subcircuit(params, name=name, comments=comments,
+                                                           floating=floating_secondary))
         written["spice"] = str(spice)
     if touchstone is not None:
         if touchstone.suffix.lower() != ".s2p":

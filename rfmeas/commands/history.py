@@ -28,11 +28,24 @@ def register(app: typer.Typer) -> None:
         export: Optional[Tuple[int, Path]] = typer.Option(
             None, "--export", metavar="ID DIR", help="Write record ID's manifest and sweep files into DIR."),
         force: bool = typer.Option(False, "--force", help="With --export: overwrite existing files."),
+        set_note: Optional[Tuple[int, str]] = typer.Option(
+            None, "--set-note", metavar="ID TEXT",
+            help="Give record ID a note (\"\" clears it); the list shows it beside the record."),
     ):
         """List the stored analyses (newest first), or export one's raw inputs byte for byte."""
         from rfmeas.history.store import HistoryStore
 
         with HistoryStore(db) as store:
+            if set_note is not None:
+                record_id, text = set_note
+                store.set_note(record_id, text)
+                if json_out:
+                    print_json({"record": record_id, "note": text.strip() or None})
+                else:
+                    stdout_console().print(f"record {record_id}: note " + (f"set to {text.strip()!r}"
+                                                                            if text.strip() else "cleared"),
+                                           markup=False)
+                return
             if export is not None:
                 record_id, folder = export
                 written = store.export(record_id, folder, overwrite=force)
@@ -68,10 +81,13 @@ def _print_table(rows, path, unit) -> None:
     for column, justify in (("id", "right"), ("unit", "left"), ("recorded (UTC)", "left"),
                             ("design", "left"), ("fit", "left"), ("files", "right"), ("rfmeas", "left")):
         table.add_column(column, justify=justify)
+    show_notes = any(r.note for r in rows)
+    if show_notes:
+        table.add_column("note", overflow="fold")
     for r in rows:
         grade = r.fit_grade or "—"
         if r.fit_grade == "poor":
             grade = "[bold red]poor[/]"
         table.add_row(str(r.id), escape(r.unit), r.recorded_utc, r.design_status, grade, str(r.file_count),
-                      r.software_version)
+                      r.software_version, *([escape(r.note or "")] if show_notes else []))
     console.print(table)

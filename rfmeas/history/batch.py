@@ -14,9 +14,7 @@ thread in each worker also notices that it was re-parented.
 
 from __future__ import annotations
 
-import csv
 import glob
-import io
 import json
 import logging
 import multiprocessing
@@ -61,10 +59,13 @@ class UnitOutcome:
     values: dict[str, float | None]
     stderrs: dict[str, float | None]
     warnings: tuple[str, ...] = ()
+    record_id: int | None = None     # its record in the history store, when kept
+    record_error: str | None = None  # why it was not kept, when keeping it was asked for and failed
 
     def to_dict(self) -> dict:
         return {"path": self.path, "name": self.name, "status": self.status, "error": self.error,
-                "values": self.values, "stderrs": self.stderrs, "warnings": list(self.warnings)}
+                "values": self.values, "stderrs": self.stderrs, "warnings": list(self.warnings),
+                "record_id": self.record_id, "record_error": self.record_error}
 
 
 @dataclass(frozen=True)
@@ -116,25 +117,17 @@ class BatchResult:
                 "spread": {k: s.to_dict() for k, s in self.spread.items()}}
 
     def to_csv(self) -> str:
-        """One row per unit: path, name, status, error, then each value and its standard error."""
-        keys = sorted({k for u in self.units for k in u.values})
-        buf = io.StringIO()
-        writer = csv.writer(buf, lineterminator="\n")
-        writer.writerow(["path", "name", "status", "error"] + [c for k in keys for c in (k, f"{k}_stderr")])
-        for u in self.units:
-            writer.writerow([u.path, u.name or "", u.status, u.error or ""] +
-                            [_csv_number(d.get(k)) for k in keys for d in (u.values, u.stderrs)])
-        return buf.getvalue()
+        """One row per unit: path, name, status, error, then each value and its standard error,
+        under headers with their units (rfmeas.present.csvout)."""
+        from rfmeas.present.csvout import batch_csv
+
+        return batch_csv(self)
 
     def write_csv(self, path: str | Path) -> None:
         atomic_write_text(path, self.to_csv())
 
     def write_json(self, path: str | Path) -> None:
         atomic_write_text(path, json.dumps(self.to_dict(), indent=2, allow_nan=False) + "\n")
-
-
-def _csv_number(value) -> str:
-    return "" if value is None else repr(value)
 
 
 def _entry_value(entry) -> tuple[float | None, float | None] | None:
@@ -172,10 +165,29 @@ def _failed(path: str, message: str) -> UnitOutcome:
     return UnitOutcome(path=path, name=None, status="error", error=message, values={}, stderrs={})
 
 
-def _run_one(analyse: Callable[[str], object], path: str) -> UnitOutcome:
-    """Analyse one unit; any failure becomes an 'error' outcome carrying its message."""
+def _kept(outcome: UnitOutcome, analysis, db: str | None) -> UnitOutcome:
+    """The outcome with the record id of `analysis` kept in the history store at `db` (None: the
+    default store), or with why it could not be kept. A result given as a dict (no sweeps) is not kept."""
+    from dataclasses import replace
+
+    from rfmeas.history.store import keep_analysis
+
+    if isinstance(analysis, dict):
+        return outcome
+    record_id, not_kept = keep_analysis(analysis, db)
+    if not_kept is not None:
+        return replace(outcome, record_error=f"{outcome.path}: not kept in the history: {not_kept}")
+    return replace(outcome, record_id=record_id)
+
+
+def _run_one(analyse: Callable[[str], object], path: str, record: bool = False,
+             db: str | None = None) -> UnitOutcome:
+    """Analyse one unit (and keep it in the history store when `record`); any failure of the
+    analysis becomes an 'error' outcome carrying its message."""
     try:
-        return summarise(path, analyse(path))
+        analysis = analyse(path)
+        outcome = summarise(path, analysis)
+        return _kept(outcome, analysis, db) if record else outcome
     except RfmeasError as exc:
         return _failed(path, str(exc))
     except Exception as exc:  # a bug must not stop the lot; it is reported with its type
@@ -247,8 +259,10 @@ def _stop_workers(pool: ProcessPoolExecutor) -> None:
 
 def run_batch(manifest_paths: Iterable[str | Path], workers: int | None = None,
               progress: Callable[[int, int, UnitOutcome], None] | None = None,
-              analyse: Callable[[str], object] = analyse_manifest) -> BatchResult:
-    """Analyse every manifest over `workers` processes (default: all cores).
+              analyse: Callable[[str], object] = analyse_manifest, record: bool = False,
+              db: str | Path | None = None) -> BatchResult:
+    """Analyse every manifest over `workers` processes (default: all cores); with `record`, each
+    worker keeps its unit in the history store at `db` (None: the default store), as `analyze` does.
 
     `analyse` must be picklable (a module-level function); workers=1 runs in
     this process. `progress(done, total, outcome)` is called as each unit ends.
@@ -268,7 +282,7 @@ def run_batch(manifest_paths: Iterable[str | Path], workers: int | None = None,
     workers = min(workers or os.cpu_count() or 1, max(total, 1))
     if workers == 1:
         for i, path in enumerate(paths):
-            finished(i, _run_one(analyse, path))
+            finished(i, _run_one(analyse, path, record, db))
     else:
         # Workers are direct children started afresh (not a plain fork: the progress bar's thread
         # is running here), so that they can be tied to this process's life.
@@ -276,7 +290,8 @@ def run_batch(manifest_paths: Iterable[str | Path], workers: int | None = None,
                                    initializer=_worker_start, initargs=(os.getpid(),))
         with _CtrlC() as ctrl_c:
             try:
-                futures = {pool.submit(_run_one, analyse, path): i for i, path in enumerate(paths)}
+                db = None if db is None else str(db)
+                futures = {pool.submit(_run_one, analyse, path, record, db): i for i, path in enumerate(paths)}
                 pending = set(futures)
                 while pending:
                     if ctrl_c.pressed.is_set():

@@ -124,7 +124,31 @@ def _migrate_to_2(conn: sqlite3.Connection) -> None:
     """)
 
 
-MIGRATIONS = [_migrate_to_1, _migrate_to_2]
+def manifest_notes(manifest_text) -> str | None:
+    """The [transformer] notes of a manifest's text; None when it has none or is not readable TOML."""
+    import tomllib
+
+    if not isinstance(manifest_text, str):
+        return None
+    try:
+        notes = tomllib.loads(manifest_text).get("transformer", {}).get("notes")
+    except (tomllib.TOMLDecodeError, AttributeError):
+        return None
+    return notes.strip() or None if isinstance(notes, str) else None
+
+
+def _migrate_to_3(conn: sqlite3.Connection) -> None:
+    """A note per record (to tell the before and after of one unit apart), filled for the records
+    kept so far from their manifest's [transformer] notes."""
+    conn.execute("ALTER TABLE records ADD COLUMN note TEXT")
+    rows = conn.execute("SELECT id, manifest_text FROM records").fetchall()
+    for record_id, text in rows:
+        note = manifest_notes(text)
+        if note is not None:
+            conn.execute("UPDATE records SET note = ? WHERE id = ?", (note, record_id))
+
+
+MIGRATIONS = [_migrate_to_1, _migrate_to_2, _migrate_to_3]
 SCHEMA_VERSION = len(MIGRATIONS)
 
 
@@ -153,11 +177,12 @@ class Record:
     files: tuple[StoredFile, ...]
     result: dict
     software_version: str
+    note: str | None = None
 
     def to_dict(self) -> dict:
         return {
             "id": self.id, "unit": self.unit, "recorded_utc": self.recorded_utc,
-            "software_version": self.software_version, "manifest_text": self.manifest_text,
+            "software_version": self.software_version, "note": self.note, "manifest_text": self.manifest_text,
             "files": [f.to_dict() for f in self.files], "result": self.result,
         }
 
@@ -173,11 +198,12 @@ class RecordSummary:
     file_count: int
     design_status: str
     fit_grade: str | None = None
+    note: str | None = None
 
     def to_dict(self) -> dict:
         return {"id": self.id, "unit": self.unit, "recorded_utc": self.recorded_utc,
                 "software_version": self.software_version, "file_count": self.file_count,
-                "design_status": self.design_status, "fit_grade": self.fit_grade}
+                "design_status": self.design_status, "fit_grade": self.fit_grade, "note": self.note}
 
 
 def design_status(result: dict) -> str:
@@ -344,10 +370,11 @@ class HistoryStore:
 
     # writing
     def record(self, name: str, manifest_text: str | None, sources: list[tuple[str, bytes]],
-               result: dict) -> int:
+               result: dict, note: str | None = None) -> int:
         """Store one analysis; returns its record id. `sources`: (path relative to manifest, bytes).
 
-        The result is kept as strict JSON: NaN and infinities become null.
+        The result is kept as strict JSON: NaN and infinities become null. `note` tells this
+        record apart from the unit's others (default: the manifest's [transformer] notes).
         """
         from rfmeas import __version__
         from rfmeas.io.jsonio import dumps_json
@@ -359,14 +386,27 @@ class HistoryStore:
             raise InputError("the history store is read-only (no write permission on the file or its "
                              "folder)", path=self.path)
         with self._sqlite_errors(), self._transaction(conn):
-            return self._insert(conn, name, manifest_text, rows, result_json, __version__)
+            return self._insert(conn, name, manifest_text, rows, result_json, __version__,
+                                manifest_notes(manifest_text) if note is None else (note.strip() or None))
+
+    def set_note(self, record_id: int, note: str | None) -> None:
+        """Replace a record's note (None or blank text clears it)."""
+        conn = self._connect()
+        if self.read_only:
+            raise InputError("the history store is read-only (no write permission on the file or its "
+                             "folder)", path=self.path)
+        with self._sqlite_errors(), self._transaction(conn):
+            done = conn.execute("UPDATE records SET note = ? WHERE id = ?",
+                                ((note or "").strip() or None, record_id))
+            if done.rowcount == 0:
+                raise InputError(f"no record {record_id} in the history store", path=self.path)
 
     @staticmethod
-    def _insert(conn, name, manifest_text, rows, result_json, version) -> int:
+    def _insert(conn, name, manifest_text, rows, result_json, version, note=None) -> int:
         recorded_utc = datetime.now(timezone.utc).isoformat(timespec="seconds")
         cur = conn.execute(
-            "INSERT INTO records (unit, recorded_utc, manifest_text, result_json, software_version) "
-            "VALUES (?, ?, ?, ?, ?)", (name, recorded_utc, manifest_text, result_json, version))
+            "INSERT INTO records (unit, recorded_utc, manifest_text, result_json, software_version, note) "
+            "VALUES (?, ?, ?, ?, ?, ?)", (name, recorded_utc, manifest_text, result_json, version, note))
         record_id = cur.lastrowid
         for rel_path, digest, content in rows:
             conn.execute("INSERT OR IGNORE INTO blobs (sha256, size_bytes, content) VALUES (?, ?, ?)",
@@ -380,8 +420,8 @@ class HistoryStore:
         """One record; DamagedRecord when it cannot be read back whole."""
         with self._sqlite_errors():
             conn = self._connect()
-            row = conn.execute("SELECT id, unit, recorded_utc, manifest_text, result_json, software_version "
-                               "FROM records WHERE id = ?", (record_id,)).fetchone()
+            row = conn.execute("SELECT id, unit, recorded_utc, manifest_text, result_json, software_version, "
+                               "note FROM records WHERE id = ?", (record_id,)).fetchone()
             if row is None:
                 raise InputError(f"no record {record_id} in the history store", path=self.path)
             file_rows = conn.execute(
@@ -399,7 +439,8 @@ class HistoryStore:
             raise DamagedRecord(f"record {record_id} is damaged: its unit name is not text", path=self.path)
         return Record(id=row[0], unit=row[1], recorded_utc=str(row[2]),
                       manifest_text=row[3] if isinstance(row[3], str) else None,
-                      files=tuple(files), result=result, software_version=str(row[5]))
+                      files=tuple(files), result=result, software_version=str(row[5]),
+                      note=row[6] if isinstance(row[6], str) else None)
 
     def _result_of(self, record_id: int, text) -> dict:
         try:
@@ -420,7 +461,7 @@ class HistoryStore:
         Damaged records are left out, each with a sentence in `notes`.
         """
         sql = ("SELECT r.id, r.unit, r.recorded_utc, r.software_version, r.result_json, "
-               "(SELECT count(*) FROM files f WHERE f.record_id = r.id) FROM records r")
+               "(SELECT count(*) FROM files f WHERE f.record_id = r.id), r.note FROM records r")
         args: list = []
         if unit is not None:
             sql += " WHERE r.unit = ?"
@@ -429,7 +470,7 @@ class HistoryStore:
         out: list[RecordSummary] = []
         with self._sqlite_errors():
             cursor = self._connect().execute(sql, args)
-            for i, u, t, v, res, n in cursor:
+            for i, u, t, v, res, n, note in cursor:
                 if limit is not None and len(out) >= int(limit):
                     break
                 try:
@@ -439,7 +480,8 @@ class HistoryStore:
                     continue
                 out.append(RecordSummary(id=i, unit=str(u), recorded_utc=str(t), software_version=str(v),
                                          file_count=n, design_status=design_status(result),
-                                         fit_grade=fit_grade(result)))
+                                         fit_grade=fit_grade(result),
+                                         note=note if isinstance(note, str) else None))
         return out
 
     def _readable(self, ids) -> Record | None:
@@ -793,8 +835,9 @@ def _manifest_renames(text: str, base: Path, names: dict[str, str]) -> list[tupl
     return renames
 
 
-def record_analysis(store: HistoryStore, analysis) -> int:
+def record_analysis(store: HistoryStore, analysis, note: str | None = None) -> int:
     """Store an Analysis (anything with `.to_dict()` and `.sources`); returns the record id.
+    `note`: the record's note (default: the manifest's [transformer] notes).
 
     The files kept are those of `record_sources` (an exported record can be
     analysed again); an object without a measurement set gives its `sources`,
@@ -808,4 +851,17 @@ def record_analysis(store: HistoryStore, analysis) -> int:
         sources = list(analysis.sources)
         manifest_text = next((content.decode("utf-8", errors="replace") for rel_path, content in sources
                               if str(rel_path).lower().endswith(".toml")), None)
-    return store.record(result.get("name") or "unnamed", manifest_text, sources, result)
+    return store.record(result.get("name") or "unnamed", manifest_text, sources, result, note=note)
+
+
+def keep_analysis(analysis, db: str | Path | None = None):
+    """Keep `analysis` in the store at `db` (None: the default store): (record id, None), or
+    (None, the store's error) when it could not be kept, so the caller can still show the
+    analysis before it reports the error."""
+    from rfmeas.errors import RfmeasError
+
+    try:
+        with HistoryStore(db) as store:
+            return record_analysis(store, analysis), None
+    except RfmeasError as exc:
+        return None, exc

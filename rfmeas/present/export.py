@@ -21,6 +21,16 @@ draws a times the secondary current out of the magnetising node. Together they
 are an ideal 1:a transformer with a common ground (power in = power out,
 V(m) a I2 = a V(m) I2), so Rc sits across Lm exactly as in the model; a coupled
 pair with K close to 1 would only approximate it.
+
+floating=True writes the same circuit with four pins and no common ground,
+
+    .SUBCKT NAME P_HI P_LO S_HI S_LO
+
+L1 (or the T-model's primary side, Lm and Rc) returns to P_LO, L2 (or the
+ideal transformer's secondary side) to S_LO; C1 sits across P_HI-P_LO, C2
+across S_HI-S_LO and C12 between the hot ends P_HI and S_HI, as
+rfmeas.model.circuit places it. With P_LO and S_LO on one node the
+four-terminal model is the grounded one.
 """
 
 from __future__ import annotations
@@ -57,8 +67,9 @@ def _series_chain(first: str, last: str, parts: list[tuple[str, str, float]]) ->
 
 
 def spice_subcircuit(params: TransformerParams, name: str = "XFMR", comments=(),
-                     form: str = "auto") -> str:
-    """SPICE subcircuit text of the equivalent circuit, pins P1 (primary), S1 (secondary), GND.
+                     form: str = "auto", floating: bool = False) -> str:
+    """SPICE subcircuit text of the equivalent circuit, pins P1 (primary), S1 (secondary), GND;
+    with `floating`, pins P_HI, P_LO, S_HI, S_LO (a secondary isolated from the primary).
 
     form: "auto" (coupled when Rc is infinite, else tee), "coupled" (Rc must be
     infinite) or "tee". Values are written with 12 significant digits.
@@ -82,23 +93,28 @@ def spice_subcircuit(params: TransformerParams, name: str = "XFMR", comments=(),
     out.append(f"* form: {form}"
                + ("" if form == "coupled" else
                   " (T-model, proportional leakage split; ideal 1:a transformer from E1 and F1)"))
-    out.append(f".SUBCKT {name} P1 S1 GND")
+    p_lo, s_lo = ("P_LO", "S_LO") if floating else ("GND", "GND")
+    p_hi, s_hi = ("P_HI", "S_HI") if floating else ("P1", "S1")
+    if floating:
+        out.append("* floating secondary: pins P_HI P_LO (primary), S_HI S_LO (secondary); "
+                   "C12 between P_HI and S_HI")
+    out.append(f".SUBCKT {name} {p_hi} {s_hi} GND" if not floating else f".SUBCKT {name} P_HI P_LO S_HI S_LO")
     if form == "coupled":
-        out += _series_chain("P1", "GND", [("R1", "np1", p.R1_ohm), ("L1", "", p.L1_H)])
-        out += _series_chain("S1", "GND", [("R2", "ns1", p.R2_ohm), ("L2", "", p.L2_H)])
+        out += _series_chain(p_hi, p_lo, [("R1", "np1", p.R1_ohm), ("L1", "", p.L1_H)])
+        out += _series_chain(s_hi, s_lo, [("R2", "ns1", p.R2_ohm), ("L2", "", p.L2_H)])
         out.append(f"K12 L1 L2 {_v(p.polarity * p.k)}")
     else:
         a = p.polarity * math.sqrt(p.L2_H / p.L1_H)  # a negative ratio reverses the secondary
-        out += _series_chain("P1", "m", [("R1", "np1", p.R1_ohm), ("LL1", "", p.L1_H * (1 - p.k))])
-        out.append(f"LM m GND {_v(p.k * p.L1_H)}")
+        out += _series_chain(p_hi, "m", [("R1", "np1", p.R1_ohm), ("LL1", "", p.L1_H * (1 - p.k))])
+        out.append(f"LM m {p_lo} {_v(p.k * p.L1_H)}")
         if not lossless:
-            out.append(f"RC m GND {_v(p.Rc_ohm)}")
-        out.append(f"E1 x GND m GND {_v(a)}")
+            out.append(f"RC m {p_lo} {_v(p.Rc_ohm)}")
+        out.append(f"E1 x {s_lo} m {p_lo} {_v(a)}")
         out.append("VSENSE x y 0")
-        out.append(f"F1 m GND VSENSE {_v(a)}")
-        out += _series_chain("y", "S1", [("LL2", "ns2", p.L2_H * (1 - p.k)), ("R2", "", p.R2_ohm)])
-    for elem, nodes, value in (("C1", "P1 GND", p.C1_F), ("C2", "S1 GND", p.C2_F),
-                               ("C12", "P1 S1", p.C12_F)):
+        out.append(f"F1 m {p_lo} VSENSE {_v(a)}")
+        out += _series_chain("y", s_hi, [("LL2", "ns2", p.L2_H * (1 - p.k)), ("R2", "", p.R2_ohm)])
+    for elem, nodes, value in (("C1", f"{p_hi} {p_lo}", p.C1_F), ("C2", f"{s_hi} {s_lo}", p.C2_F),
+                               ("C12", f"{p_hi} {s_hi}", p.C12_F)):
         if value > 0:
             out.append(f"{elem} {nodes} {_v(value)}")
     out.append(f".ENDS {name}")
