@@ -21,7 +21,7 @@ from timing import median, percentile, timings_s
 HERE = Path(__file__).resolve().parent
 POINTS = 1001
 REPEATS = 20
-TARGET_MEDIAN_S = 0.050
+TARGET_MEDIAN_S = 0.150  # the fit's target on one core (the global search of several starts costs more than one descent)
 BLAS_SETTINGS = {"BLAS threads as given": {}, "OPENBLAS_NUM_THREADS=1": {"OPENBLAS_NUM_THREADS": "1"}}
 
 
