@@ -70,6 +70,7 @@ def analyze_command(
     db: Optional[Path] = typer.Option(None, "--db", help="History store file (default: RFMEAS_DB or the user's data folder)."),
     report: Optional[Path] = typer.Option(None, "--report", help="Also write the HTML report to this file."),
     plots_dir: Optional[Path] = typer.Option(None, "--plots", help="Also write every plot as PNG, SVG and PDF into this folder."),
+    full: bool = typer.Option(False, "--full", help="Show every parameter, figure, sweep and note (default: verdicts, key figures and the circuit)."),
 ):
     """Fit the equivalent circuit to all sweeps of one transformer at once."""
     from rfmeas.errors import EXIT_DESIGN_FAILED
@@ -91,7 +92,7 @@ def analyze_command(
         from rfmeas.present.terminal import render_analysis
 
         console = stdout_console()
-        render_analysis(analysis, console)
+        render_analysis(analysis, console, full=full)
         if record_id is not None:
             console.print(f"[dim]recorded in the history as @{record_id}[/]")
     if report is not None or plots_dir is not None:
@@ -99,6 +100,9 @@ def analyze_command(
         from rfmeas.commands.report import tell, write_outputs
 
         tell(write_outputs(analysis, report, plots_dir), stderr_console() if json_output else stdout_console())
+    elif not json_output:
+        stdout_console().print("[dim]pictures: --report FILE writes the HTML report with every plot, "
+                               "--plots FOLDER the plot files.[/]")
     if not_kept is not None:
         from rfmeas.commands._common import report_error
 
