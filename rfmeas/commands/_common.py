@@ -52,8 +52,12 @@ def stderr_console():
 
 
 def stdout_console():
-    """The results console: the terminal's width, or 120 columns when piped to a file."""
-    return _console_class()(highlight=False, width=None if sys.stdout.isatty() else 120)
+    """The results console: the terminal's width (or COLUMNS), else 120 columns when piped to a file."""
+    import os
+
+    columns = os.environ.get("COLUMNS", "")
+    wide = sys.stdout.isatty() or (columns.isdigit() and int(columns) > 0)
+    return _console_class()(highlight=False, width=None if wide else 120)
 
 
 def report_error(message: str) -> None:

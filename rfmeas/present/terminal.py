@@ -289,7 +289,7 @@ def _render_verdicts(analysis, console, full: bool = True) -> None:
         console.print()
         return
     console.print(verdict_table(check))
-    shown = [v for v in check.verdicts if full or v.state != "pass"]
+    shown = [v for v in check.verdicts if v.state == "fail" or (full and v.state == "pass")]
     _bullets(console, [(_verdict_word(v), f"{escape(v.label)}: {escape(v.margin)}" +
                         ("" if v.advice in ("", "nothing to change") else f"; {escape(v.advice)}"))
                        for v in shown])
