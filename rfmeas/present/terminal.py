@@ -61,9 +61,13 @@ def estimate_text(est, unit: str) -> str:
 
 def quality_line(fit) -> str:
     """The fit judged against the data's own noise, in one plain sentence (rich markup)."""
-    q = fit.quality
-    colour = {"good": "green", "marginal": "yellow"}.get(q.grade, "bold red")
-    return f"fit quality: [{colour}]{q.grade}[/] — {escape(q.summary())}"
+    return f"fit quality: {_grade_text(fit.quality)} — {escape(fit.quality.summary())}"
+
+
+def _grade_text(quality) -> str:
+    """The fit's grade in its colour (rich markup)."""
+    colour = {"good": "green", "marginal": "yellow"}.get(quality.grade, "bold red")
+    return f"[{colour}]{quality.grade}[/]"
 
 
 def sweep_table(analysis):
@@ -189,9 +193,7 @@ def figure_rows(analysis) -> list[tuple[str, str, str]]:
             if fig.value is None:
                 row("A_L", fig)
                 continue
-            agree = fig.detail("agreement_percent")
-            row(fig.label, fig, "" if agree is None else
-                f"windings agree to {agree:+.2g} %" + ("" if fig.detail("agrees") else " — check the turns"))
+            row(fig.label, fig, _agreement_note(fig))
             for side in ("primary", "secondary"):
                 sub = fig.detail(side)
                 if sub is not None and sub.value is not None:
@@ -211,17 +213,30 @@ def figure_rows(analysis) -> list[tuple[str, str, str]]:
                 f"{format_engineering(rl.start.value, 'Hz')} – {format_engineering(rl.stop.value, 'Hz')}"
             rows.append((f"return loss ≥ {rl.threshold_dB:g} dB", band, _plain_note(rl.note, shared)))
         elif name == "turns_ratio":
-            notes = []
-            if fig.detail("nearest_secondary_turns") is not None:
-                notes.append(f"acts like {analysis.measurement.primary_turns}:{fig.detail('nearest_secondary_turns')}")
-            if fig.detail("design_ratio"):
-                notes.append(f"design 1:{fig.detail('design_ratio'):.4g}")
-            row(fig.label, fig, ", ".join(notes))
+            row(fig.label, fig, ", ".join(_ratio_notes(analysis, fig)))
             ocv = fig.detail("open_circuit_voltage_ratio")
             row(ocv.label, ocv)
         else:
             row(fig.label, fig)
     return rows
+
+
+def _agreement_note(fig) -> str:
+    """How well A_L from each winding agrees ('' when only one winding gives it)."""
+    agree = fig.detail("agreement_percent")
+    if agree is None:
+        return ""
+    return f"windings agree to {agree:+.2g} %" + ("" if fig.detail("agrees") else " — check the turns")
+
+
+def _ratio_notes(analysis, fig) -> list[str]:
+    """What the turns ratio acts like, and the design's ratio."""
+    notes = []
+    if fig.detail("nearest_secondary_turns") is not None:
+        notes.append(f"acts like {analysis.measurement.primary_turns}:{fig.detail('nearest_secondary_turns')}")
+    if fig.detail("design_ratio"):
+        notes.append(f"design 1:{fig.detail('design_ratio'):.4g}")
+    return notes
 
 
 def figures_table(analysis):
@@ -332,22 +347,14 @@ def key_figures_table(analysis):
             continue
         fig = figures[name]
         notes = []
-        if name == "inductance_factor_nH_per_turn2" and fig.detail("agreement_percent") is not None:
-            agree = fig.detail("agreement_percent")
-            notes.append(f"windings agree to {agree:+.2g} %" + ("" if fig.detail("agrees") else
-                                                                 " — check the turns"))
+        if name == "inductance_factor_nH_per_turn2" and _agreement_note(fig):
+            notes.append(_agreement_note(fig))
         elif name == "low_frequency_limit_Hz" and fig.detail("set_by"):
             notes.append(f"set by the {fig.detail('set_by')}")
         elif name == "turns_ratio":
-            if fig.detail("design_ratio"):
-                notes.append(f"design 1:{fig.detail('design_ratio'):.4g}")
-            if fig.detail("nearest_secondary_turns") is not None:
-                notes.append(f"acts like {analysis.measurement.primary_turns}:"
-                             f"{fig.detail('nearest_secondary_turns')}")
+            notes += _ratio_notes(analysis, fig)
         if fig.value is None and fig.note:
             notes.append(fig.note)
         table.add_row(fig.label, _value_text(fig), escape(", ".join(notes)))
-    q = analysis.fit.quality
-    colour = {"good": "green", "marginal": "yellow"}.get(q.grade, "bold red")
-    table.add_row("fit quality", f"[{colour}]{q.grade}[/]", escape(q.summary()))
+    table.add_row("fit quality", _grade_text(analysis.fit.quality), escape(analysis.fit.quality.summary()))
     return table
