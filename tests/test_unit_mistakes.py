@@ -99,3 +99,34 @@ def test_report_given_a_non_toml_file_says_what_was_expected(tmp_path):
     assert result.exit_code == 2
     assert re.search(r"expected a manifest \(\.toml.*Touchstone", result.stderr)
     assert "not valid TOML" not in result.stderr
+
+
+def test_unit_slips_on_a_seeded_population_are_caught_and_the_intended_value_suggested():
+    """Random sweeps (10 Hz to 10 GHz starts, 1-4 decades) with a band edge within a decade of them,
+    typed with a dropped prefix (MHz or GHz written as Hz: 1e-6 or 1e-9 of the intended value).
+    A slip is refused exactly when it lands more than UNIT_SLIP_FACTOR below the sweep (a 1e-6 slip
+    of a band far above a wide sweep can land within it: that is the rule's price), and every refusal
+    suggests the intended value. Correct bands are never refused."""
+    import numpy as np
+
+    from rfmeas.units import format_engineering
+
+    rng = np.random.default_rng(16)
+    caught, cases = 0, 300
+    for _ in range(cases):
+        low = 10 ** rng.uniform(1, 10)
+        high = low * 10 ** rng.uniform(1, 4)
+        intended = low * 10 ** rng.uniform(-1, np.log10(high / low) + 1)  # within a decade of the sweep
+        check_band_units(intended, None, low, high)  # the correct band passes
+        slip = intended * rng.choice([1e-6, 1e-9])
+        if slip >= low / UNIT_SLIP_FACTOR:
+            check_band_units(slip, None, low, high)
+            continue
+        with pytest.raises(InputError) as exc:
+            check_band_units(slip, None, low, high)
+        caught += 1
+        # the suggestions name the intended value with its prefix, e.g. "1.8M (1.8 MHz)"
+        suggestions = str(exc.value).split("did you mean ", 1)[1]
+        assert format_engineering(intended, "Hz") in suggestions, (intended, str(exc.value))
+    print(f"unit slips caught: {caught} of {cases}")
+    assert caught > cases * 0.8  # most slips land far below the sweep (seeded: the count is fixed)

@@ -357,21 +357,22 @@ a sweep chosen for a design covers its band, or comes within a decade or two of 
 
 
 def _likely_unit(value_Hz: float, swept_low_Hz: float, swept_high_Hz: float) -> str | None:
-    """The engineering text ('1.8M') of `value_Hz` read with the prefix that lands it nearest the
-    middle of the swept range (on a log scale), if that reading lies near the range; else None."""
+    """The engineering text ('1.8M (1.8 MHz)') of `value_Hz` read with each SI prefix that lands it
+    within a decade of the swept range, nearest the range's middle first ('16.5k (16.5 kHz) or
+    16.5M (16.5 MHz)' when both could be meant); None when no prefix brings it near the sweep."""
     centre = math.sqrt(swept_low_Hz * swept_high_Hz)
-    best = None
-    for factor in (1e-9, 1e-6, 1e-3, 1e3, 1e6, 1e9):
-        scaled = value_Hz * factor
-        distance = abs(math.log10(scaled / centre))
-        if best is None or distance < best[0]:
-            best = (distance, scaled)
-    scaled = best[1]
-    if not swept_low_Hz / 100 <= scaled <= swept_high_Hz * 100:
+    readings = [value_Hz * factor for factor in (1e-9, 1e-6, 1e-3, 1e3, 1e6, 1e9)]
+    near = sorted((r for r in readings if swept_low_Hz / 10 <= r <= swept_high_Hz * 10),
+                  key=lambda r: abs(math.log10(r / centre)))
+    if not near:
         return None
-    text = eng(scaled, "Hz")
-    number, unit = text.split(" ")
-    return f"{number}{unit[:-2]} ({text})" if len(unit) > 2 else text
+
+    def text(scaled: float) -> str:
+        full = eng(scaled, "Hz")
+        number, unit = full.split(" ")
+        return f"{number}{unit[:-2]} ({full})" if len(unit) > 2 else full
+
+    return " or ".join(text(r) for r in near)
 
 
 def check_band_units(lowest_Hz: float | None, highest_Hz: float | None, swept_low_Hz: float,
