@@ -61,6 +61,7 @@ def _design_target(design, plan: str | None, return_loss: str | None):
 def analyze_command(
     inputs: List[Path] = typer.Argument(..., help="A manifest (.toml or its folder), or Touchstone files for a quick look."),
     json_output: bool = typer.Option(False, "--json", help="Print the JSON result on stdout and nothing else."),
+    full: bool = typer.Option(False, "--full", help="Show every parameter, figure, sweep and note (default: verdicts, key figures and the circuit)."),
     turns: Optional[str] = typer.Option(None, "--turns", help="Turns PRIMARY:SECONDARY for files without a manifest, e.g. 3:9."),
     termination: Optional[str] = typer.Option(None, "--termination", help="One-port files without a manifest: what the other winding sees (open, short, or ohms; default open)."),
     port1: str = typer.Option("primary", "--port1", help="One-port files without a manifest: the winding on port 1."),
@@ -70,7 +71,6 @@ def analyze_command(
     db: Optional[Path] = typer.Option(None, "--db", help="History store file (default: RFMEAS_DB or the user's data folder)."),
     report: Optional[Path] = typer.Option(None, "--report", help="Also write the HTML report to this file."),
     plots_dir: Optional[Path] = typer.Option(None, "--plots", help="Also write every plot as PNG, SVG and PDF into this folder."),
-    full: bool = typer.Option(False, "--full", help="Show every parameter, figure, sweep and note (default: verdicts, key figures and the circuit)."),
 ):
     """Fit the equivalent circuit to all sweeps of one transformer at once."""
     from rfmeas.errors import EXIT_DESIGN_FAILED
@@ -95,14 +95,14 @@ def analyze_command(
         render_analysis(analysis, console, full=full)
         if record_id is not None:
             console.print(f"[dim]recorded in the history as @{record_id}[/]")
+        if report is None and plots_dir is None:
+            console.print("[dim]pictures: --report FILE writes the HTML report with every plot, "
+                          "--plots FOLDER the plot files.[/]")
     if report is not None or plots_dir is not None:
         from rfmeas.commands._common import stderr_console
         from rfmeas.commands.report import tell, write_outputs
 
         tell(write_outputs(analysis, report, plots_dir), stderr_console() if json_output else stdout_console())
-    elif not json_output:
-        stdout_console().print("[dim]pictures: --report FILE writes the HTML report with every plot, "
-                               "--plots FOLDER the plot files.[/]")
     if not_kept is not None:
         from rfmeas.commands._common import report_error
 
