@@ -74,7 +74,9 @@ def analyze(measurement: MeasurementSet) -> Analysis:
     from rfmeas.fit.solver import fit_sweeps
     from rfmeas.fit.result import build_result
     from rfmeas.fit.checks import method_warnings, review_fit, review_sweeps
+    from rfmeas.judge.design import check_design_units
 
+    check_design_units(measurement)  # a band typed in the wrong unit: an error, not absurd verdicts
     pre, unusable = review_sweeps(measurement)  # raises FitError when no sweep is usable
     advice = method_warnings(measurement)
     recorded = measurement

@@ -129,7 +129,7 @@ def test_failing_design_exits_1_with_a_readable_verdict_table():
     assert "Design check: FAIL" in out
     assert "FAIL" in out.split("Design check: FAIL", 1)[1]
     assert "wind 15 turns" in " ".join(out.split())
-    assert "Figures" in out and "A_L" in out
+    assert "Key figures" in out and "A_L" in out
 
 
 def test_failing_design_in_json_exits_1():

@@ -59,7 +59,7 @@ def _expected_ratio(sigma):
 
 def _render(analysis) -> str:
     console = Console(record=True, width=200, force_terminal=False)
-    render_analysis(analysis, console)
+    render_analysis(analysis, console, full=True)
     return console.export_text()
 
 

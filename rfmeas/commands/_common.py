@@ -52,8 +52,12 @@ def stderr_console():
 
 
 def stdout_console():
-    """The results console: the terminal's width, or 120 columns when piped to a file."""
-    return _console_class()(highlight=False, width=None if sys.stdout.isatty() else 120)
+    """The results console: the terminal's width (or COLUMNS), else 120 columns when piped to a file."""
+    import os
+
+    columns = os.environ.get("COLUMNS", "")
+    wide = sys.stdout.isatty() or (columns.isdigit() and int(columns) > 0)
+    return _console_class()(highlight=False, width=None if wide else 120)
 
 
 def report_error(message: str) -> None:
@@ -109,3 +113,39 @@ def handles_errors(func):
 
 def print_json(data) -> None:
     sys.stdout.write(dumps_json(data) + "\n")
+
+
+TOUCHSTONE_SUFFIXES = (".s1p", ".s2p")
+
+
+def resolve_measurement(inputs, turns: str | None = None, termination: str | None = None,
+                        port1: str = "primary"):
+    """The MeasurementSet behind a command's inputs: one manifest (.toml or its folder), or
+    Touchstone files with --turns, --termination (one-port files only) and --port1.
+
+    `analyze` and `report` both take their inputs this way.
+    """
+    from pathlib import Path
+
+    from rfmeas.errors import InputError
+    from rfmeas.measurement.manifest import load_manifest, measurement_set_from_files, parse_turns
+
+    paths = [Path(p) for p in inputs]
+    first = paths[0]
+    if first.suffix.lower() == ".toml" or first.is_dir():
+        if len(paths) > 1:
+            raise InputError("give one manifest, or Touchstone files without a manifest", first)
+        return load_manifest(first)
+    for p in paths:
+        if p.suffix.lower() not in TOUCHSTONE_SUFFIXES:
+            raise InputError("expected a manifest (.toml, or the folder holding manifest.toml) or "
+                             "Touchstone sweeps (.s1p, .s2p)", p)
+    if port1 not in ("primary", "secondary"):
+        raise InputError(f"--port1 must be primary or secondary, not {port1!r}")
+    if termination is not None:
+        two_ports = [p for p in paths if p.suffix.lower() == ".s2p"]
+        if two_ports:
+            raise InputError("--termination applies to one-port (.s1p) sweeps only: a two-port sweep "
+                             "measures both windings itself; leave --termination out", two_ports[0])
+    return measurement_set_from_files(paths, parse_turns(turns) if turns else None,
+                                      termination or "open", port1)

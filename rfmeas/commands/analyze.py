@@ -61,8 +61,9 @@ def _design_target(design, plan: str | None, return_loss: str | None):
 def analyze_command(
     inputs: List[Path] = typer.Argument(..., help="A manifest (.toml or its folder), or Touchstone files for a quick look."),
     json_output: bool = typer.Option(False, "--json", help="Print the JSON result on stdout and nothing else."),
+    full: bool = typer.Option(False, "--full", help="Show every parameter, figure, sweep and note (default: verdicts, key figures and the circuit)."),
     turns: Optional[str] = typer.Option(None, "--turns", help="Turns PRIMARY:SECONDARY for files without a manifest, e.g. 3:9."),
-    termination: str = typer.Option("open", "--termination", help="One-port files without a manifest: what the other winding sees (open, short, or ohms)."),
+    termination: Optional[str] = typer.Option(None, "--termination", help="One-port files without a manifest: what the other winding sees (open, short, or ohms; default open)."),
     port1: str = typer.Option("primary", "--port1", help="One-port files without a manifest: the winding on port 1."),
     plan: Optional[str] = typer.Option(None, "--plan", help="Check against a target SOURCE:LOAD:LOWEST[:HIGHEST] (ohms, ohms, Hz, Hz; e.g. 50:450:3.5M:30M) instead of the manifest's [design]."),
     return_loss: Optional[str] = typer.Option(None, "--return-loss", help="Return-loss threshold in dB for the band and its check (default 15, or the manifest's return_loss_dB)."),
@@ -90,9 +91,12 @@ def analyze_command(
         from rfmeas.present.terminal import render_analysis
 
         console = stdout_console()
-        render_analysis(analysis, console)
+        render_analysis(analysis, console, full=full)
         if record_id is not None:
             console.print(f"[dim]recorded in the history as @{record_id}[/]")
+        if report is None and plots_dir is None:
+            console.print("[dim]pictures: --report FILE writes the HTML report with every plot, "
+                          "--plots FOLDER the plot files.[/]")
     if report is not None or plots_dir is not None:
         from rfmeas.commands._common import stderr_console
         from rfmeas.commands.report import tell, write_outputs
@@ -117,24 +121,18 @@ def analyze_command(
         raise typer.Exit(EXIT_DESIGN_FAILED)
 
 
-def run_analysis(inputs, turns=None, termination="open", port1="primary", plan=None, return_loss=None):
+def run_analysis(inputs, turns=None, termination=None, port1="primary", plan=None, return_loss=None):
     """Analyse a manifest (path or folder) or a list of Touchstone files, with an optional target."""
     from dataclasses import replace
 
     from rfmeas.analysis import analyze
-    from rfmeas.errors import InputError
-    from rfmeas.measurement.manifest import load_manifest, measurement_set_from_files, parse_turns
+    from rfmeas.commands._common import resolve_measurement
 
-    first = Path(inputs[0])
-    if first.suffix.lower() == ".toml" or first.is_dir():
-        if len(inputs) > 1:
-            raise InputError("give one manifest, or Touchstone files without a manifest", first)
-        measurement = load_manifest(first)
-    else:
-        if port1 not in ("primary", "secondary"):
-            raise InputError(f"--port1 must be primary or secondary, not {port1!r}")
-        measurement = measurement_set_from_files(list(inputs), parse_turns(turns) if turns else None,
-                                                 termination, port1)
+    measurement = resolve_measurement(inputs, turns, termination, port1)
     if plan is not None or return_loss is not None:
         measurement = replace(measurement, design=_design_target(measurement.design, plan, return_loss))
+        if plan is not None:
+            from rfmeas.judge.design import check_design_units
+
+            check_design_units(measurement, ("--plan lowest", "--plan highest"))
     return analyze(measurement)

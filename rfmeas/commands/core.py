@@ -265,6 +265,10 @@ def core_command(
     sweeps = list(sweeps or [])
     if not sweeps and readings is None:
         raise InputError("give a sweep (or a manifest) of the winding, or --readings with LCR readings")
+    two_ports = [p for p in sweeps if Path(p).suffix.lower() == ".s2p"]
+    if two_ports and method is None:
+        raise InputError("a two-port sweep: say how it was measured with --method reflection (S11), "
+                         "series-through or shunt-through (S21)", two_ports[0])
     counts = _turn_counts(turns)
     geometry = _geometry(toroid, effective, two_hole, rod)
     errors = _error_model(directivity, source_match, tracking)

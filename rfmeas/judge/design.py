@@ -347,3 +347,67 @@ def check_design(facts: DesignFacts, design: DesignTarget, cannot_judge: tuple[s
     if reasons:
         verdicts = [not_judged(v, "; ".join(reasons)) for v in verdicts]
     return DesignCheck(tuple(verdicts), design, reasons)
+
+
+# ---- a design band in the wrong unit -------------------------------------------------------------
+
+UNIT_SLIP_FACTOR = 1000.0
+"""A band edge more than this factor outside the swept range is taken as a unit slip (common practice:
+a sweep chosen for a design covers its band, or comes within a decade or two of it)."""
+
+
+def _likely_unit(value_Hz: float, swept_low_Hz: float, swept_high_Hz: float) -> str | None:
+    """The engineering text ('1.8M (1.8 MHz)') of `value_Hz` read with each SI prefix that lands it
+    within a decade of the swept range, nearest the range's middle first ('16.5k (16.5 kHz) or
+    16.5M (16.5 MHz)' when both could be meant); None when no prefix brings it near the sweep."""
+    centre = math.sqrt(swept_low_Hz * swept_high_Hz)
+    readings = [value_Hz * factor for factor in (1e-9, 1e-6, 1e-3, 1e3, 1e6, 1e9)]
+    near = sorted((r for r in readings if swept_low_Hz / 10 <= r <= swept_high_Hz * 10),
+                  key=lambda r: abs(math.log10(r / centre)))
+    if not near:
+        return None
+
+    def text(scaled: float) -> str:
+        full = eng(scaled, "Hz")
+        number, unit = full.split(" ")
+        return f"{number}{unit[:-2]} ({full})" if len(unit) > 2 else full
+
+    return " or ".join(text(r) for r in near)
+
+
+def check_band_units(lowest_Hz: float | None, highest_Hz: float | None, swept_low_Hz: float,
+                     swept_high_Hz: float, labels: tuple[str, str] = ("lowest frequency", "highest frequency"),
+                     path=None) -> None:
+    """Refuse a design band edge far (more than UNIT_SLIP_FACTOR) outside the swept range: it was almost
+    surely typed in the wrong unit ('--plan 50:450:1.8:30M' for 1.8 MHz). Judged as it stands, it
+    would give absurd verdicts and rewind advice. The InputError suggests the likely unit.
+
+    `labels` name the two edges as the user wrote them (option or manifest key).
+    """
+    from rfmeas.errors import InputError
+
+    for value, label in zip((lowest_Hz, highest_Hz), labels):
+        if value is None or not value > 0:
+            continue
+        if swept_low_Hz / UNIT_SLIP_FACTOR <= value <= swept_high_Hz * UNIT_SLIP_FACTOR:
+            continue
+        side = "below" if value < swept_low_Hz else "above"
+        guess = _likely_unit(value, swept_low_Hz, swept_high_Hz)
+        hint = f"; did you mean {guess}?" if guess else "; check its unit (Hz)"
+        raise InputError(f"{label} = {eng(value, 'Hz')} is far {side} the swept range "
+                         f"{eng(swept_low_Hz, 'Hz')} – {eng(swept_high_Hz, 'Hz')}{hint}", path)
+
+
+MANIFEST_BAND_LABELS = ("design lowest_frequency_Hz", "design highest_frequency_Hz")
+
+
+def check_design_units(measurement, labels: tuple[str, str] = MANIFEST_BAND_LABELS) -> None:
+    """`check_band_units` for a measurement set's design against the union of its sweeps. The error
+    names the manifest when the band came from it; an option's label (`labels`) stands on its own."""
+    design = measurement.design
+    if design is None or not measurement.sweeps:
+        return
+    f_low = min(float(s.f_Hz.min()) for s in measurement.sweeps)
+    f_high = max(float(s.f_Hz.max()) for s in measurement.sweeps)
+    path = measurement.manifest_path if labels == MANIFEST_BAND_LABELS else None
+    check_band_units(design.lowest_frequency_Hz, design.highest_frequency_Hz, f_low, f_high, labels, path)
