@@ -41,9 +41,10 @@ def parse_engineering(text: str | float | int) -> float:
     return value
 
 
-# Units that never take an SI prefix: a dimensionless number (k, a ratio, µe) would
-# read "990 m" or "2 µ" (µ reads as permeability), and a prefixed dB is not used.
-NO_PREFIX_UNITS = frozenset({"", "dB", "%", "°", "×"})
+# Only these SI units take a prefix letter. A dimensionless number (k, a ratio, µe) would
+# read "990 m" or "2 µ" (µ reads as permeability); dB, % and compound units such as
+# nH/turn² are shown as plain numbers followed by their unit.
+PREFIXED_UNITS = frozenset({"Hz", "H", "Ω", "F", "V", "A", "W", "s"})
 # At most this many significant digits of a value are shown, however small its error.
 MAX_SIGNIFICANT_DIGITS = 9
 # A dimensionless number outside [1e-4, 1e7) is written with a shared power of ten.
@@ -56,7 +57,7 @@ def _join(text: str, unit: str) -> str:
 
 def _prefix_exponent(magnitude: float, unit: str) -> int:
     """Engineering exponent (multiple of 3, clamped to f..T) for `magnitude`; 0 for unprefixed units."""
-    if unit in NO_PREFIX_UNITS or magnitude == 0 or not math.isfinite(magnitude):
+    if unit not in PREFIXED_UNITS or magnitude == 0 or not math.isfinite(magnitude):
         return 0
     return max(-15, min(12, int(math.floor(math.log10(magnitude) / 3.0) * 3)))
 
@@ -77,7 +78,7 @@ def _non_finite(value: float, unit: str) -> str:
 def format_engineering(value: float | None, unit: str = "", digits: int = 4) -> str:
     """Format `value` with an SI prefix and `digits` significant figures: 2.2e-6, 'H' -> '2.2 µH'.
 
-    Dimensionless values and units in NO_PREFIX_UNITS get no prefix letter (0.99, not 990 m).
+    Only PREFIXED_UNITS get a prefix letter (0.99, not 990 m).
     """
     if value is None:
         return "—"
@@ -87,7 +88,7 @@ def format_engineering(value: float | None, unit: str = "", digits: int = 4) -> 
     if value == 0:
         return _join("0", unit)
     rounded = float(f"{value:.{digits}g}")  # round to `digits` significant figures first
-    if unit in NO_PREFIX_UNITS:
+    if unit not in PREFIXED_UNITS:
         low, high = _PLAIN_RANGE
         if not low <= abs(rounded) < high:
             mantissa, _, exp = f"{rounded:.{digits - 1}e}".partition("e")
@@ -95,7 +96,7 @@ def format_engineering(value: float | None, unit: str = "", digits: int = 4) -> 
                 mantissa = mantissa.rstrip("0").rstrip(".")
             return _join(f"{mantissa}e{int(exp)}", unit)
     exponent = _prefix_exponent(abs(rounded), unit)
-    prefix = dict(_FORMAT_PREFIXES)[exponent] if unit not in NO_PREFIX_UNITS else ""
+    prefix = dict(_FORMAT_PREFIXES)[exponent] if unit in PREFIXED_UNITS else ""
     scaled = rounded / 10.0 ** exponent
     decimals = max(0, digits - 1 - int(math.floor(math.log10(abs(scaled)))))
     text = f"{scaled:.{decimals}f}"
@@ -145,7 +146,7 @@ def format_with_error(value: float | None, stderr: float | None, unit: str = "")
             below = err_rounded == 0
     value_rounded = round(value, -place)
     magnitude = max(abs(value_rounded), err_rounded)
-    if unit in NO_PREFIX_UNITS:
+    if unit not in PREFIXED_UNITS:
         low, high = _PLAIN_RANGE
         if magnitude and not low <= magnitude < high:
             power = int(math.floor(math.log10(magnitude)))

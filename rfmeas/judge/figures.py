@@ -36,6 +36,7 @@ from rfmeas.measurement.sweep import DEFAULT_REACTANCE_FACTOR, DEFAULT_RETURN_LO
 from rfmeas.model.response import band_response, minimum_return_loss_dB, open_circuit_voltage_ratio, \
     reactance_limit_Hz, return_loss_dB, self_resonance_Hz
 from rfmeas.units import format_engineering as eng
+from rfmeas.labels import FIGURE_LABELS  # noqa: F401 (re-exported: the one vocabulary)
 
 log = logging.getLogger(__name__)
 
@@ -236,20 +237,6 @@ class ReturnLossBand:
         return d
 
 
-# JSON key -> (label, unit), in the order people read them (terminal table, report)
-FIGURE_LABELS = {
-    "inductance_factor_nH_per_turn2": ("A_L (nH/turn²)", "nH/turn²"),
-    "effective_permeability": ("effective permeability µe", ""),
-    "low_frequency_limit_Hz": ("reactance-rule limit", "Hz"),
-    "low_frequency_corner_3dB_Hz": ("lower corner −3 dB", "Hz"),
-    "low_frequency_corner_1dB_Hz": ("lower corner −1 dB", "Hz"),
-    "high_frequency_corner_1dB_Hz": ("upper corner −1 dB", "Hz"),
-    "high_frequency_corner_3dB_Hz": ("upper corner −3 dB", "Hz"),
-    "midband_insertion_loss_dB": ("mid-band insertion loss (dB)", "dB"),
-    "self_resonance_primary_Hz": ("self-resonance, primary (secondary open)", "Hz"),
-    "self_resonance_secondary_Hz": ("self-resonance, secondary (primary open)", "Hz"),
-    "turns_ratio": ("turns ratio √(L2/L1)", ""),
-}
 # the JSON contract's order of the figures section (docs/DESIGN.md); a figure added later follows them
 _JSON_ORDER = ("inductance_factor_nH_per_turn2", "effective_permeability", "low_frequency_limit_Hz",
                "low_frequency_corner_1dB_Hz", "low_frequency_corner_3dB_Hz", "high_frequency_corner_1dB_Hz",

@@ -34,11 +34,8 @@ def parameter_table(analysis):
 def estimate_text(est, unit: str) -> str:
     """'12.31 ± 0.05 µH'; a determined value without a usable standard error gets '± ?' (never bare)."""
     if est.stderr is None:
-        value = format_engineering(est.value, unit) if unit else f"{est.value:.5g}"
-        return f"{value} ± ?"
-    if unit:
-        return format_with_error(est.value, est.stderr, unit)
-    return f"{est.value:.5g} ± {est.stderr:.2g}"
+        return f"{format_engineering(est.value, unit, 5)} ± ?"
+    return format_with_error(est.value, est.stderr, unit)
 
 
 def quality_line(fit) -> str:
@@ -105,10 +102,8 @@ def _value_text(fig, digits: int = 4) -> str:
         return "—"
     unit = fig.unit if fig.unit == "Hz" else ""
     if not fig.stderr:  # None or 0: no standard error, which the note explains
-        return (format_engineering(fig.value, unit) if unit else f"{fig.value:.{digits}g}") + " ± ?"
-    if unit:
-        return format_with_error(fig.value, fig.stderr, unit)
-    return f"{fig.value:.{digits}g} ± {fig.stderr:.2g}"
+        return format_engineering(fig.value, unit, digits) + " ± ?"
+    return format_with_error(fig.value, fig.stderr, unit)
 
 
 def _plain_note(note: str, shared: str) -> str:
@@ -168,7 +163,7 @@ def figure_rows(analysis) -> list[tuple[str, str, str]]:
             if fig.detail("nearest_secondary_turns") is not None:
                 notes.append(f"acts like {analysis.measurement.primary_turns}:{fig.detail('nearest_secondary_turns')}")
             if fig.detail("design_ratio"):
-                notes.append(f"design 1:{fig.detail('design_ratio'):.4g}")
+                notes.append(f"design 1:{format_engineering(fig.detail('design_ratio'))}")
             row(fig.label, fig, ", ".join(notes))
             ocv = fig.detail("open_circuit_voltage_ratio")
             row(ocv.label, ocv)
@@ -200,9 +195,8 @@ def verdict_table(check):
     for v in check.verdicts:
         verdict = {"pass": "[green]pass[/]", "fail": "[bold red]FAIL[/]"}.get(v.state, "[yellow]not judged[/]")
         unit = v.unit
-        fmt = (lambda x: format_engineering(x, unit)) if unit == "Hz" else \
-            (lambda x: f"{x:.4g}{' ' + unit if unit else ''}")
-        table.add_row(escape(v.label), verdict, fmt(v.value), fmt(v.limit), escape(v.margin), escape(v.advice))
+        table.add_row(escape(v.label), verdict, format_engineering(v.value, unit), format_engineering(v.limit, unit),
+                      escape(v.margin), escape(v.advice))
     return table
 
 
