@@ -39,6 +39,13 @@ FIGURE_LABELS: dict[str, tuple[str, str]] = {
     "turns_ratio": ("turns ratio √(L2/L1)", ""),
 }
 
+# keys inside a figure's entry (its details) that people see as rows of their own
+FIGURE_DETAIL_LABELS: dict[str, tuple[str, str]] = {
+    "uH_per_100_turns": ("in µH per 100 turns", "uH/100"),
+    "mH_per_1000_turns": ("in mH per 1000 turns", "mH/1000"),
+    "open_circuit_voltage_ratio": ("open-circuit voltage ratio", ""),
+}
+
 # other JSON keys people see named
 OTHER_LABELS: dict[str, tuple[str, str]] = {
     "return_loss_band": ("return-loss band", "Hz"),
@@ -49,7 +56,8 @@ DERIVED_LABELS: dict[str, tuple[str, str]] = {
     "ratio_error_percent": ("turns-ratio error (%)", "%"),
 }
 
-QUANTITIES: dict[str, tuple[str, str]] = {**PARAMETER_LABELS, **FIGURE_LABELS, **OTHER_LABELS, **DERIVED_LABELS}
+QUANTITIES: dict[str, tuple[str, str]] = {**PARAMETER_LABELS, **FIGURE_LABELS, **FIGURE_DETAIL_LABELS,
+                                          **OTHER_LABELS, **DERIVED_LABELS}
 
 
 def label(key: str) -> str:

@@ -36,7 +36,8 @@ from rfmeas.measurement.sweep import DEFAULT_REACTANCE_FACTOR, DEFAULT_RETURN_LO
 from rfmeas.model.response import band_response, minimum_return_loss_dB, open_circuit_voltage_ratio, \
     reactance_limit_Hz, return_loss_dB, self_resonance_Hz
 from rfmeas.units import format_engineering as eng
-from rfmeas.labels import FIGURE_LABELS  # noqa: F401 (re-exported: the one vocabulary)
+from rfmeas.labels import FIGURE_DETAIL_LABELS, FIGURE_LABELS  # the one vocabulary
+from rfmeas.labels import label as label_of
 
 log = logging.getLogger(__name__)
 
@@ -411,8 +412,8 @@ def compute_figures(measurement, result, cannot_judge: tuple[str, ...] = ()) \
                 f"differ by {agreement:+.2g} %: the stated turns may be wrong or a winding does not sit "
                 "fully on the core")
         scaled = {}
-        for unit, key, label in (("uH/100", "uH_per_100_turns", "in µH per 100 turns"),
-                                 ("mH/1000", "mH_per_1000_turns", "in mH per 1000 turns")):
+        for key in ("uH_per_100_turns", "mH_per_1000_turns"):
+            label, unit = FIGURE_DETAIL_LABELS[key]
             conv = float(nH_per_turn2_to(1.0, unit))
             scaled[key] = Figure(key, label, unit, None if al.value is None else al.value * conv,
                                  None if al.stderr is None else al.stderr * conv)
@@ -481,7 +482,7 @@ def compute_figures(measurement, result, cannot_judge: tuple[str, ...] = ()) \
     nearest_primary = max(1, round(n2 / n)) if (n2 and ratio.value) else None
     ratio = ratio.with_details(
         effective=Figure("effective", "effective turns ratio", "", ratio.value, ratio.stderr),
-        open_circuit_voltage_ratio=b.obj("ocv_ratio", "open_circuit_voltage_ratio", "open-circuit voltage ratio",
+        open_circuit_voltage_ratio=b.obj("ocv_ratio", "open_circuit_voltage_ratio", label_of("open_circuit_voltage_ratio"),
                                          frequency_Hz=values["midband_Hz"]),
         stated_ratio=(n2 / n1) if (n1 and n2) else None,
         nearest_secondary_turns=nearest_secondary, nearest_primary_turns=nearest_primary,
