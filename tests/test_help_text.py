@@ -52,3 +52,30 @@ def test_bracketed_section_names_are_kept():
 def test_analyze_help_names_the_design_table():
     # the example: "instead of the manifest's [design]" lost its [design]
     assert "[design]" in _help(["analyze"])
+
+
+SAMPLE = __import__("pathlib").Path(__file__).resolve().parents[1] / "sample_data" / "coupler-after"
+
+
+def test_export_takes_one_sweep_option_and_keeps_the_old_spelling(tmp_path):
+    from rfmeas.io.touchstone import read_touchstone
+
+    new, old = tmp_path / "new.s2p", tmp_path / "old.s2p"
+    runner = CliRunner()
+    res = runner.invoke(app, ["export", str(SAMPLE), "--touchstone", str(new), "--sweep", "100k:10M:21"])
+    assert res.exit_code == 0, res.output
+    res = runner.invoke(app, ["export", str(SAMPLE), "--touchstone", str(old), "--start", "100k", "--stop", "10M",
+                              "--points", "21"])
+    assert res.exit_code == 0, res.output
+    a, b = read_touchstone(new).network, read_touchstone(old).network
+    assert a.f.size == b.f.size == 21 and a.f[0] == pytest.approx(1e5) and a.f[-1] == pytest.approx(1e7)
+    assert (a.s == b.s).all()
+    both = runner.invoke(app, ["export", str(SAMPLE), "--touchstone", str(new), "--sweep", "100k:10M:21",
+                               "--points", "5"])
+    assert both.exit_code == 2
+    assert "--start" not in _help(["export"]) and "--sweep" in _help(["export"])  # the old name is hidden
+
+
+def test_history_export_overwrite_and_its_old_spelling():
+    text = _help(["history"])
+    assert "--overwrite" in text and "--force" not in text
