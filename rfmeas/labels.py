@@ -60,6 +60,18 @@ QUANTITIES: dict[str, tuple[str, str]] = {**PARAMETER_LABELS, **FIGURE_LABELS, *
                                           **OTHER_LABELS, **DERIVED_LABELS}
 
 
+# the circuit's own parameter names (TransformerParams fields) -> the symbol people read
+PARAMETER_SYMBOLS: dict[str, str] = {
+    "L1_H": "L1", "L2_H": "L2", "k": "k", "R1_ohm": "R1", "R2_ohm": "R2", "Rc_ohm": "Rc",
+    "C1_F": "C1", "C2_F": "C2", "C12_F": "C12",
+}
+
+
+def symbols(names) -> str:
+    """'L2, k' for the parameter names ('L2_H', 'k'): what a message shows of them."""
+    return ", ".join(PARAMETER_SYMBOLS.get(n, n) for n in names)
+
+
 def label(key: str) -> str:
     """The one label of a JSON key; a dotted 'section.key' is looked up by its last part.
 

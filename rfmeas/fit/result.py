@@ -47,7 +47,7 @@ from rfmeas.fit.solver import FitOutcome
 from rfmeas.model.params import PARAMETER_NAMES, TransformerParams
 from rfmeas.measurement.noise import error_sigma
 from rfmeas.measurement.sweep import Sweep
-from rfmeas.labels import PARAMETER_LABELS
+from rfmeas.labels import PARAMETER_LABELS, symbols
 
 # JSON key, internal name, unit for display
 PARAMETER_KEYS = (
@@ -251,7 +251,7 @@ def build_estimates(outcome: FitOutcome) -> dict:
         if p.held:
             note = "; ".join(sorted({outcome.held[n][1] for n in p.held}))
             if name not in PARAMETER_NAMES:
-                note = f"needs {', '.join(p.held)}: {note}"
+                note = f"needs {symbols(p.held)}: {note}"
             out[key] = Estimate(None, None, False, _derived_value(name, values), note)
             continue
         out[key] = Estimate(float(p.value), p.stderr, note=outcome.referred.get(name, ""), stderr_note=p.reason)

@@ -220,7 +220,7 @@ def _ratio_vs_design(facts: DesignFacts, design: DesignTarget) -> Verdict:
         more, fewer = ("secondary", "primary") if off < 0 else ("primary", "secondary")
         advice = (f"{direction} the ratio by {_percent(off)}: add turns to the {more} "
                   f"or take turns off the {fewer}")
-    return Verdict("turns_ratio_vs_design", "turns ratio against sqrt(load/source)", passed,
+    return Verdict("turns_ratio_vs_design", "turns ratio against √(load/source)", passed,
                    value, target, "", margin, advice)
 
 
@@ -315,7 +315,7 @@ def _return_loss(facts: DesignFacts, design: DesignTarget) -> Verdict:
     if passed:
         advice = NOTHING_TO_CHANGE
     elif facts.midband_return_loss_dB is not None and facts.midband_return_loss_dB < limit:
-        advice = ("the match is off even at mid-band: bring the turns ratio to sqrt(load/source)")
+        advice = ("the match is off even at mid-band: bring the turns ratio to √(load/source)")
     elif facts.midband_Hz is not None and facts.min_return_loss_at_Hz < facts.midband_Hz:
         advice = ("the magnetising inductance shunts the low end: more turns on both windings, "
                   "or a core with a higher A_L")

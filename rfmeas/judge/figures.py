@@ -37,7 +37,7 @@ from rfmeas.model.response import band_response, minimum_return_loss_dB, open_ci
     reactance_limit_Hz, return_loss_dB, self_resonance_Hz
 from rfmeas.units import format_engineering as eng
 from rfmeas.labels import FIGURE_DETAIL_LABELS, FIGURE_LABELS  # the one vocabulary
-from rfmeas.labels import label as label_of
+from rfmeas.labels import label as label_of, symbols
 
 log = logging.getLogger(__name__)
 
@@ -307,7 +307,7 @@ class _Builder:
 
     def reason(self, names) -> str:
         reasons = sorted({self.held[n][1] for n in names})
-        return f"needs {', '.join(names)}, not determined ({'; '.join(reasons)})"
+        return f"needs {symbols(names)}, not determined ({'; '.join(reasons)})"
 
     def obj(self, key, name: str, label: str = "", unit: str = "", scale: float = 1.0, **extra) -> Figure:
         """The Figure of scalar `key` as `name`; `extra` become its further fields (a 'note' there
