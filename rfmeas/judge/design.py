@@ -295,14 +295,14 @@ def _high_corner(facts: DesignFacts, design: DesignTarget) -> Verdict:
     limit = design.highest_frequency_Hz
     if facts.high_corner_3dB_Hz is None:
         value = facts.evaluated_top_Hz
-        return Verdict("high_frequency_corner", "upper −3 dB corner at or above the highest frequency",
+        return Verdict("high_frequency_corner", "high-frequency corner −3 dB at or above the highest frequency",
                        True, value, limit, "Hz",
                        f"above {eng(value, 'Hz')}, beyond the evaluated range", NOTHING_TO_CHANGE)
     value = facts.high_corner_3dB_Hz
     off = _percent_off(value, limit)
     passed = value >= limit
     advice = NOTHING_TO_CHANGE if passed else _high_frequency_advice(facts, design)
-    return Verdict("high_frequency_corner", "upper −3 dB corner at or above the highest frequency",
+    return Verdict("high_frequency_corner", "high-frequency corner −3 dB at or above the highest frequency",
                    passed, value, limit, "Hz", f"{_percent(off)} {_side(off)} the limit", advice)
 
 
