@@ -7,7 +7,7 @@ import importlib
 import typer
 
 from rfmeas.commands import COMMAND_MODULES
-from rfmeas.commands._common import DEBUG
+from rfmeas.commands._common import DEBUG, PlainHelpGroup
 
 app = typer.Typer(
     name="rfmeas",
@@ -15,6 +15,7 @@ app = typer.Typer(
     no_args_is_help=True,
     pretty_exceptions_enable=False,
     add_completion=False,
+    cls=PlainHelpGroup,
 )
 
 def _version_callback(value: bool):

@@ -150,6 +150,6 @@ def test_batch_command(units, tmp_path, monkeypatch):
     good = [str(p) for i, p in enumerate(units) if i != BAD]
     res = runner.invoke(app, ["batch", *good, "--workers", "1"])
     assert res.exit_code == 1  # a design check failed
-    assert "yield 16/19 = 84.2 %" in res.stdout and "primary_inductance_H" in res.stdout
+    assert "yield 16/19 = 84.2 %" in res.stdout and "primary inductance L1" in res.stdout and "primary_inductance_H" not in res.stdout
     res = runner.invoke(app, ["batch", str(tmp_path / "none-*.toml")])
     assert res.exit_code == 2 and "no manifest found" in res.stderr

@@ -75,7 +75,7 @@ def test_verdict_sentences():
     text = "\n".join(verdict)
     assert "Low-frequency limit improved (2 MHz → 1.5 MHz, -25.0 %)." in verdict
     assert "Low-frequency limit: the design asks for at most 1.8 MHz: now met (missed before)." in verdict
-    assert "Upper corner frequency improved (28 MHz → 35 MHz, +25.0 %), not judged" in text
+    assert "High-frequency corner −3 dB improved (28 MHz → 35 MHz, +25.0 %), not judged" in text
     assert "Turns-ratio error improved (2.5 % → 0.2 % off the design ratio)." in verdict
     moved = text.split("significantly:")[1]
     assert "secondary inductance L2 (+5.3 %)" in moved and "primary inductance" not in moved
@@ -88,7 +88,7 @@ def test_worse_and_unchanged():
     verdict = compare_results(before, worse).verdict
     assert "Low-frequency limit got worse (2 MHz → 2.5 MHz, +25.0 %)." in verdict
     assert "Low-frequency limit: the design asks for at most 1.8 MHz: still missed." in verdict
-    assert "Upper corner frequency: the design asks for at least 30 MHz: still missed." in verdict
+    assert "High-frequency corner −3 dB: the design asks for at least 30 MHz: still missed." in verdict
     assert "Turns-ratio error got worse (2.5 % → 6 % off the design ratio)." in verdict
     assert verdict[0].startswith("These are results of different units")
     same = compare_results(BEFORE, BEFORE)
@@ -124,7 +124,7 @@ def test_to_dict_is_json_shaped():
 def test_format_quantity():
     assert format_quantity("primary_inductance_H", 2.2e-6) == "2.2 µH"
     assert format_quantity("core_loss_resistance_ohm", 1500.0) == "1.5 kΩ"
-    assert format_quantity("ratio_error_percent", -1.234) == "-1.23 %"
+    assert format_quantity("ratio_error_percent", -1.234) == "-1.234 %"
     assert format_quantity("coupling_coefficient", 0.99871) == "0.9987"
     assert format_quantity("x_H", None) == "—"
     assert not math.isnan(judge(1.0, 2.0, None, 0.1).change_percent)

@@ -15,7 +15,7 @@ PACKAGE = ROOT / "rfmeas"
 
 # lowest first; a module's layer is that of its longest listed prefix
 LAYERS = [
-    ("rfmeas", "rfmeas.errors", "rfmeas.units", "rfmeas.usertext", "rfmeas.limits", "rfmeas.data"),
+    ("rfmeas", "rfmeas.errors", "rfmeas.units", "rfmeas.labels", "rfmeas.usertext", "rfmeas.limits", "rfmeas.data"),
     ("rfmeas.io",),
     ("rfmeas.model",),
     ("rfmeas.magnetics",),

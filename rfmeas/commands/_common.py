@@ -149,3 +149,105 @@ def resolve_measurement(inputs, turns: str | None = None, termination: str | Non
                              "measures both windings itself; leave --termination out", two_ports[0])
     return measurement_set_from_files(paths, parse_turns(turns) if turns else None,
                                       termination or "open", port1)
+
+
+# --- help that reads as written ------------------------------------------------------------
+# Placeholders of options in plain words (typer's own read "<bool>", "<list[Path]>").
+METAVARS = {
+    "--db": "FILE", "--report": "FILE", "--plot": "FILE", "--csv": "FILE", "--spice": "FILE",
+    "--touchstone": "FILE", "--output": "FILE", "--materials": "FILE", "--readings": "FILE",
+    "--leads-short": "FILE", "--plots": "FOLDER", "--out": "FOLDER", "--profiles-dir": "FOLDER",
+    "--turns": "N1:N2", "--plan": "SOURCE:LOAD:LOWEST[:HIGHEST]", "--return-loss": "DB",
+    "--termination": "open|short|OHMS", "--sim-termination": "open|short|OHMS",
+    "--port1": "primary|secondary", "--sim-port1": "primary|secondary",
+    "--start": "HZ", "--stop": "HZ", "--lowest": "HZ", "--highest": "HZ", "--loss-at": "HZ",
+    "--sweep": "START:STOP:POINTS", "--source": "OHMS", "--load": "OHMS", "--z0": "OHMS",
+    "--dc-resistance": "OHMS", "--lead-resistance": "OHMS", "--lead-inductance": "HENRY",
+    "--al": "VALUE", "--al-unit": "UNIT", "--points": "N", "--limit": "N", "--workers": "N",
+    "--max-turns": "N", "--retries": "N", "--timeout": "SECONDS", "--reactance-factor": "FACTOR",
+    "--toroid": "OD,ID,HEIGHT", "--rod": "DIAMETER,LENGTH", "--name": "NAME", "--unit": "NAME",
+    "--resource": "ADDRESS", "--profile": "NAME", "--backend": "BACKEND", "--method": "METHOD",
+    "--export": "ID FILE", "--directivity": "DB", "--source-match": "DB", "--tracking": "DB",
+}
+_TYPE_METAVARS = {"path": "FILE", "int": "N", "float": "NUMBER"}
+
+
+def _escape_markup(text: str | None) -> str | None:
+    """'[design]' kept as written: typer reads help text as rich markup."""
+    import re
+
+    return None if text is None else re.sub(r"(?<!\\)\[", r"\\[", text)
+
+
+def _plain_metavar(param) -> str:
+    """A placeholder in plain words for a parameter that declared none."""
+    if getattr(param, "is_flag", False):
+        return ""  # a flag takes no value
+    longest = max(param.opts, key=len) if param.opts else ""
+    if longest in METAVARS:
+        return METAVARS[longest]
+    desc = param.type_descriptor
+    if desc.is_choice and desc.choices:
+        return "|".join(str(getattr(c, "value", c)) for c in desc.choices)
+    if param.param_type_name == "argument":
+        return param.name.upper()
+    return "FILE" if desc.is_path else _TYPE_METAVARS.get(param.bare_type(), "TEXT")
+
+
+def _plain_help(command) -> None:
+    """Make one command's --help read as written: brackets kept, placeholders in plain words."""
+    from typer.core import TyperArgument
+
+    command.help = _escape_markup(command.help)
+    command.short_help = _escape_markup(command.short_help)
+    for param in command.params:
+        if getattr(param, "help", None):
+            param.help = _escape_markup(param.help)
+        if param.metavar is None:
+            metavar = _plain_metavar(param)
+            if isinstance(param, TyperArgument) and param.nargs != 1:
+                metavar += "..."
+            param.metavar = metavar
+        if isinstance(param, TyperArgument):
+            param.__class__ = _PlainArgument
+    from typer import _click
+
+    help_option = command.get_help_option(_click.Context(command, info_name=command.name))
+    if help_option is not None:
+        help_option.metavar = ""
+
+
+def _plain_argument_class():
+    from typer.core import TyperArgument
+
+    class PlainArgument(TyperArgument):
+        """An argument whose help shows its placeholder once, not a Python type beside it."""
+
+        def display_type_rich(self, ctx):
+            return None
+
+        def _usage_display_name(self) -> str:
+            return self.display_name_raw if self.required else f"[{self.display_name_raw}]"
+
+    return PlainArgument
+
+
+_PlainArgument = _plain_argument_class()
+
+
+def _plain_group_class():
+    from typer.core import TyperGroup
+
+    class PlainHelpGroup(TyperGroup):
+        """The app's group: every command's help text as written, placeholders in plain words."""
+
+        def __init__(self, *args, **kwargs):
+            super().__init__(*args, **kwargs)
+            _plain_help(self)
+            for command in self.commands.values():
+                _plain_help(command)
+
+    return PlainHelpGroup
+
+
+PlainHelpGroup = _plain_group_class()

@@ -74,6 +74,7 @@ def _print_summary(result) -> None:
     from rich.table import Table
 
     from rfmeas.history.compare import format_quantity
+    from rfmeas.labels import label
 
     console = stdout_console()
     units = Table(title="units")
@@ -87,7 +88,7 @@ def _print_summary(result) -> None:
                             ("min", "right"), ("max", "right")):
         spread.add_column(column, justify=justify)
     for key, s in result.spread.items():
-        spread.add_row(key, str(s.count), *(format_quantity(key, v) for v in (s.mean, s.std, s.min, s.max)))
+        spread.add_row(label(key), str(s.count), *(format_quantity(key, v) for v in (s.mean, s.std, s.min, s.max)))
     if result.spread:
         console.print(spread)
     c = result.counts

@@ -118,10 +118,7 @@ def _print_comparison(comparison, before_label: str, after_label: str) -> None:
 
 
 def _label(key: str) -> str:
-    """A person's name for a result key: the parameter labels, else the key in plain words."""
-    from rfmeas.fit.result import LABELS
+    """A person's name for a result key, from the one vocabulary (rfmeas.labels)."""
+    from rfmeas.labels import label
 
-    if key in LABELS:
-        return LABELS[key]
-    words = key.replace("_Hz", "").replace("_dB", " (dB)").replace("_percent", " (%)")
-    return words.replace("nH_per_turn2", "(nH/turn²)").replace("_", " ")
+    return label(key)

@@ -83,7 +83,7 @@ def render_core(analysis, console=None) -> None:
     summary.add_column("", no_wrap=True)
     summary.add_column("", no_wrap=False)
     mu_text = format_with_error(analysis.initial_permeability, analysis.initial_permeability_stderr) \
-        if analysis.initial_permeability_stderr is not None else f"{analysis.initial_permeability:.4g} (uncertain)"
+        if analysis.initial_permeability_stderr is not None else f"{eng(analysis.initial_permeability)} (uncertain)"
     if analysis.initial_permeability_source == "plateau":
         lo, hi = analysis.plateau_band_Hz
         mu_text += f"  (plateau of µ′, {eng(lo, 'Hz')} – {eng(hi, 'Hz')}, {analysis.plateau_points} points)"
@@ -93,7 +93,7 @@ def render_core(analysis, console=None) -> None:
     summary.add_row("A_L", eng(analysis.inductance_factor_H_per_turn2, "H", 4) + "/turn²")
     material_mu = analysis._material_permeability()
     if material_mu is not None and material_mu["value"] is not None:
-        summary.add_row("material µi (open core)", f"{material_mu['value']:.4g}  (estimate from Nd)")
+        summary.add_row("material µi (open core)", f"{eng(material_mu['value'])}  (estimate from Nd)")
     peak = analysis.loss_peak
     summary.add_row("µ″ peak", "not inside the sweep" if peak.frequency_Hz is None else
                     f"{eng(peak.frequency_Hz, 'Hz', 3)} (from the {peak.source})")
@@ -116,7 +116,7 @@ def render_core(analysis, console=None) -> None:
     console.print(f"Model: {m.reason}.")
     for other in analysis.other_windings:
         mu = other["initial_permeability"]
-        value = "not determined" if mu["value"] is None else f"{mu['value']:.4g} ({mu['source']})"
+        value = "not determined" if mu["value"] is None else f"{eng(mu['value'])} ({mu['source']})"
         label = str(other["label"])
         label = f"{other['turns']} turns" + ("" if label == f"{other['turns']} turns" else f" ({label})")
         console.print(f"Also measured: {markup(label)}: µi {value}")
@@ -136,8 +136,8 @@ def render_core(analysis, console=None) -> None:
         p = rows.get(fq)
         tan_d = mi / mr if mr > 0 else float("nan")
         k = min(range(analysis.f_Hz.size), key=lambda i: abs(analysis.f_Hz[i] - fq))
-        spectrum.add_row(eng(fq, "Hz"), f"{mr:.4g}", f"{mi:.4g}", f"{tan_d:.3g}",
-                         f"{tan_d / analysis.initial_permeability:.3g}" if p is None or p.tan_delta_over_mu is None
+        spectrum.add_row(eng(fq, "Hz"), eng(mr), eng(mi), eng(tan_d, "", 3),
+                         eng(tan_d / analysis.initial_permeability, "", 3) if p is None or p.tan_delta_over_mu is None
                          or p.tan_delta_over_mu_stderr is None
                          else format_with_error(p.tan_delta_over_mu, p.tan_delta_over_mu_stderr),
                          "yes" if analysis.trustworthy[k] else "no")
@@ -196,7 +196,7 @@ def render_readings(result, console=None) -> None:
     for heading in ("frequency", "µ′", "µ″", "A_L"):
         table.add_column(heading, justify="right", no_wrap=True)
     for f, mr, mi, al in zip(result.f_Hz, result.mu_real, result.mu_imag, result.inductance_factor_H_per_turn2):
-        table.add_row(eng(f, "Hz"), f"{mr:.4g}", f"{mi:.3g}", eng(al, "H", 4) + "/turn²")
+        table.add_row(eng(f, "Hz"), eng(mr), eng(mi, "", 3), eng(al, "H", 4) + "/turn²")
     console.print(table)
     value = "none" if result.initial_permeability is None else format_with_error(
         result.initial_permeability, result.initial_permeability_stderr)

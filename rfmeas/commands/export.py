@@ -21,9 +21,11 @@ def export_command(
     spice: Optional[Path] = typer.Option(None, "--spice", help="Write a SPICE subcircuit netlist here."),
     touchstone: Optional[Path] = typer.Option(None, "--touchstone", help="Write the fitted model's S parameters (.s2p) here."),
     name: str = typer.Option("XFMR", "--name", help="Subcircuit name."),
-    start: Optional[str] = typer.Option(None, "--start", help="Model grid start frequency (default: lowest measured), e.g. 100k."),
-    stop: Optional[str] = typer.Option(None, "--stop", help="Model grid stop frequency (default: highest measured), e.g. 100M."),
-    points: int = typer.Option(401, "--points", help="Model grid points (log-spaced)."),
+    sweep: Optional[str] = typer.Option(None, "--sweep", help="Model grid START:STOP:POINTS, log-spaced, e.g. "
+                                        "100k:100M:401 (default: the measured range, 401 points)."),
+    start: Optional[str] = typer.Option(None, "--start", hidden=True, help="Older spelling of --sweep's START."),
+    stop: Optional[str] = typer.Option(None, "--stop", hidden=True, help="Older spelling of --sweep's STOP."),
+    points: Optional[int] = typer.Option(None, "--points", hidden=True, help="Older spelling of --sweep's POINTS."),
     z0: float = typer.Option(50.0, "--z0", help="Reference impedance of the Touchstone model, ohms."),
     turns: Optional[str] = typer.Option(None, "--turns", help="Turns PRIMARY:SECONDARY for files without a manifest."),
     floating_secondary: bool = typer.Option(False, "--floating-secondary",
@@ -44,8 +46,16 @@ def export_command(
 
     if spice is None and touchstone is None:
         raise InputError("say what to write: --spice FILE and/or --touchstone FILE")
+    if sweep is not None:
+        if start is not None or stop is not None or points is not None:
+            raise InputError("give the model grid once: --sweep START:STOP:POINTS, without --start, --stop or --points")
+        from rfmeas.instruments import parse_sweep
+
+        plan = parse_sweep(sweep, log=True)
+        start, stop, points = str(plan.start_Hz), str(plan.stop_Hz), plan.points
+    points = 401 if points is None else points
     if points < 2 or points > 100_000:
-        raise InputError(f"--points must be between 2 and 100000, not {points}")
+        raise InputError(f"the model grid needs between 2 and 100000 points, not {points}")
     analysis = run_analysis(inputs, turns)
     params = analysis.fit.params
     held = [f"{key} not determined by the sweeps; held at "

@@ -26,8 +26,9 @@ def register(app: typer.Typer) -> None:
         json_out: bool = typer.Option(False, "--json", help="Print JSON on stdout."),
         limit: int = typer.Option(50, "--limit", min=1, help="Show at most N records, newest first."),
         export: Optional[Tuple[int, Path]] = typer.Option(
-            None, "--export", metavar="ID DIR", help="Write record ID's manifest and sweep files into DIR."),
-        force: bool = typer.Option(False, "--force", help="With --export: overwrite existing files."),
+            None, "--export", metavar="ID FOLDER", help="Write record ID's manifest and sweep files into FOLDER."),
+        overwrite: bool = typer.Option(False, "--overwrite", help="With --export: overwrite existing files."),
+        force: bool = typer.Option(False, "--force", hidden=True, help="Older spelling of --overwrite."),
         set_note: Optional[Tuple[int, str]] = typer.Option(
             None, "--set-note", metavar="ID TEXT",
             help="Give record ID a note (\"\" clears it); the list shows it beside the record."),
@@ -48,7 +49,7 @@ def register(app: typer.Typer) -> None:
                 return
             if export is not None:
                 record_id, folder = export
-                written = store.export(record_id, folder, overwrite=force)
+                written = store.export(record_id, folder, overwrite=overwrite or force)
                 if json_out:
                     print_json({"record": record_id, "files": [str(p) for p in written]})
                 else:

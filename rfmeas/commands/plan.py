@@ -29,7 +29,7 @@ def _render(plan) -> None:
     console = stdout_console()
     console.print(
         f"{eng(plan.source_impedance_ohm, 'Ω')} → {eng(plan.load_impedance_ohm, 'Ω')}: "
-        f"turns ratio 1 : {plan.turns_ratio:.4g} (secondary : primary = sqrt(load/source)); "
+        f"turns ratio 1 : {plan.turns_ratio:.4g} (secondary : primary = √(load/source)); "
         f"A_L {plan.al_nH_per_turn2:.4g} nH/turn²")
     console.print(
         f"Minimum turns: primary {plan.minimum_turns_primary} ({plan.minimum_turns_primary_exact:.3g}, "

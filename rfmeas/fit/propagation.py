@@ -28,6 +28,7 @@ from dataclasses import dataclass
 import numpy as np
 
 from rfmeas.fit.solver import to_physical
+from rfmeas.labels import symbols
 
 STEP_RELATIVE = 1e-5
 """Central-difference step: this fraction of each value (of 1 − k for the coupling)."""
@@ -116,7 +117,7 @@ def propagate_all(outcome, func, needs: dict | None = None) -> dict[str, Propaga
         held = tuple(n for n in (needs or {}).get(key, ()) if n in held_reasons)
         if held:
             reasons = "; ".join(sorted({held_reasons[n][1] for n in held}))
-            out[key] = Propagated(value, None, f"no standard error: needs {', '.join(held)}, held ({reasons})",
+            out[key] = Propagated(value, None, f"no standard error: needs {symbols(held)}, held ({reasons})",
                                   held)
             continue
         if not math.isfinite(value):

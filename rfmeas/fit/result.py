@@ -47,6 +47,7 @@ from rfmeas.fit.solver import FitOutcome
 from rfmeas.model.params import PARAMETER_NAMES, TransformerParams
 from rfmeas.measurement.noise import error_sigma
 from rfmeas.measurement.sweep import Sweep
+from rfmeas.labels import PARAMETER_LABELS, symbols
 
 # JSON key, internal name, unit for display
 PARAMETER_KEYS = (
@@ -65,21 +66,7 @@ PARAMETER_KEYS = (
     ("interwinding_capacitance_F", "C12_F", "F"),
 )
 
-LABELS = {
-    "primary_inductance_H": "primary inductance L1",
-    "secondary_inductance_H": "secondary inductance L2",
-    "coupling_coefficient": "coupling k",
-    "leakage_inductance_H": "leakage inductance (short-circuit, at primary)",
-    "effective_turns_ratio": "effective turns ratio √(L2/L1)",
-    "magnetizing_inductance_H": "magnetising inductance Lm = k·L1",
-    "mutual_inductance_H": "mutual inductance M",
-    "primary_resistance_ohm": "primary resistance R1",
-    "secondary_resistance_ohm": "secondary resistance R2",
-    "core_loss_resistance_ohm": "core-loss resistance Rc",
-    "primary_capacitance_F": "primary capacitance C1",
-    "secondary_capacitance_F": "secondary capacitance C2",
-    "interwinding_capacitance_F": "interwinding capacitance C12",
-}
+LABELS = {key: text for key, (text, _unit) in PARAMETER_LABELS.items()}  # one vocabulary: rfmeas.labels
 
 # the inputs each derived quantity needs
 _DERIVED_INPUTS = {
@@ -264,7 +251,7 @@ def build_estimates(outcome: FitOutcome) -> dict:
         if p.held:
             note = "; ".join(sorted({outcome.held[n][1] for n in p.held}))
             if name not in PARAMETER_NAMES:
-                note = f"needs {', '.join(p.held)}: {note}"
+                note = f"needs {symbols(p.held)}: {note}"
             out[key] = Estimate(None, None, False, _derived_value(name, values), note)
             continue
         out[key] = Estimate(float(p.value), p.stderr, note=outcome.referred.get(name, ""), stderr_note=p.reason)

@@ -16,10 +16,11 @@ import math
 from dataclasses import dataclass
 
 from rfmeas.units import format_engineering, format_with_error
+from rfmeas.labels import label as label_of
 
 SIGMA_FACTOR = 3.0
-RULE = ("significant when |after - before| > 3*sqrt(stderr_before^2 + stderr_after^2); "
-        "not judged (null) when either standard error is missing")
+RULE = ("a change is significant when it exceeds 3 times the combined standard error "
+        "(√(σ_before² + σ_after²)); not judged when either standard error is missing")
 
 _UNIT_SUFFIXES = (("_Hz", "Hz"), ("_ohm", "Ω"), ("_H", "H"), ("_F", "F"))
 
@@ -153,12 +154,8 @@ def format_quantity(key: str, value: float | None, stderr: float | None = None) 
     """A value (and its standard error, when given) for people, with the unit its key names."""
     if value is None:
         return "—"
-    unit = unit_of(key)
-    if unit:
-        return format_engineering(value, unit) if stderr is None else format_with_error(value, stderr, unit)
-    if key.endswith("_percent"):
-        return f"{value:.3g} %" if stderr is None else f"{value:.3g} ± {stderr:.2g} %"
-    return f"{value:.4g}" if stderr is None else f"{value:.4g} ± {stderr:.2g}"
+    unit = unit_of(key) or ("%" if key.endswith("_percent") else "")
+    return format_engineering(value, unit) if stderr is None else format_with_error(value, stderr, unit)
 
 
 def _design_ratio(design: dict | None, after: _Side) -> float | None:
@@ -199,10 +196,16 @@ def compare_results(before, after, design: dict | None = None) -> Comparison:
 
 # --- the verdict in plain words -------------------------------------------------------------
 
+def _capital(text: str) -> str:
+    return text[:1].upper() + text[1:]
+
+
 _ASPECTS = (
     # key, label, "better" direction, the design check that judges it, how its limit binds
-    ("low_frequency_limit_Hz", "Low-frequency limit", "lower", "low_frequency_limit", "at most"),
-    ("high_frequency_corner_3dB_Hz", "Upper corner frequency", "higher", "high_frequency_corner", "at least"),
+    ("low_frequency_limit_Hz", _capital(label_of("low_frequency_limit_Hz")), "lower", "low_frequency_limit",
+     "at most"),
+    ("high_frequency_corner_3dB_Hz", _capital(label_of("high_frequency_corner_3dB_Hz")), "higher",
+     "high_frequency_corner", "at least"),
     ("ratio_error_percent", "Turns-ratio error", "smaller magnitude", None, None),
 )
 _MET = {"pass": "met", "fail": "missed"}
@@ -218,7 +221,7 @@ def _improved(before: float, after: float, better: str) -> bool:
 
 def _aspect_sentence(key, label, better, c: Change) -> str:
     if key == "ratio_error_percent":
-        shown = f"{abs(c.before):.3g} % → {abs(c.after):.3g} % off the design ratio"
+        shown = f"{format_engineering(abs(c.before), '%')} → {format_engineering(abs(c.after), '%')} off the design ratio"
     else:
         pct = "" if c.change_percent is None else f", {c.change_percent:+.1f} %"
         shown = f"{format_quantity(key, c.before)} → {format_quantity(key, c.after)}{pct}"
@@ -274,10 +277,8 @@ def _verdict(before_side: _Side, after_side: _Side, changes: dict[str, Change]) 
         if target is not None:
             sentences.append(target)
     params = [(k, c) for k, c in changes.items() if c.group == "parameter"]
-    from rfmeas.fit.result import LABELS
-
-    moved = [f"{LABELS.get(k, k)} ({c.change_percent:+.1f} %)" if c.change_percent is not None
-             else LABELS.get(k, k) for k, c in params if c.significant]
+    moved = [f"{label_of(k)} ({c.change_percent:+.1f} %)" if c.change_percent is not None
+             else label_of(k) for k, c in params if c.significant]
     if moved:
         sentences.append(f"Parameters that changed significantly: {', '.join(moved)}.")
     elif params:

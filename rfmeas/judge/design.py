@@ -220,7 +220,7 @@ def _ratio_vs_design(facts: DesignFacts, design: DesignTarget) -> Verdict:
         more, fewer = ("secondary", "primary") if off < 0 else ("primary", "secondary")
         advice = (f"{direction} the ratio by {_percent(off)}: add turns to the {more} "
                   f"or take turns off the {fewer}")
-    return Verdict("turns_ratio_vs_design", "turns ratio against sqrt(load/source)", passed,
+    return Verdict("turns_ratio_vs_design", "turns ratio against √(load/source)", passed,
                    value, target, "", margin, advice)
 
 
@@ -295,14 +295,14 @@ def _high_corner(facts: DesignFacts, design: DesignTarget) -> Verdict:
     limit = design.highest_frequency_Hz
     if facts.high_corner_3dB_Hz is None:
         value = facts.evaluated_top_Hz
-        return Verdict("high_frequency_corner", "upper −3 dB corner at or above the highest frequency",
+        return Verdict("high_frequency_corner", "high-frequency corner −3 dB at or above the highest frequency",
                        True, value, limit, "Hz",
                        f"above {eng(value, 'Hz')}, beyond the evaluated range", NOTHING_TO_CHANGE)
     value = facts.high_corner_3dB_Hz
     off = _percent_off(value, limit)
     passed = value >= limit
     advice = NOTHING_TO_CHANGE if passed else _high_frequency_advice(facts, design)
-    return Verdict("high_frequency_corner", "upper −3 dB corner at or above the highest frequency",
+    return Verdict("high_frequency_corner", "high-frequency corner −3 dB at or above the highest frequency",
                    passed, value, limit, "Hz", f"{_percent(off)} {_side(off)} the limit", advice)
 
 
@@ -315,7 +315,7 @@ def _return_loss(facts: DesignFacts, design: DesignTarget) -> Verdict:
     if passed:
         advice = NOTHING_TO_CHANGE
     elif facts.midband_return_loss_dB is not None and facts.midband_return_loss_dB < limit:
-        advice = ("the match is off even at mid-band: bring the turns ratio to sqrt(load/source)")
+        advice = ("the match is off even at mid-band: bring the turns ratio to √(load/source)")
     elif facts.midband_Hz is not None and facts.min_return_loss_at_Hz < facts.midband_Hz:
         advice = ("the magnetising inductance shunts the low end: more turns on both windings, "
                   "or a core with a higher A_L")

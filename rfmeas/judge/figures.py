@@ -35,6 +35,8 @@ from rfmeas.measurement.sweep import DEFAULT_REACTANCE_FACTOR, DEFAULT_RETURN_LO
 from rfmeas.model.response import band_response, minimum_return_loss_dB, open_circuit_voltage_ratio, \
     reactance_limit_Hz, return_loss_dB, self_resonance_Hz
 from rfmeas.units import format_engineering as eng
+from rfmeas.labels import FIGURE_DETAIL_LABELS, FIGURE_LABELS  # the one vocabulary
+from rfmeas.labels import label as label_of, symbols
 
 log = logging.getLogger(__name__)
 
@@ -235,20 +237,6 @@ class ReturnLossBand:
         return d
 
 
-# JSON key -> (label, unit), in the order people read them (terminal table, report)
-FIGURE_LABELS = {
-    "inductance_factor_nH_per_turn2": ("A_L (nH/turn²)", "nH/turn²"),
-    "effective_permeability": ("effective permeability µe", ""),
-    "low_frequency_limit_Hz": ("reactance-rule limit", "Hz"),
-    "low_frequency_corner_3dB_Hz": ("lower corner −3 dB", "Hz"),
-    "low_frequency_corner_1dB_Hz": ("lower corner −1 dB", "Hz"),
-    "high_frequency_corner_1dB_Hz": ("upper corner −1 dB", "Hz"),
-    "high_frequency_corner_3dB_Hz": ("upper corner −3 dB", "Hz"),
-    "midband_insertion_loss_dB": ("mid-band insertion loss (dB)", "dB"),
-    "self_resonance_primary_Hz": ("self-resonance, primary (secondary open)", "Hz"),
-    "self_resonance_secondary_Hz": ("self-resonance, secondary (primary open)", "Hz"),
-    "turns_ratio": ("turns ratio √(L2/L1)", ""),
-}
 # the JSON contract's order of the figures section (docs/DESIGN.md); a figure added later follows them
 _JSON_ORDER = ("inductance_factor_nH_per_turn2", "effective_permeability", "low_frequency_limit_Hz",
                "low_frequency_corner_1dB_Hz", "low_frequency_corner_3dB_Hz", "high_frequency_corner_1dB_Hz",
@@ -318,7 +306,7 @@ class _Builder:
 
     def reason(self, names) -> str:
         reasons = sorted({self.held[n][1] for n in names})
-        return f"needs {', '.join(names)}, not determined ({'; '.join(reasons)})"
+        return f"needs {symbols(names)}, not determined ({'; '.join(reasons)})"
 
     def obj(self, key, name: str, label: str = "", unit: str = "", scale: float = 1.0, **extra) -> Figure:
         """The Figure of scalar `key` as `name`; `extra` become its further fields (a 'note' there
@@ -423,8 +411,8 @@ def compute_figures(measurement, result, cannot_judge: tuple[str, ...] = ()) \
                 f"differ by {agreement:+.2g} %: the stated turns may be wrong or a winding does not sit "
                 "fully on the core")
         scaled = {}
-        for unit, key, label in (("uH/100", "uH_per_100_turns", "in µH per 100 turns"),
-                                 ("mH/1000", "mH_per_1000_turns", "in mH per 1000 turns")):
+        for key in ("uH_per_100_turns", "mH_per_1000_turns"):
+            label, unit = FIGURE_DETAIL_LABELS[key]
             conv = float(nH_per_turn2_to(1.0, unit))
             scaled[key] = Figure(key, label, unit, None if al.value is None else al.value * conv,
                                  None if al.stderr is None else al.stderr * conv)
@@ -493,7 +481,7 @@ def compute_figures(measurement, result, cannot_judge: tuple[str, ...] = ()) \
     nearest_primary = max(1, round(n2 / n)) if (n2 and ratio.value) else None
     ratio = ratio.with_details(
         effective=Figure("effective", "effective turns ratio", "", ratio.value, ratio.stderr),
-        open_circuit_voltage_ratio=b.obj("ocv_ratio", "open_circuit_voltage_ratio", "open-circuit voltage ratio",
+        open_circuit_voltage_ratio=b.obj("ocv_ratio", "open_circuit_voltage_ratio", label_of("open_circuit_voltage_ratio"),
                                          frequency_Hz=values["midband_Hz"]),
         stated_ratio=(n2 / n1) if (n1 and n2) else None,
         nearest_secondary_turns=nearest_secondary, nearest_primary_turns=nearest_primary,

@@ -52,11 +52,8 @@ def parameter_table(analysis, keys=None):
 def estimate_text(est, unit: str) -> str:
     """'12.31 ± 0.05 µH'; a determined value without a usable standard error gets '± ?' (never bare)."""
     if est.stderr is None:
-        value = format_engineering(est.value, unit) if unit else f"{est.value:.5g}"
-        return f"{value} ± ?"
-    if unit:
-        return format_with_error(est.value, est.stderr, unit)
-    return f"{est.value:.5g} ± {est.stderr:.2g}"
+        return f"{format_engineering(est.value, unit, 5)} ± ?"
+    return format_with_error(est.value, est.stderr, unit)
 
 
 def quality_line(fit) -> str:
@@ -156,10 +153,8 @@ def _value_text(fig, digits: int = 4) -> str:
         return "—"
     unit = fig.unit if fig.unit == "Hz" else ""
     if not fig.stderr:  # None or 0: no standard error, which the note explains
-        return (format_engineering(fig.value, unit) if unit else f"{fig.value:.{digits}g}") + " ± ?"
-    if unit:
-        return format_with_error(fig.value, fig.stderr, unit)
-    return f"{fig.value:.{digits}g} ± {fig.stderr:.2g}"
+        return format_engineering(fig.value, unit, digits) + " ± ?"
+    return format_with_error(fig.value, fig.stderr, unit)
 
 
 def _plain_note(note: str, shared: str) -> str:
@@ -235,7 +230,7 @@ def _ratio_notes(analysis, fig) -> list[str]:
     if fig.detail("nearest_secondary_turns") is not None:
         notes.append(f"acts like {analysis.measurement.primary_turns}:{fig.detail('nearest_secondary_turns')}")
     if fig.detail("design_ratio"):
-        notes.append(f"design 1:{fig.detail('design_ratio'):.4g}")
+        notes.append(f"design 1:{format_engineering(fig.detail('design_ratio'))}")
     return notes
 
 
@@ -280,10 +275,7 @@ def _verdict_word(v) -> str:
 
 
 def _verdict_number(v, x) -> str:
-    unit = v.unit
-    if unit == "Hz":
-        return format_engineering(x, unit)
-    return "—" if x is None else f"{x:.4g}{' ' + unit if unit else ''}"
+    return "—" if x is None else format_engineering(x, v.unit)
 
 
 def _render_figures(analysis, console) -> None:

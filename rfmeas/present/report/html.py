@@ -28,44 +28,41 @@ CAUTIONS = (
 )
 
 _UNITS = {key: unit for key, _name, unit in PARAMETER_KEYS}
-# key suffix -> (unit shown, whether SI prefixes apply)
+# key suffix -> unit shown (whether it takes an SI prefix is rfmeas.units' rule)
 _SUFFIX_UNITS = (
-    ("_nH_per_turn2", "nH/turn²", False),
-    ("_Hz", "Hz", True),
-    ("_ohm", "Ω", True),
-    ("_dB", "dB", False),
-    ("_percent", "%", False),
-    ("_H", "H", True),
-    ("_F", "F", True),
+    ("_nH_per_turn2", "nH/turn²"),
+    ("_Hz", "Hz"),
+    ("_ohm", "Ω"),
+    ("_dB", "dB"),
+    ("_percent", "%"),
+    ("_H", "H"),
+    ("_F", "F"),
 )
-_SI_UNITS = {"Hz", "H", "F", "Ω", "ohm", "s", "V", "A", "W"}
 
 
-def unit_of_key(key: str) -> tuple[str, str, bool]:
-    """(label without the unit suffix, unit, SI prefixes apply) for a JSON key."""
-    for suffix, unit, si in _SUFFIX_UNITS:
+def unit_of_key(key: str) -> tuple[str, str]:
+    """(label without the unit suffix, unit) for a JSON key; a key of the vocabulary gets its label."""
+    from rfmeas.labels import QUANTITIES, label
+
+    for suffix, unit in _SUFFIX_UNITS:
         if key.endswith(suffix):
-            return key[: -len(suffix)].replace("_", " "), unit, si
-    return key.replace("_", " "), "", False
+            return (label(key) if key in QUANTITIES else key[: -len(suffix)].replace("_", " ")), unit
+    return label(key), ""
 
 
-def format_number(value, unit: str = "", si: bool | None = None, stderr=None) -> str:
-    """A number for people: engineering notation for SI units, 4 significant figures otherwise."""
+def format_number(value, unit: str = "", stderr=None) -> str:
+    """A number for people, with its standard error when given (rfmeas.units' one rule)."""
     if value is None:
         return "—"
     if isinstance(value, bool):
         return "yes" if value else "no"
     if not isinstance(value, (int, float)):
         return str(value)
-    si = (unit in _SI_UNITS) if si is None else si
     if unit == "ohm":
         unit = "Ω"
-    if si:
-        return format_with_error(float(value), stderr, unit) if stderr else format_engineering(float(value), unit)
-    if not math.isfinite(value):
-        return format_engineering(float(value), unit)
-    text = f"{value:.4g}" + (f" ± {stderr:.2g}" if isinstance(stderr, (int, float)) and stderr else "")
-    return f"{text} {unit}".strip()
+    if isinstance(stderr, (int, float)) and stderr:
+        return format_with_error(float(value), float(stderr), unit)
+    return format_engineering(float(value), unit)
 
 
 def parameter_rows(analysis) -> list[dict]:
@@ -79,7 +76,7 @@ def parameter_rows(analysis) -> list[dict]:
             continue
         rel = est.relative_stderr
         rel_text = "" if rel is None else (f"{rel * 100:.2g} %" if rel < 10 else "≫100 %")
-        value = format_number(est.value, unit, bool(unit), est.stderr)
+        value = format_number(est.value, unit, est.stderr)
         if est.stderr is None:  # never a bare confident number
             value += " ± ?"
         rows.append({"label": LABELS.get(key, key), "key": key, "value": value, "relative": rel_text,
@@ -201,8 +198,8 @@ def design_rows(analysis) -> list[dict]:
     for key, value in design.to_dict().items():
         if value is None:
             continue
-        label, unit, si = unit_of_key(key)
-        rows.append({"label": label, "value": format_number(value, unit, si)})
+        label, unit = unit_of_key(key)
+        rows.append({"label": label, "value": format_number(value, unit)})
     return rows
 
 
