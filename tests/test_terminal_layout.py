@@ -63,7 +63,7 @@ def test_compact_view_is_a_screenful_or_two_verdicts_first(case):
     assert len(out.splitlines()) <= 2.5 * SCREEN_ROWS
     order = [out.index(title) for title in ("Design check:", "Key figures", "Circuit")]
     assert order == sorted(order)
-    for label in ("A_L", "reactance-rule limit", "upper corner −3 dB", "turns ratio", "fit quality",
+    for label in ("A_L", "low-frequency limit", "high-frequency corner −3 dB", "turns ratio", "fit quality",
                   "L1", "L2", "leakage", "coupling k", "C1", "C2", "C12"):
         assert label in out, label
     assert "Sweeps and fit quality" not in out and "--full" in out
