@@ -380,3 +380,14 @@ def test_manifest_text_parses_as_the_design_format():
     assert data["sweep"][3] == {"file": "thru.s2p", "port1": "primary", "port2": "secondary"}
     with pytest.raises(InputError):
         manifest_text("x", [])
+
+
+def test_a_sweep_of_more_points_than_can_be_read_back_is_refused_before_any_work():
+    # once seen: `acquire --sweep 1M:10M:1000000000` built a billion-point grid and hung
+    from rfmeas.errors import InputError
+    from rfmeas.instruments.sweep import parse_sweep
+    from rfmeas.io.touchstone import MAX_POINTS
+
+    with pytest.raises(InputError, match="at most"):
+        parse_sweep("1M:10M:1000000000")
+    assert parse_sweep(f"1M:10M:{MAX_POINTS}").points == MAX_POINTS

@@ -7,6 +7,7 @@ from dataclasses import dataclass
 import numpy as np
 
 from rfmeas.errors import InputError
+from rfmeas.io.touchstone import MAX_POINTS
 from rfmeas.units import parse_engineering
 
 
@@ -24,6 +25,9 @@ class SweepPlan:
             raise InputError(f"sweep start must be above 0 Hz (got {self.start_Hz:g} Hz)")
         if self.points < 1:
             raise InputError(f"a sweep needs at least 1 point (got {self.points})")
+        if self.points > MAX_POINTS:
+            raise InputError(f"a sweep of {self.points:,} points is more than rfmeas reads back "
+                             f"({MAX_POINTS:,} at most): take fewer points or several sweeps")
         if self.points > 1 and not self.stop_Hz > self.start_Hz:
             raise InputError(f"sweep stop ({self.stop_Hz:g} Hz) must be above start ({self.start_Hz:g} Hz)")
 
