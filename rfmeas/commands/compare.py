@@ -88,7 +88,7 @@ def register(app: typer.Typer) -> None:
         if plot is not None:
             from rfmeas.present.plots.compare import plot_comparison
 
-            plot_comparison(before_analysis, after_analysis, plot)
+            plot_comparison(before_analysis, after_analysis, plot, names=(before_label, after_label))
         if json_out:
             print_json({"before": before_label, "after": after_label, **comparison.to_dict(), "notes": notes})
             return
