@@ -93,7 +93,7 @@ def _print_summary(result) -> None:
         console.print(spread)
     c = result.counts
     y = result.yield_fraction
-    judged = c["pass"] + c["fail"] + c["not judged"] + c["error"]
+    judged = result.counted_for_yield
     console.print(f"passed {c['pass']}, failed {c['fail']}, not judged {c['not judged']}, could not be analysed "
                   f"{c['error']}, no design check {c['no design']}; yield "
                   + ("— (no unit has a design check)" if y is None else f"{c['pass']}/{judged} = {100 * y:.1f} %"))

@@ -98,11 +98,17 @@ class BatchResult:
         return {s: sum(1 for u in self.units if u.status == s) for s in STATUSES}
 
     @property
+    def counted_for_yield(self) -> int:
+        """The units a yield is taken over: passed, failed, not judged and not analysable."""
+        c = self.counts
+        return c["pass"] + c["fail"] + c["not judged"] + c["error"]
+
+    @property
     def yield_fraction(self) -> float | None:
         c = self.counts
         if not c["pass"] + c["fail"] + c["not judged"]:
             return None
-        return c["pass"] / (c["pass"] + c["fail"] + c["not judged"] + c["error"])
+        return c["pass"] / self.counted_for_yield
 
     @property
     def exit_code(self) -> int:

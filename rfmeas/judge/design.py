@@ -93,10 +93,6 @@ class DesignCheck:
         """The verdicts that failed."""
         return tuple(v for v in self.verdicts if v.passed is False)
 
-    def verdict(self, name: str) -> Verdict | None:
-        """The verdict of the check `name` (e.g. 'low_frequency_limit'); None when it was not made."""
-        return next((v for v in self.verdicts if v.name == name), None)
-
     def to_dict(self) -> dict:
         return {"passed": self.passed, "status": self.status, "not_judged_reasons": list(self.not_judged),
                 "checks": [v.to_dict() for v in self.verdicts], "target": self.target.to_dict()}

@@ -17,7 +17,6 @@ PALETTE = {
     "band": "#cfe3f5",      # pale blue fill (design band, trustworthy band)
     "fail": "#b8322a",      # brick, always paired with a text label
 }
-SERIES = [PALETTE["data"], PALETTE["model"], PALETTE["third"], PALETTE["fourth"], PALETTE["muted"]]
 
 
 FIGURE_MARGINS_IN = {"left": 0.85, "right": 0.2, "bottom": 0.5, "top": 0.32, "hspace": 0.12}

@@ -58,8 +58,6 @@ def format_number(value, unit: str = "", stderr=None) -> str:
         return "yes" if value else "no"
     if not isinstance(value, (int, float)):
         return str(value)
-    if unit == "ohm":
-        unit = "Ω"
     if isinstance(stderr, (int, float)) and stderr:
         return format_with_error(float(value), float(stderr), unit)
     return format_engineering(float(value), unit)
