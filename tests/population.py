@@ -36,7 +36,7 @@ from pathlib import Path
 
 import numpy as np
 
-from rfmeas.model.params import TransformerParams
+from rfmeas.model.params import CORE_LOSS_PLACEMENTS, TransformerParams
 
 from reference.spice import _num, run_ngspice
 
@@ -63,7 +63,6 @@ DETERMINED_BY = {
     "two-oneport": ("L1", "leakage"),
     "thru": ("ratio",),
 }
-CORE_LOSS_PLACEMENTS = ("magnetizing", "primary")
 STARTS_HZ = (10e3, 50e3, 100e3)
 STOPS_HZ = (30e6, 50e6, 100e6)
 FILE_UNITS = {"Hz": 1.0, "kHz": 1e3, "MHz": 1e6}

@@ -461,11 +461,6 @@ def _key_quantities(values: np.ndarray) -> dict:
     }
 
 
-def _usable_points(sweeps: list[Sweep]) -> int:
-    """Real residuals the sweeps offer (two per finite complex value)."""
-    return int(sum(2 * np.count_nonzero(np.isfinite(s.measured())) for s in sweeps))
-
-
 def _hold_for_point_count(free: list[str], residuals: int, held: dict) -> None:
     """Hold parameters (least observable first) until each free one has enough residuals."""
     allowed = residuals // MIN_RESIDUALS_PER_PARAMETER

@@ -20,7 +20,6 @@ import numpy as np
 from rfmeas.model.params import TransformerParams
 from rfmeas.model.termination import Termination
 
-CORE_LOSS_PLACEMENTS = ("magnetizing", "primary")
 """Where Rc sits: across the magnetising branch Lm (the design's model), or across the whole
 primary inductance L1 (between the inner end of R1 and ground, outside the leakage)."""
 
@@ -30,7 +29,7 @@ def y_elements(f_Hz, L1_H, L2_H, k, R1_ohm, R2_ohm, Rc_ohm, C1_F, C2_F, C12_F, p
     """Two-port admittance matrix elements (y11, y12, y22) at the primary (1) and secondary (2).
 
     The network is reciprocal, so y21 = y12. `polarity` -1 reverses the
-    secondary winding (M < 0). `core_loss` is one of CORE_LOSS_PLACEMENTS.
+    secondary winding (M < 0). `core_loss` is one of rfmeas.model.params.CORE_LOSS_PLACEMENTS.
     """
     if core_loss == "primary":
         return _y_elements_loss_across_primary(f_Hz, L1_H, L2_H, k, R1_ohm, R2_ohm, Rc_ohm,

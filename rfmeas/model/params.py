@@ -15,6 +15,9 @@ PARAMETER_NAMES = (
 )
 
 
+CORE_LOSS_PLACEMENTS = ("magnetizing", "primary")
+"""Where the core-loss resistance sits: across the magnetising branch, or across all of L1."""
+
 @dataclass(frozen=True)
 class TransformerParams:
     """Lumped model of a small transformer, SI units.
@@ -58,7 +61,7 @@ class TransformerParams:
                 raise ValueError(f"{name} must not be negative")
         if self.polarity not in (1, -1):
             raise ValueError("polarity must be +1 or -1")
-        if self.core_loss not in ("magnetizing", "primary"):
+        if self.core_loss not in CORE_LOSS_PLACEMENTS:
             raise ValueError("core_loss must be 'magnetizing' or 'primary'")
         if not self.Rc_ohm > 0:
             raise ValueError("Rc_ohm must be positive (math.inf for a lossless core)")
