@@ -254,6 +254,7 @@ def core_command(
     from dataclasses import replace
 
     from rfmeas.fit.core_spectrum import analyze_core_file, analyze_readings_file, given_leads
+    from rfmeas.magnetics.dispersion import DEFAULT_VNA_ERRORS
     from rfmeas.errors import InputError
     from rfmeas.magnetics.materials import RESISTIVITY
     from rfmeas.units import parse_engineering
@@ -279,22 +280,21 @@ def core_command(
         leads = given_leads(None if lead_inductance is None else parse_engineering(lead_inductance),
                             None if lead_resistance is None else parse_engineering(lead_resistance))
     loss = None if loss_at is None else _numbers("--loss-at", loss_at, 0)
-    lcr = None
+    readings_turns = None
     if readings is not None:
         if geometry is None:
             raise InputError("LCR readings need the core size as an option (--toroid, --effective, ...)")
         if not counts:
             raise InputError("LCR readings need the winding's turns (--turns N)")
-        lcr_leads = leads
-        if lcr_leads is None and leads_short is not None:
-            from rfmeas.fit.core_spectrum import leads_from_short, _read_impedance
-
-            f_s, z_s, m_s, z0_s, _, _ = _read_impedance(leads_short, None)
-            lcr_leads = leads_from_short(f_s, z_s, errors or _default_errors(), z0_s, m_s)
-        lcr = analyze_readings_file(readings, counts[-1], geometry, lcr_leads)
+        readings_turns = counts[-1]
         if not sweeps:
             if csv_path is not None:
                 raise InputError("--csv writes the spectrum of a sweep; LCR readings alone have none")
+            if leads is None and leads_short is not None:
+                from rfmeas.fit.core_spectrum import leads_from_short_file
+
+                leads, _ = leads_from_short_file(leads_short, errors or DEFAULT_VNA_ERRORS)
+            lcr = analyze_readings_file(readings, readings_turns, geometry, leads)
             if json_output:
                 print_json(lcr.to_dict())
             else:
@@ -310,8 +310,10 @@ def core_command(
                                  errors=errors, loss_frequencies_Hz=loss, materials_file=materials,
                                  dc_resistance=dc_resistance, extra_files=sweeps[1:], extra_turns=counts[1:],
                                  leads_short=leads_short, leads=leads)
-    if lcr is not None:
-        analysis = replace(analysis, lcr=lcr)
+    if readings is not None:
+        # the readings take the leads the sweeps' analysis used (typed, or read once from --leads-short)
+        lcr_leads = leads if leads is not None else (analysis.leads if leads_short is not None else None)
+        analysis = replace(analysis, lcr=analyze_readings_file(readings, readings_turns, geometry, lcr_leads))
     if plot is not None:
         from rfmeas.present.plots.permeability import plot_permeability
 
@@ -330,8 +332,3 @@ def core_command(
         if csv_path is not None:
             stdout_console().print(f"CSV: {markup(csv_path)}")
 
-
-def _default_errors():
-    from rfmeas.magnetics.dispersion import DEFAULT_VNA_ERRORS
-
-    return DEFAULT_VNA_ERRORS

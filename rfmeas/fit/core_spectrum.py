@@ -59,7 +59,6 @@ from rfmeas.magnetics.dispersion import (
     winding_impedance,
 )
 from rfmeas.model.methods import METHODS, REFLECTION, impedance_from_s, method_advice
-from rfmeas.units import format_engineering as eng
 
 log = logging.getLogger(__name__)
 
@@ -497,7 +496,6 @@ def _fit_family(problem: _Problem, f_all, z_all, sigma_all, turns, geometry, fix
         best[name] = problem.fit(name, best[name].theta, lower, upper)
     lower, upper = _bounds(SUM, f_all, fixed_ls)
     res, rel = best[RESONANCE], best[RELAXATION]
-    tail = list(res.theta[3:])
     chi_res, f0, beta = res.theta[:3]
     heads = [[chi_res + math.log(share), f0, beta, chi_res + math.log(1 - share), fr]
              for share in (0.7, 0.3) for fr in (rel.theta[1], f0 - math.log(5.0))]
@@ -1288,6 +1286,18 @@ def given_leads(inductance_H=None, resistance_ohm=None, path=None) -> LeadEstima
                         "given by the user")
 
 
+def leads_from_short_file(path, errors: VnaErrorModel = DEFAULT_VNA_ERRORS) -> tuple[LeadEstimate, list[str]]:
+    """The test leads from a sweep of them shorted where the winding goes, and the file's warnings.
+
+    Refused (InputError) when the sweep does not resolve the leads.
+    """
+    fs, zs, ms, z0s, fw, _ = _read_impedance(Path(path), None)
+    leads = leads_from_short(fs, zs, errors, z0s, ms)
+    if not leads.determined:
+        raise InputError(f"the shorted-leads sweep does not resolve the leads: {leads.note}", path)
+    return leads, [f"{path}: {w}" for w in fw]
+
+
 def analyze_core_file(path, turns: int | None = None, geometry: CoreGeometry | None = None,
                       method: str | None = None, errors: VnaErrorModel | None = None, loss_frequencies_Hz=None,
                       materials_file=None, dc_resistance: str | None = None, extra_files=(), extra_turns=(),
@@ -1375,11 +1385,8 @@ def analyze_core_file(path, turns: int | None = None, geometry: CoreGeometry | N
     m, z0 = methods.pop(), z0s.pop()
     errors = errors or DEFAULT_VNA_ERRORS
     if leads_short is not None:
-        fs, zs, ms, z0s_, fw, _ = _read_impedance(Path(leads_short), None)
-        leads = leads_from_short(fs, zs, errors, z0s_, ms)
-        file_warnings += [f"{leads_short}: {w}" for w in fw]
-        if not leads.determined:
-            raise InputError(f"the shorted-leads sweep does not resolve the leads: {leads.note}", leads_short)
+        leads, fw = leads_from_short_file(leads_short, errors)
+        file_warnings += fw
     table = load_materials(materials_file)
     try:
         if len(windings) == 1:
