@@ -129,9 +129,6 @@ class BatchResult:
 
         return batch_csv(self)
 
-    def write_csv(self, path: str | Path) -> None:
-        atomic_write_text(path, self.to_csv())
-
     def write_json(self, path: str | Path) -> None:
         atomic_write_text(path, json.dumps(self.to_dict(), indent=2, allow_nan=False) + "\n")
 
