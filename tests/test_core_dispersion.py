@@ -20,6 +20,7 @@ from rfmeas.fit.core_spectrum import (
     analyze_core_file,
     analyze_core_windings,
     analyze_readings,
+    given_leads,
     leads_from_short,
     leads_from_turns,
 )
@@ -181,6 +182,48 @@ def test_shorted_leads_sweep():
     assert est.inductance_H == pytest.approx(LEADS.inductance_H, rel=0.05)
 
 
+def test_compensated_error_model_bounds_the_three_term_error():
+    # The one-port three-term error model (common practice) with random hobby-grade residues:
+    # the error left on Z − Zs after a short Zs swept with the same calibration stays within
+    # the compensated error model, which is far smaller than the uncompensated one near a short.
+    rng = np.random.default_rng(17)
+    errors = VnaErrorModel()
+    f = np.array([1e6])
+    zs = np.array([0.05 + 0.2j])
+    ratios, gains = [], []
+    for z in (0.3 + 0.5j, 1.0 + 3.0j, 5.0 + 20.0j, 0.02 + 0.05j):
+        z = np.array([z])
+        bound = errors.sigma_impedance_compensated(z, zs)
+        plain = errors.sigma_impedance(z)
+        for _ in range(200):
+            cal = Calibration.random(rng)
+            zm = impedance(cal.apply(f, s11_of(f, z), rng, trace_noise=0.0))
+            zsm = impedance(cal.apply(f, s11_of(f, zs), rng, trace_noise=0.0))
+            ratios.append(float(abs((zm - zsm) - (z - zs))[0] / bound[0]))
+        gains.append(float(plain[0] / bound[0]))
+    assert max(ratios) <= 1.5
+    assert np.median(ratios) > 0.2          # the bound is not vacuous
+    assert gains[0] > 10 and gains[-1] > 30  # near a short most of the residue cancels
+    assert errors.sigma_impedance_compensated(zs, zs)[0] == pytest.approx(0.0, abs=1e-12)
+
+
+@pytest.mark.parametrize("seed", range(4))
+def test_swept_short_takes_off_the_calibration_residue_of_one_turn(seed):
+    # One turn of µi 125 is a fraction of an ohm at the low end, comparable to the calibration
+    # residue; the shorted leads swept with the same calibration take both off (short
+    # compensation, common practice), so µi is read from the data's plateau, within 5 %.
+    g = _geometry(CORE)
+    f, z, cals, rng = _sweep(CORE, 1, 300 + seed)
+    fs, s_short = measure(linear_grid(1010), LEADS.resistance_ohm + 2j * np.pi * linear_grid(1010) * LEADS.inductance_H,
+                          cals, rng, segments=2)
+    swept = analyze_core(f, z, 1, g, leads=leads_from_short(fs, impedance(s_short)))
+    assert swept.initial_permeability == pytest.approx(CORE.mu_i, rel=0.05)
+    assert swept.initial_permeability_source == "plateau"
+    assert not swept.fit_is_poor
+    assert swept.leads.short is not None
+    assert abs(swept.initial_permeability - CORE.mu_i) <= 3 * swept.initial_permeability_stderr
+
+
 @pytest.mark.parametrize("turns", [1, 2, 8])
 def test_mu_i_within_5_percent_with_the_leads_known(turns):
     g = _geometry(CORE)
@@ -201,7 +244,7 @@ def test_negative_low_impedance_points_and_100k_points():
     g = _geometry(CORE)
     f, z, _, _ = _sweep(CORE, 2, 7, points=100_000, segments=3)
     assert np.any(z.real[:50] < 0)
-    a = analyze_core(f, z, 2, g, leads=leads_from_short(f, LEADS.resistance_ohm + 2j * np.pi * f * LEADS.inductance_H))
+    a = analyze_core(f, z, 2, g, leads=given_leads(LEADS.inductance_H, LEADS.resistance_ohm))
     assert a.points == f.size - 2
     assert not a.trustworthy[0]
     assert a.model.points <= 60 * 4

@@ -58,7 +58,9 @@ from rfmeas.magnetics.dispersion import (
     weighted_median,
     winding_impedance,
 )
-from rfmeas.model.methods import METHODS, REFLECTION, impedance_from_s, method_advice
+from rfmeas.measurement.noise import trace_noise_sigma
+from rfmeas.model.methods import (
+    METHODS, REFLECTION, impedance_from_s, impedance_sensitivity, method_advice, s_from_impedance)
 
 log = logging.getLogger(__name__)
 
@@ -88,6 +90,26 @@ def _estimate(value, stderr) -> dict:
 # ---------------------------------------------------------------- results
 
 @dataclass(frozen=True)
+class ShortCurve:
+    """The shorted leads' impedance as swept (smoothed along frequency), for removal point by point.
+
+    Taking the measured curve off, not just Rl + jωLl, also takes off the calibration residue the
+    short shares with a low-impedance winding swept with the same calibration.
+    """
+
+    f_Hz: np.ndarray
+    impedance_ohm: np.ndarray
+    noise_ohm: np.ndarray  # standard uncertainty of each smoothed point (trace noise only)
+
+    def at(self, f_Hz):
+        """(impedance, its noise, inside): the curve on `f_Hz`, and where `f_Hz` lies inside its sweep."""
+        f = np.asarray(f_Hz, dtype=float)
+        inside = (f >= self.f_Hz[0]) & (f <= self.f_Hz[-1])
+        z = np.interp(f, self.f_Hz, self.impedance_ohm.real) + 1j * np.interp(f, self.f_Hz, self.impedance_ohm.imag)
+        return z, np.interp(f, self.f_Hz, self.noise_ohm), inside
+
+
+@dataclass(frozen=True)
 class LeadEstimate:
     """The series lead impedance Rl + jωLl, which does not scale with the turns.
 
@@ -104,6 +126,20 @@ class LeadEstimate:
     determined: bool = True
     band_Hz: tuple[float, float] | None = None
     note: str = ""
+    short: ShortCurve | None = field(default=None, compare=False, repr=False)
+
+    def impedance_ohm(self, f_Hz):
+        """(Z of the leads to take off, its noise, where the measured short curve was used).
+
+        Inside a shorted-leads sweep: the swept curve; elsewhere Rl + jωLl (Rl not below 0).
+        """
+        f = np.asarray(f_Hz, dtype=float)
+        z = max(self.resistance_ohm, 0.0) + 2j * np.pi * f * self.inductance_H
+        noise = np.zeros(f.shape)
+        if self.short is None:
+            return z, noise, np.zeros(f.shape, bool)
+        zs, ns, inside = self.short.at(f)
+        return np.where(inside, zs, z), np.where(inside, ns, noise), inside
 
     def to_dict(self) -> dict:
         return {"inductance_H": _estimate(self.inductance_H, self.inductance_stderr_H),
@@ -294,7 +330,7 @@ class CoreAnalysis:
         return self.model.permeability(f_Hz)
 
     def model_impedance(self, f_Hz) -> np.ndarray:
-        """The winding's impedance the fit describes."""
+        """The winding's impedance the fit describes (without the leads, when they were measured)."""
         return winding_impedance(f_Hz, self.model_permeability(f_Hz), self.turns, self.geometry,
                                  self.model.series_resistance_ohm, self.model.lead_inductance_H,
                                  self.model.winding_capacitance_F)
@@ -618,9 +654,9 @@ def _robust_level(values, weights, f):
 
 def leads_from_short(f_Hz, impedance_ohm, errors: VnaErrorModel = DEFAULT_VNA_ERRORS, z0_ohm: float = 50.0,
                      method: str = REFLECTION) -> LeadEstimate:
-    """Rl and Ll from a sweep of the shorted test leads: Z = Rl + jω·Ll where the VNA resolves it."""
-    f = np.asarray(f_Hz, dtype=float)
-    z = np.asarray(impedance_ohm, dtype=complex)
+    """Rl and Ll from a sweep of the shorted test leads: Z = Rl + jω·Ll where the VNA resolves it,
+    and the swept curve itself (`LeadEstimate.short`) for point-by-point removal."""
+    f, z = _clean_input(f_Hz, impedance_ohm, [])
     sigma = errors.sigma_impedance(z, z0_ohm, method)
     w = 2 * np.pi * f
     ok = np.isfinite(z) & (np.abs(z.imag) > 3 * sigma) & (z.imag > 0)
@@ -634,7 +670,39 @@ def leads_from_short(f_Hz, impedance_ohm, errors: VnaErrorModel = DEFAULT_VNA_ER
     # the VNA error on a few-ohm reactance swamps a lead resistance of tens of milliohms
     rl, rl_se, r_note = _resolved_resistance(rl, math.hypot(rl_se, float(np.median(sigma[ok])) / math.sqrt(2)))
     return LeadEstimate(ll, ll_se, rl, rl_se, "shorted leads", True, (float(f[ok][0]), float(f[ok][-1])),
-                        "Rl + jω·Ll read from the shorted leads where the VNA resolves them" + r_note)
+                        "Rl + jω·Ll read from the shorted leads where the VNA resolves them; the swept curve "
+                        "is taken off the winding point by point" + r_note,
+                        short=_short_curve(f, z, ll, z0_ohm, method))
+
+
+SHORT_SMOOTHING_POINTS = 21
+"""Points averaged (at most) along the shorted-leads sweep: its trace noise falls by √21."""
+
+
+def _short_curve(f, z, ll, z0_ohm, method) -> ShortCurve:
+    """The short's impedance smoothed along frequency: jωLl plus a running mean of what is left.
+
+    What is left (Rl and the calibration residue) changes slowly with frequency, so a running
+    mean over a few percent of the sweep removes trace noise without bending it.
+    """
+    from scipy.ndimage import uniform_filter1d
+
+    width = int(min(SHORT_SMOOTHING_POINTS, max(1, f.size // 20)))
+    rest = z - 2j * np.pi * f * ll
+    smooth = (uniform_filter1d(rest.real, width, mode="nearest")
+              + 1j * uniform_filter1d(rest.imag, width, mode="nearest"))
+    noise = _trace_noise_ohm(z, z0_ohm, method) / math.sqrt(width)
+    return ShortCurve(f.copy(), smooth + 2j * np.pi * f * ll, noise)
+
+
+def _trace_noise_ohm(z, z0_ohm, method) -> np.ndarray:
+    """Per point: the size of the trace noise on Z, from the sweep's own neighbouring points
+    (measurement.noise, never a model's residuals) carried through |dZ/dS|."""
+    with np.errstate(all="ignore"):
+        s = s_from_impedance(method, z, z0_ohm)
+        sigma_s = trace_noise_sigma(s)
+        out = np.abs(impedance_sensitivity(method, z, z0_ohm)) * math.sqrt(2) * (sigma_s if np.isfinite(sigma_s) else 0.0)
+    return np.where(np.isfinite(out), out, np.inf)
 
 
 def _resolved_resistance(rl, rl_se):
@@ -797,12 +865,23 @@ def _spectrum_uncertainty(f, z, sigma, zc, l0, fit: DispersionFit):
     return resolution, real_se, imag_se
 
 
-def _plateau(f, z, mu, real_se, resolution, below_srf):
-    """The lowest flat, low-loss, well-resolved band of µ': (value, stderr, first, last) or None."""
+def _plateau(f, z, mu, real_se, systematic_se, below_srf, compensated):
+    """The lowest flat, low-loss, well-resolved band of µ': (value, stderr, first, last) or None.
+
+    `real_se` is the whole standard uncertainty of µ' per point, `systematic_se` its part that
+    does not average down (the VNA's residue). Below PLATEAU_MIN_IMPEDANCE_OHM a point counts
+    only where a swept short was taken off (`compensated`): there the residue largely cancels.
+    """
     with np.errstate(all="ignore"):
         rel = real_se / np.abs(mu.real)
-        candidate = ((np.abs(z) > PLATEAU_MIN_IMPEDANCE_OHM) & (rel < PLATEAU_RELATIVE_UNCERTAINTY)
-                     & (-mu.imag < PLATEAU_LOSS_RATIO * mu.real) & below_srf & (mu.real > 0))
+        resolved = ((np.abs(z) > PLATEAU_MIN_IMPEDANCE_OHM) | compensated) & (rel < PLATEAU_RELATIVE_UNCERTAINTY)
+        low_loss = (-mu.imag < PLATEAU_LOSS_RATIO * mu.real) & (mu.real > 0)
+        candidate = resolved & low_loss & below_srf
+    # only below the dispersion: once the resolved µ'' has risen past µ'/10, a flat µ' further up
+    # (the tail far above the loss peak) is not the initial permeability
+    lossy = first_run(resolved & ~low_loss & below_srf, PLATEAU_MIN_POINTS)
+    if lossy is not None:
+        candidate[lossy[0]:] = False
     run = first_run(candidate, PLATEAU_MIN_POINTS)
     if run is None:
         return None
@@ -824,7 +903,7 @@ def _plateau(f, z, mu, real_se, resolution, below_srf):
             values = mu.real[sl]
             n = values.size
             scatter = 1.4826 * float(np.median(np.abs(values - level))) / math.sqrt(n)
-            systematic = float(np.median(real_se[sl]))  # the VNA's errors do not average down
+            systematic = float(np.median(systematic_se[sl]))  # the VNA's residue does not average down
             return level, math.hypot(scatter, systematic), first, last
         # not flat: drop the poorly resolved low end if it is much worse than the rest (the
         # VNA's error grows as |Z| falls), else the top half of the band (dispersion sets in)
@@ -931,12 +1010,29 @@ def analyze_core(f_Hz, impedance_ohm, turns: int, geometry: CoreGeometry, z0_ohm
         raise InputError(f"reference impedance must be positive, not {z0_ohm!r}")
     warnings: list[str] = []
     f, z = _clean_input(f_Hz, impedance_ohm, warnings)
-    sigma = errors.sigma_impedance(z, z0_ohm, method)
     known = leads is not None and leads.determined and leads.source != "single sweep"
-    z_fit = z - (max(leads.resistance_ohm, 0.0) if known else 0.0)
-    fit = fit_dispersion(f, z_fit, sigma, int(turns), geometry, leads.inductance_H if known else None)
+    compensated = np.zeros(f.shape, bool)
     if known:
-        fit = replace(fit, lead_inductance_stderr_H=leads.inductance_stderr_H)
+        z_lead, lead_noise, compensated = leads.impedance_ohm(f)
+        z_fit = z - z_lead
+    else:
+        z_fit, lead_noise = z, np.zeros(f.shape)
+    # the VNA's systematic residue (what the short shares with the winding cancels) and the
+    # trace noise of this sweep and of the smoothed short
+    sigma_systematic = errors.sigma_impedance(z, z0_ohm, method)
+    if compensated.any():
+        sigma_systematic = np.where(compensated, errors.sigma_impedance_compensated(z, z_lead, z0_ohm, method),
+                                    sigma_systematic)
+        outside = int((~compensated).sum())
+        if outside:
+            warnings.append(f"{outside} point(s) lie outside the shorted-leads sweep: there only Rl + jω·Ll "
+                            "is taken off, not the swept curve")
+    sigma = np.sqrt(sigma_systematic**2 + _trace_noise_ohm(z, z0_ohm, method) ** 2 + lead_noise**2)
+    # measured leads are already off z_fit: the fit holds its series inductance at 0
+    fit = fit_dispersion(f, z_fit, sigma, int(turns), geometry, 0.0 if known else None)
+    if known:
+        # where the swept short was taken off, its uncertainty is in sigma, not in Ll
+        fit = replace(fit, lead_inductance_stderr_H=None if compensated.all() else leads.inductance_stderr_H)
         lead = leads
     else:
         # kept when resolved to better than ±70 % (its uncertainty is carried into µ); else left in
@@ -968,7 +1064,8 @@ def analyze_core(f_Hz, impedance_ohm, turns: int, geometry: CoreGeometry, z0_ohm
     cross = np.flatnonzero((model_z.imag[:-1] > 0) & (model_z.imag[1:] <= 0))
     srf = float(grid[cross[0]]) if cross.size else math.inf
 
-    plateau = _plateau(f, z_fit, mu, real_se, resolution, srf_ratio < 0.1)
+    systematic_se = _spectrum_uncertainty(f, z_fit, sigma_systematic, zc, l0, fit)[1]
+    plateau = _plateau(f, z_fit, mu, real_se, systematic_se, srf_ratio < 0.1, compensated)
     rough_plateau = None
     if plateau is not None and plateau[1] > PLATEAU_MAX_RELATIVE_UNCERTAINTY * plateau[0]:
         # a plateau the VNA resolves only roughly (few ohms): the model, fitted where the
@@ -982,9 +1079,18 @@ def analyze_core(f_Hz, impedance_ohm, turns: int, geometry: CoreGeometry, z0_ohm
         source, plateau_points, plateau_band = "plateau", last - first + 1, (float(f[first]), float(f[last]))
     else:
         mu_i, mu_i_se = fit.static_permeability, fit.static_permeability_stderr
-        if mu_i_se is not None and known and leads.inductance_stderr_H:
+        if mu_i_se is not None and known and leads.inductance_stderr_H and not compensated.all():
             # a lead inductance held at a measured value moves µ(0) one for one: δµ = δLl/L0
             mu_i_se = math.hypot(mu_i_se, leads.inductance_stderr_H / air_core_inductance_H(int(turns), geometry))
+        if mu_i_se is not None:
+            # the model leans on the lowest resolved points, whose systematic VNA error does not
+            # average down: their relative size is carried into µ(0)
+            lowest = np.flatnonzero(trust)[:PLATEAU_MIN_POINTS * 2]
+            if lowest.size:
+                with np.errstate(all="ignore"):
+                    rel = float(np.median(systematic_se[lowest] / np.abs(mu.real[lowest])))
+                if np.isfinite(rel):
+                    mu_i_se = math.hypot(mu_i_se, rel * mu_i)
         source, plateau_points, plateau_band = "model extrapolation", 0, None
         warnings.append("the data hold no flat, low-loss, well-resolved plateau of µ' at the low end; the initial "
                         "permeability is the dispersion model's extrapolation to f → 0: sweep lower or wind "

@@ -7,6 +7,7 @@ Cores, leads, windings and VNA residual errors: tests/reference/core_sweeps.py.
 
 from __future__ import annotations
 
+import math
 import os
 
 import numpy as np
@@ -29,9 +30,9 @@ def simulate_core(rng, points=1010):
     for n in TURNS:
         fm, s = measure(f, winding_z(f, core, n, leads, winding_capacitance_F(n, rng)), cals, rng, segments=2)
         windings.append((fm, impedance(s), n))
-    w = 2 * np.pi * f
-    short = impedance(cals[0].apply(f, s11_of(f, leads.resistance_ohm + 1j * w * leads.inductance_H), rng))
-    return core, leads, windings, (f, short)
+    # the shorted leads swept in the same session: same segments, same calibrations
+    fs, s_short = measure(f, leads.resistance_ohm + 2j * np.pi * f * leads.inductance_H, cals, rng, segments=2)
+    return core, leads, windings, (fs, impedance(s_short))
 
 
 def run_population(seed=2026, cores=CORES, points=1010):
@@ -46,6 +47,8 @@ def run_population(seed=2026, cores=CORES, points=1010):
             a = analyze_core(f, z, n, g, leads=lead_est)
             row[f"short_{n}"] = a.initial_permeability / core.mu_i - 1
             row[f"src_{n}"] = a.initial_permeability_source
+            se = a.initial_permeability_stderr
+            row[f"short_{n}_se"] = abs(a.initial_permeability - core.mu_i) / se if se else math.inf
             b = analyze_core(f, z, n, g)
             row[f"bare_{n}"] = b.initial_permeability / core.mu_i - 1
         s = analyze_core_windings(windings, g)
@@ -66,6 +69,11 @@ def summarise(rows):
         lines.append(f"{key:8s}: {ok.mean() * 100:5.1f} % within 5 % ({ok.sum()}/{ok.size}); worst "
                      + ", ".join(f"{100 * w[key]:+.1f} % (µi {w['mu_i']:.0f}, peak {w['peak_Hz']:.3g} Hz)"
                                  for w in worst))
+    for n in TURNS:
+        z = np.array([r[f"short_{n}_se"] for r in rows])
+        plateau = np.mean([r[f"src_{n}"] == "plateau" for r in rows])
+        lines.append(f"short_{n} honesty: median |error|/stderr {np.median(z):.2f}, more than 3 stderr off "
+                     f"{int(np.sum(z > 3))}; µi read from the plateau in {100 * plateau:.0f} %")
     lead = np.array([r["lead"] for r in rows])
     lines.append(f"lead L from turn counts: median |error| {100 * np.median(np.abs(lead)):.1f} %, "
                  f"{100 * np.mean(np.abs(lead) <= 0.1):.0f} % within 10 %, worst {100 * lead[np.argmax(np.abs(lead))]:+.1f} %")
