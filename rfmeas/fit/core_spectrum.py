@@ -865,17 +865,21 @@ def _spectrum_uncertainty(f, z, sigma, zc, l0, fit: DispersionFit):
     return resolution, real_se, imag_se
 
 
-def _plateau(f, z, mu, real_se, systematic_se, below_srf, compensated):
+def _plateau(f, z, mu, real_se, noise_se, systematic_se, below_srf, compensated):
     """The lowest flat, low-loss, well-resolved band of µ': (value, stderr, first, last) or None.
 
-    `real_se` is the whole standard uncertainty of µ' per point, `systematic_se` its part that
-    does not average down (the VNA's residue). Below PLATEAU_MIN_IMPEDANCE_OHM a point counts
-    only where a swept short was taken off (`compensated`): there the residue largely cancels.
+    `real_se` is the whole standard uncertainty of µ' per point; `noise_se` (for µ', µ'') the
+    trace noise's part, which averages down; `systematic_se` the VNA residue's part of µ', which
+    does not. Below
+    PLATEAU_MIN_IMPEDANCE_OHM a point counts only where a swept short was taken off
+    (`compensated`): there the residue largely cancels. Loss and flatness are judged against
+    each point's noise, so trace noise neither ends the band early nor passes a real slope.
     """
     with np.errstate(all="ignore"):
         rel = real_se / np.abs(mu.real)
         resolved = ((np.abs(z) > PLATEAU_MIN_IMPEDANCE_OHM) | compensated) & (rel < PLATEAU_RELATIVE_UNCERTAINTY)
-        low_loss = (-mu.imag < PLATEAU_LOSS_RATIO * mu.real) & (mu.real > 0)
+        # low loss unless the point's µ'' is above µ'/10 by more than its own noise
+        low_loss = (-mu.imag - 2.0 * noise_se[1] < PLATEAU_LOSS_RATIO * mu.real) & (mu.real > 0)
         candidate = resolved & low_loss & below_srf
     # only below the dispersion: once the resolved µ'' has risen past µ'/10, a flat µ' further up
     # (the tail far above the loss peak) is not the initial permeability
@@ -896,13 +900,18 @@ def _plateau(f, z, mu, real_se, systematic_se, below_srf, compensated):
         level = weighted_median(mu.real[sl], wts)
         if x[-1] > 0:
             slope = np.polyfit(x, mu.real[sl], 1, w=np.sqrt(wts))[0]
-            change = abs(slope * x[-1]) / level
+            # a slope the point-to-point scatter cannot tell from zero does not end the plateau
+            wn = 1.0 / np.maximum(noise_se[0][sl], 1e-12 * level) ** 2
+            slope_se = 1.0 / math.sqrt(float(np.sum(wn * (x - np.average(x, weights=wn)) ** 2)))
+            change = max(0.0, abs(slope) - 2.0 * slope_se) * x[-1] / level
         else:
             change = 0.0
         if change <= PLATEAU_FLATNESS:
             values = mu.real[sl]
             n = values.size
-            scatter = 1.4826 * float(np.median(np.abs(values - level))) / math.sqrt(n)
+            # a few points' spread says little: their own noise bounds it from below
+            spread = 1.4826 * float(np.median(np.abs(values - level)))
+            scatter = max(spread, float(np.median(noise_se[0][sl]))) / math.sqrt(n)
             systematic = float(np.median(systematic_se[sl]))  # the VNA's residue does not average down
             return level, math.hypot(scatter, systematic), first, last
         # not flat: drop the poorly resolved low end if it is much worse than the rest (the
@@ -1027,7 +1036,8 @@ def analyze_core(f_Hz, impedance_ohm, turns: int, geometry: CoreGeometry, z0_ohm
         if outside:
             warnings.append(f"{outside} point(s) lie outside the shorted-leads sweep: there only Rl + jω·Ll "
                             "is taken off, not the swept curve")
-    sigma = np.sqrt(sigma_systematic**2 + _trace_noise_ohm(z, z0_ohm, method) ** 2 + lead_noise**2)
+    sigma_noise = np.hypot(_trace_noise_ohm(z, z0_ohm, method), lead_noise)
+    sigma = np.hypot(sigma_systematic, sigma_noise)
     # measured leads are already off z_fit: the fit holds its series inductance at 0
     fit = fit_dispersion(f, z_fit, sigma, int(turns), geometry, 0.0 if known else None)
     if known:
@@ -1065,7 +1075,9 @@ def analyze_core(f_Hz, impedance_ohm, turns: int, geometry: CoreGeometry, z0_ohm
     srf = float(grid[cross[0]]) if cross.size else math.inf
 
     systematic_se = _spectrum_uncertainty(f, z_fit, sigma_systematic, zc, l0, fit)[1]
-    plateau = _plateau(f, z_fit, mu, real_se, systematic_se, srf_ratio < 0.1, compensated)
+    noise_se = _spectrum_uncertainty(f, z_fit, sigma_noise, zc, l0, replace(
+        fit, lead_inductance_stderr_H=None, winding_capacitance_stderr_F=None))[1:]
+    plateau = _plateau(f, z_fit, mu, real_se, noise_se, systematic_se, srf_ratio < 0.1, compensated)
     rough_plateau = None
     if plateau is not None and plateau[1] > PLATEAU_MAX_RELATIVE_UNCERTAINTY * plateau[0]:
         # a plateau the VNA resolves only roughly (few ohms): the model, fitted where the

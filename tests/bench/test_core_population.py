@@ -51,6 +51,8 @@ def run_population(seed=2026, cores=CORES, points=1010):
             row[f"short_{n}_se"] = abs(a.initial_permeability - core.mu_i) / se if se else math.inf
             b = analyze_core(f, z, n, g)
             row[f"bare_{n}"] = b.initial_permeability / core.mu_i - 1
+            # said plainly: a poor fit, or the warning that the leads are part of this µi
+            row[f"bare_{n}_said"] = b.fit_is_poor or any("lead inductance is not separated" in w for w in b.warnings)
         s = analyze_core_windings(windings, g)
         row["set"] = s.initial_permeability / core.mu_i - 1
         row["lead"] = s.leads.inductance_H / leads.inductance_H - 1
@@ -74,6 +76,10 @@ def summarise(rows):
         plateau = np.mean([r[f"src_{n}"] == "plateau" for r in rows])
         lines.append(f"short_{n} honesty: median |error|/stderr {np.median(z):.2f}, more than 3 stderr off "
                      f"{int(np.sum(z > 3))}; µi read from the plateau in {100 * plateau:.0f} %")
+    for n in TURNS:
+        silent = [r for r in rows if abs(r[f"bare_{n}"]) > 0.05 and not r[f"bare_{n}_said"]]
+        lines.append(f"bare_{n}: {len(silent)} off by more than 5 % with neither a poor fit nor the leads warning"
+                     + "".join(f"; {100 * r[f'bare_{n}']:+.1f} % (µi {r['mu_i']:.0f})" for r in silent[:3]))
     lead = np.array([r["lead"] for r in rows])
     lines.append(f"lead L from turn counts: median |error| {100 * np.median(np.abs(lead)):.1f} %, "
                  f"{100 * np.mean(np.abs(lead) <= 0.1):.0f} % within 10 %, worst {100 * lead[np.argmax(np.abs(lead))]:+.1f} %")
