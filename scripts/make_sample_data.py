@@ -58,7 +58,8 @@ SETS = {
     "coupler-before": dict(name="ladder-line coupler, unit 3", secondary_turns=14, k=0.990,
                            C2_F=1.9e-12, wording="as first wound, loosely, with 14 secondary turns instead of 15"),
     "coupler-after": dict(name="ladder-line coupler, unit 3", secondary_turns=15, k=0.997,
-                          C2_F=2.0e-12, wording="rewound tighter with the designed 15 secondary turns"),
+                          C2_F=2.0e-12, wording="rewound tighter with the designed 15 secondary turns",
+                          readings="pri_lcr.csv"),
 }
 
 ONE_PORT_F_HZ = np.geomspace(100e3, 100e6, 801)
@@ -157,7 +158,12 @@ termination = "open"
 file = "thru.s2p"
 port1 = "primary"
 port2 = "secondary"
-'''
+''' + ('''
+[[reading]]
+file = "{0}"
+winding = "primary"
+termination = "open"
+'''.format(spec["readings"]) if "readings" in spec else "")
 
 
 def make_set(folder: Path, spec: dict, params: TransformerParams, rng: np.random.Generator) -> None:
@@ -321,6 +327,27 @@ tracking_dB = 0.05
     return core_truth()
 
 
+LCR_READINGS_HZ = (1e3, 10e3, 100e3)
+LCR_GAIN_ERROR = 1.006  # the invented bench meter reads inductance 0.6 % high
+
+
+def lcr_readings_csv(params: TransformerParams) -> str:
+    """Readings of the primary (secondary open) on an invented bench LCR meter, Ls/Rs form.
+
+    At these frequencies the capacitances do not matter: Z = R1 + jωLl1 + (jωLm ∥ Rc)
+    with Lm = k·L1 and Ll1 = (1 − k)·L1 (the T-model of DESIGN.md).
+    """
+    lines = ["# Invented demo readings, not a measurement (scripts/make_sample_data.py):",
+             "# primary of the ladder-line coupler on a bench LCR meter, secondary open.",
+             "frequency_Hz,Ls_uH,Rs_ohm"]
+    lm, ll = params.k * params.L1_H, (1 - params.k) * params.L1_H
+    for f in LCR_READINGS_HZ:
+        w = 2 * math.pi * f
+        z = params.R1_ohm + 1j * w * ll + 1 / (1 / (1j * w * lm) + 1 / params.Rc_ohm)
+        lines.append(f"{f:g},{z.imag / w * LCR_GAIN_ERROR * 1e6:.4f},{z.real:.4f}")
+    return "\n".join(lines) + "\n"
+
+
 def main(argv: list[str]) -> int:
     out = Path(argv[1]) if len(argv) > 1 else ROOT / "sample_data"
     rng = np.random.default_rng(SEED)
@@ -328,6 +355,8 @@ def main(argv: list[str]) -> int:
     for folder, spec in SETS.items():
         params = true_params(spec["secondary_turns"], spec["C2_F"], spec["k"])
         make_set(out / folder, spec, params, rng)
+        if "readings" in spec:
+            (out / folder / spec["readings"]).write_text(lcr_readings_csv(params), encoding="utf-8")
         truth[folder] = params.to_dict()
     truth["unknown-core"] = make_core_set(out / "unknown-core", rng)
     (out / "truth.json").write_text(json.dumps(truth, indent=2) + "\n", encoding="utf-8")

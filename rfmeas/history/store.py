@@ -668,17 +668,26 @@ def _key_line(key: str) -> re.Pattern:
                       re.MULTILINE)
 
 
-def _renamed_manifest(text: str, renames: list[tuple[str, str]], key: str = "file") -> str:
-    """The manifest with `key` of each [[sweep]] entry that has it replaced (renames: (old, new) in order).
+_ARRAY_HEADER = re.compile(r"^[ \t]*\[\[[ \t]*(?P<table>[A-Za-z0-9_-]+)[ \t]*\]\]", re.MULTILINE)
 
-    The text is edited in place when its `key = "..."` lines can be matched to the
-    entries one by one, so comments and layout stay; otherwise it is written anew.
+
+def _renamed_manifest(text: str, renames: list[tuple[str, str]], key: str = "file", table: str = "sweep") -> str:
+    """The manifest with `key` of each [[table]] entry that has it replaced (renames: (old, new) in order).
+
+    The text is edited in place when its `key = "..."` lines under [[table]] headers can be
+    matched to the entries one by one, so comments and layout stay; otherwise it is written anew.
     """
     import tomllib
 
     if all(old == new for old, new in renames):
         return text
-    matches = list(_key_line(key).finditer(text))
+    headers = [(m.start(), m["table"]) for m in _ARRAY_HEADER.finditer(text)]
+
+    def under_table(pos: int) -> bool:
+        owner = [name for start, name in headers if start < pos]
+        return bool(owner) and owner[-1] == table
+
+    matches = [m for m in _key_line(key).finditer(text) if under_table(m.start())]
     if len(matches) == len(renames):
         pieces, last = [], 0
         for m, (old, new) in zip(matches, renames):
@@ -688,11 +697,11 @@ def _renamed_manifest(text: str, renames: list[tuple[str, str]], key: str = "fil
             last = m.end("value")
         else:
             edited = "".join(pieces) + text[last:]
-            entries = [e for e in tomllib.loads(edited).get("sweep", []) if key in e]
+            entries = [e for e in tomllib.loads(edited).get(table, []) if key in e]
             if [e[key] for e in entries] == [new for _, new in renames]:
                 return edited
     doc = tomllib.loads(text)
-    for entry, (_, new) in zip([e for e in doc.get("sweep", []) if key in e], renames):
+    for entry, (_, new) in zip([e for e in doc.get(table, []) if key in e], renames):
         entry[key] = new
     return _toml_document(doc, "rewritten by rfmeas: the files are named as kept in the history store")
 
@@ -727,6 +736,7 @@ def record_sources(measurement) -> tuple[str | None, list[tuple[str, bytes]]]:
     the kept manifest is rewritten to point at them. The same file listed twice is
     kept once. Sweeps given without a manifest get a manifest written for them.
     """
+    readings = [r for r in getattr(measurement, "readings", ()) if r.raw_bytes is not None]
     sweeps = [s for s in measurement.sweeps if s.raw_bytes is not None]
     manifest_text = getattr(measurement, "manifest_text", None)
     manifest_path = getattr(measurement, "manifest_path", None)
@@ -736,7 +746,7 @@ def record_sources(measurement) -> tuple[str | None, list[tuple[str, bytes]]]:
         return str(Path(sweep.path).resolve()) if sweep.path else f"label:{sweep.label}"
 
     inside, outside = {}, {}
-    for sweep in sweeps:
+    for sweep in sweeps + readings:
         if base is not None and sweep.path and Path(sweep.path).resolve().is_relative_to(base):
             inside.setdefault(key(sweep), Path(sweep.path).resolve().relative_to(base).as_posix())
             continue
@@ -748,7 +758,7 @@ def record_sources(measurement) -> tuple[str | None, list[tuple[str, bytes]]]:
         names[k] = _unique_name(preferred, taken)
         taken.add(names[k])
     out, seen = [], set()
-    for sweep in sweeps:
+    for sweep in sweeps + readings:
         if key(sweep) not in seen:
             seen.add(key(sweep))
             out.append((names[key(sweep)], sweep.raw_bytes))
@@ -756,6 +766,8 @@ def record_sources(measurement) -> tuple[str | None, list[tuple[str, bytes]]]:
         manifest_text = _manifest_for_files(measurement, [names[key(s)] for s in sweeps])
     elif base is not None:
         manifest_text = _renamed_manifest(manifest_text, _manifest_renames(manifest_text, base, names))
+        manifest_text = _renamed_manifest(manifest_text, _manifest_renames(manifest_text, base, names, "reading"),
+                                          table="reading")
         manifest_text = _with_fixtures(manifest_text, base, taken, out)
     return manifest_text, [(FALLBACK_MANIFEST_NAME, manifest_text.encode("utf-8"))] + out
 
@@ -822,12 +834,12 @@ def _with_fixtures(text: str, base: Path, taken: set[str], out: list) -> str:
     return _renamed_manifest(text, renames, key="fixture")
 
 
-def _manifest_renames(text: str, base: Path, names: dict[str, str]) -> list[tuple[str, str]]:
-    """(file as the manifest names it, name it is kept under) for each [[sweep]] entry."""
+def _manifest_renames(text: str, base: Path, names: dict[str, str], table: str = "sweep") -> list[tuple[str, str]]:
+    """(file as the manifest names it, name it is kept under) for each [[sweep]] (or `table`) entry."""
     import tomllib
 
     renames = []
-    for entry in tomllib.loads(text).get("sweep", []):
+    for entry in tomllib.loads(text).get(table, []):
         old = entry.get("file")
         new = names.get(str((base / old).resolve()), old)
         same = PurePosixPath(old.replace("\\", "/")).as_posix() == new  # 'x.s1p' named as './x.s1p'

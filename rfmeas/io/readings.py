@@ -29,7 +29,7 @@ import logging
 import math
 import os
 import re
-from dataclasses import dataclass
+from dataclasses import dataclass, field
 from pathlib import Path
 
 import numpy as np
@@ -87,6 +87,7 @@ class LcrReadings:
     form: str
     path: str
     warnings: tuple[str, ...] = ()
+    raw_bytes: bytes | None = field(default=None, repr=False)  # the file as read, for a history store
 
     @property
     def series_inductance_H(self) -> np.ndarray:
@@ -257,10 +258,13 @@ def _check_reading(form: str, f_Hz: float, a: float, b: float, where: str, path,
 
 # ---------------------------------------------------------------- files
 
-def _read_text(path: Path) -> str:
+def _read_bytes(path: Path) -> bytes:
     from rfmeas.io.files import read_regular_file  # regular files only, bounded, non-blocking
 
-    raw = read_regular_file(path, "file of LCR readings", MAX_READINGS_BYTES)
+    return read_regular_file(path, "file of LCR readings", MAX_READINGS_BYTES)
+
+
+def _decode(raw: bytes, path: Path) -> str:
     try:
         return raw.decode("utf-8-sig")
     except UnicodeDecodeError:
@@ -348,7 +352,8 @@ def _parse_toml(text: str, path) -> tuple[list, str, list]:
 def load_readings(path: str | os.PathLike) -> LcrReadings:
     """Read a CSV (.csv, .txt, .tsv) or TOML (.toml) file of LCR readings; any problem is an InputError."""
     path = Path(path)
-    text = _read_text(path)
+    raw = _read_bytes(path)
+    text = _decode(raw, path)
     suffix = path.suffix.lower()
     if suffix not in (".csv", ".txt", ".tsv", ".toml"):
         raise InputError("LCR readings must be a .csv, .txt, .tsv or .toml file", path)
@@ -374,7 +379,7 @@ def load_readings(path: str | os.PathLike) -> LcrReadings:
         notes.append("readings were not in frequency order; sorted")
     for note in notes:
         log.info("%s: %s", path, note)
-    return LcrReadings(f[order], z[order], form, str(path), tuple(notes))
+    return LcrReadings(f[order], z[order], form, str(path), tuple(notes), raw)
 
 
 def format_readings_csv(f_Hz, impedance_ohm, form: str = "Ls_Rs") -> str:

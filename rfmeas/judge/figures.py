@@ -364,6 +364,46 @@ def _combined_key(prefix: str, primary_known: bool, secondary_known: bool, held:
     return f"{prefix}_secondary" if secondary_known else f"{prefix}_primary"
 
 
+READINGS_AGREEMENT_PERCENT = 5.0
+"""An LCR reading of a winding and the sweeps' fit of it should agree to a few per cent (common
+practice); beyond this (and three of the fit's standard errors) a warning says so."""
+
+
+def _readings_figures(measurement, from_fit: dict, warnings: list) -> dict:
+    """A_L from each winding's LCR readings ([[reading]]), beside the sweeps' A_L of that winding.
+
+    A_L = Ls/N² of the lowest-frequency reading (the meter's own accuracy is not known here:
+    no standard error).
+    """
+    turns = {"primary": measurement.primary_turns, "secondary": measurement.secondary_turns}
+    out = {}
+    for reading in getattr(measurement, "readings", ()):
+        n = turns[reading.winding]
+        key = f"readings_{reading.winding}"
+        label = f"from LCR readings of the {reading.winding}"
+        if not n:
+            out[key] = Figure(key, label, "nH/turn²", None, None, f"needs the {reading.winding}'s turns")
+            continue
+        value = reading.inductance_H / n**2 * 1e9
+        fit = from_fit.get(reading.winding)
+        difference = None
+        if fit is not None and fit.value:
+            difference = 100.0 * (value / fit.value - 1.0)
+            allowed = max(READINGS_AGREEMENT_PERCENT, 300.0 * (fit.stderr or 0.0) / fit.value)
+            if abs(difference) > allowed:
+                warnings.append(
+                    f"A_L of the {reading.winding} from the LCR readings ({value:.4g} nH at "
+                    f"{reading.frequency_Hz:g} Hz) and from the sweeps ({fit.value:.4g} nH) differ by "
+                    f"{difference:+.2g} %: check the meter's lead compensation, the reading's frequency "
+                    "(the core's µ may change between them) and the turns")
+        out[key] = Figure(key, label, "nH/turn²", value, None,
+                          "no standard error: the meter's accuracy is not known to rfmeas",
+                          details=(("turns", n), ("frequency_Hz", reading.frequency_Hz),
+                                   ("inductance_H", reading.inductance_H), ("fit_difference_percent", difference),
+                                   ("file", reading.label)))
+    return out
+
+
 def compute_figures(measurement, result, cannot_judge: tuple[str, ...] = ()) \
         -> tuple[Figures, DesignCheck | None, list[str]]:
     """(figures, design check, warnings) for a fitted measurement set; see docs/DESIGN.md 'JSON contract'.
@@ -416,7 +456,8 @@ def compute_figures(measurement, result, cannot_judge: tuple[str, ...] = ()) \
             conv = float(nH_per_turn2_to(1.0, unit))
             scaled[key] = Figure(key, label, unit, None if al.value is None else al.value * conv,
                                  None if al.stderr is None else al.stderr * conv)
-        figures.append(al.with_details(agreement_percent=agreement, agrees=agrees, **scaled))
+        from_readings = _readings_figures(measurement, {"primary": pri, "secondary": sec}, warnings)
+        figures.append(al.with_details(agreement_percent=agreement, agrees=agrees, **scaled, **from_readings))
     else:
         figures.append(_missing(name, "needs the turn counts ([transformer] turns)"))
 

@@ -13,15 +13,16 @@ from rfmeas.limits import check_range
 from rfmeas.usertext import plain
 from rfmeas.io.strict import check_keys, read_toml
 from rfmeas.model.termination import Termination
-from rfmeas.measurement.sweep import (WINDINGS, DesignTarget, MeasurementSet, Sweep, check_sweep_count, other_winding,
-                     refuse_repeated_sweeps, thin_for_fit)
+from rfmeas.measurement.sweep import (WINDINGS, DesignTarget, MeasurementSet, Sweep, WindingReadings,
+                                      check_sweep_count, other_winding, refuse_repeated_sweeps, thin_for_fit)
 
-_TOP_KEYS = {"transformer", "core", "design", "sweep"}
+_TOP_KEYS = {"transformer", "core", "design", "sweep", "reading"}
 _TRANSFORMER_KEYS = {"name", "primary_turns", "secondary_turns", "notes"}
 _DESIGN_KEYS = {
     "source_impedance_ohm", "load_impedance_ohm", "lowest_frequency_Hz", "highest_frequency_Hz",
     "reactance_factor", "ratio_tolerance_percent", "return_loss_dB",
 }
+_READING_KEYS = {"file", "winding", "termination", "label"}
 _SWEEP_KEYS = {"file", "port1", "port2", "termination", "label", "method", "fixture"}
 
 
@@ -189,9 +190,12 @@ def load_manifest(path: str | Path) -> MeasurementSet:
             raise InputError("design.highest_frequency_Hz must be above lowest_frequency_Hz", path)
         design = DesignTarget(**values)
 
+    readings = _load_readings(doc.get("reading"), path)
     entries = doc.get("sweep")
     if not entries:
-        raise InputError("no [[sweep]] entries: a measurement set needs at least one sweep", path)
+        more = (" (LCR readings alone: `rfmeas core --readings FILE --turns N` gives A_L and µ)"
+                if readings else "")
+        raise InputError("no [[sweep]] entries: a measurement set needs at least one sweep" + more, path)
     if not isinstance(entries, list):
         raise InputError("sweep must be an array of tables ([[sweep]])", path)
     check_sweep_count(len(entries), path)
@@ -239,8 +243,46 @@ def load_manifest(path: str | Path) -> MeasurementSet:
     return MeasurementSet(
         name=name.strip(), sweeps=thin_for_fit(sweeps),
         primary_turns=turns.get("primary_turns"), secondary_turns=turns.get("secondary_turns"),
-        core=core, design=design, manifest_path=str(path), manifest_text=text, notes=notes,
+        core=core, design=design, manifest_path=str(path), manifest_text=text, notes=notes, readings=readings,
     )
+
+
+def _load_readings(entries, path: Path) -> tuple[WindingReadings, ...]:
+    """The [[reading]] tables: LCR readings of one winding with the other open (CSV or TOML)."""
+    from rfmeas.io.readings import load_readings
+
+    if entries is None:
+        return ()
+    if not isinstance(entries, list):
+        raise InputError("reading must be an array of tables ([[reading]])", path)
+    check_sweep_count(len(entries), path)
+    out, seen = [], {}
+    for i, entry in enumerate(entries, start=1):
+        where = f"reading {i}"
+        check_keys(entry, _READING_KEYS, f"[{where}]", path)
+        if "file" not in entry or not isinstance(entry["file"], str):
+            raise InputError(f"{where} needs file = \"...\" (LCR readings, CSV or TOML, relative to the manifest)",
+                             path)
+        winding = _winding(entry.get("winding", "primary"), "winding", where, path)
+        termination = entry.get("termination", "open")
+        if termination != "open":
+            raise InputError(f"{where}.termination: readings are taken with the other winding open "
+                             f"(\"open\"), not {termination!r}", path)
+        if winding in seen:
+            raise InputError(f"{where}: the {winding} was already read in {seen[winding]}; give one file of "
+                             "readings per winding", path)
+        seen[winding] = where
+        label = entry.get("label", entry["file"])
+        if not isinstance(label, str):
+            raise InputError(f"{where}.label must be a string", path)
+        _refuse_control_characters(label, f"{where}.label", path)
+        data = load_readings(path.parent / entry["file"])
+        if not data.impedance_ohm[0].imag > 0:
+            raise InputError(f"{where}: the lowest-frequency reading of {entry['file']} is not inductive "
+                             "(Ls ≤ 0): not an open winding on a core", path)
+        out.append(WindingReadings(label, winding, data.f_Hz, data.impedance_ohm, data.form,
+                                   str(path.parent / entry["file"]), data.raw_bytes))
+    return tuple(out)
 
 
 def parse_turns(text: str) -> tuple[int, int]:

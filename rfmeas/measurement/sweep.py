@@ -225,6 +225,38 @@ class DesignTarget:
 
 
 @dataclass(frozen=True)
+class WindingReadings:
+    """LCR-meter readings of one winding with the other open: its series impedance at each frequency.
+
+    They give the winding's inductance without a VNA (the reading at the lowest frequency, where
+    the core is nearest its initial permeability), hence A_L = L/N².
+    """
+
+    label: str
+    winding: str
+    f_Hz: np.ndarray
+    impedance_ohm: np.ndarray
+    form: str
+    path: str | None = None
+    raw_bytes: bytes | None = field(default=None, repr=False, compare=False)
+
+    @property
+    def frequency_Hz(self) -> float:
+        """The frequency of the reading the inductance is taken from (the lowest)."""
+        return float(self.f_Hz[0])
+
+    @property
+    def inductance_H(self) -> float:
+        """Series inductance Im(Z)/ω of the lowest-frequency reading."""
+        return float(self.impedance_ohm[0].imag / (2 * math.pi * self.f_Hz[0]))
+
+    def to_dict(self) -> dict:
+        return {"label": self.label, "file": self.path, "winding": self.winding, "termination": "open",
+                "form": self.form, "readings": int(self.f_Hz.size),
+                "frequency_range_Hz": [float(self.f_Hz[0]), float(self.f_Hz[-1])]}
+
+
+@dataclass(frozen=True)
 class MeasurementSet:
     """All sweeps of one transformer, with what is known about it."""
 
@@ -237,6 +269,7 @@ class MeasurementSet:
     manifest_path: str | None = None
     manifest_text: str | None = field(default=None, repr=False, compare=False)
     notes: str = ""
+    readings: tuple[WindingReadings, ...] = ()
 
     @property
     def points(self) -> int:
@@ -251,14 +284,14 @@ class MeasurementSet:
         if self.manifest_text is not None:
             out.append(("manifest.toml", self.manifest_text.encode("utf-8")))
             base = Path(self.manifest_path).resolve().parent if self.manifest_path else None
-        for sweep in self.sweeps:
-            if sweep.raw_bytes is None:
+        for item in (*self.sweeps, *self.readings):
+            if item.raw_bytes is None:
                 continue
-            name = Path(sweep.path).name if sweep.path else sweep.label
+            name = Path(item.path).name if item.path else item.label
             # keep the path the manifest names the file by (a file outside its folder: the bare name)
-            if base is not None and sweep.path and Path(sweep.path).resolve().is_relative_to(base):
-                name = Path(sweep.path).resolve().relative_to(base).as_posix()
-            out.append((name, sweep.raw_bytes))
+            if base is not None and item.path and Path(item.path).resolve().is_relative_to(base):
+                name = Path(item.path).resolve().relative_to(base).as_posix()
+            out.append((name, item.raw_bytes))
         return out
 
     def to_dict(self) -> dict:
@@ -270,6 +303,7 @@ class MeasurementSet:
             "design": None if self.design is None else self.design.to_dict(),
             "manifest": self.manifest_path,
             "sweeps": [s.to_dict() for s in self.sweeps],
+            **({"readings": [r.to_dict() for r in self.readings]} if self.readings else {}),
         }
 
 

@@ -193,6 +193,10 @@ def figure_rows(analysis) -> list[tuple[str, str, str]]:
                 sub = fig.detail(side)
                 if sub is not None and sub.value is not None:
                     row(f"  from the {side} ({sub.detail('turns')} turns)", sub)
+            for side in ("primary", "secondary"):
+                sub = fig.detail(f"readings_{side}")
+                if sub is not None:
+                    row(f"  {sub.label}", sub, _readings_note(sub))
             for key in ("uH_per_100_turns", "mH_per_1000_turns"):
                 sub = fig.detail(key)
                 row(f"  {sub.label}", sub)
@@ -214,6 +218,15 @@ def figure_rows(analysis) -> list[tuple[str, str, str]]:
         else:
             row(fig.label, fig)
     return rows
+
+
+def _readings_note(sub) -> str:
+    """Where an LCR-reading A_L was read, and how far the sweeps' fit is from it."""
+    if sub.value is None:
+        return sub.note
+    diff = sub.detail("fit_difference_percent")
+    at = f"at {format_engineering(sub.detail('frequency_Hz'), 'Hz')}"
+    return at if diff is None else f"{at}; {diff:+.2g} % against the sweeps' value"
 
 
 def _agreement_note(fig) -> str:
