@@ -51,8 +51,11 @@ def run_population(seed=2026, cores=CORES, points=1010):
             row[f"short_{n}_se"] = abs(a.initial_permeability - core.mu_i) / se if se else math.inf
             b = analyze_core(f, z, n, g)
             row[f"bare_{n}"] = b.initial_permeability / core.mu_i - 1
-            # said plainly: a poor fit, or the warning that the leads are part of this µi
-            row[f"bare_{n}_said"] = b.fit_is_poor or any("lead inductance is not separated" in w for w in b.warnings)
+            # said plainly: a poor fit, the warning that the leads are part of this µi, or an error
+            # bar that covers the miss
+            se = b.initial_permeability_stderr
+            row[f"bare_{n}_said"] = (b.fit_is_poor or any("lead inductance is not separated" in w for w in b.warnings)
+                                     or (se is not None and abs(b.initial_permeability - core.mu_i) <= 3 * se))
         s = analyze_core_windings(windings, g)
         row["set"] = s.initial_permeability / core.mu_i - 1
         row["lead"] = s.leads.inductance_H / leads.inductance_H - 1
@@ -78,7 +81,8 @@ def summarise(rows):
                      f"{int(np.sum(z > 3))}; µi read from the plateau in {100 * plateau:.0f} %")
     for n in TURNS:
         silent = [r for r in rows if abs(r[f"bare_{n}"]) > 0.05 and not r[f"bare_{n}_said"]]
-        lines.append(f"bare_{n}: {len(silent)} off by more than 5 % with neither a poor fit nor the leads warning"
+        lines.append(f"bare_{n}: {len(silent)} off by more than 5 % and 3 stderr with neither a poor fit nor the "
+                     "leads warning"
                      + "".join(f"; {100 * r[f'bare_{n}']:+.1f} % (µi {r['mu_i']:.0f})" for r in silent[:3]))
     lead = np.array([r["lead"] for r in rows])
     lines.append(f"lead L from turn counts: median |error| {100 * np.median(np.abs(lead)):.1f} %, "
