@@ -44,6 +44,8 @@ FIGURE_DETAIL_LABELS: dict[str, tuple[str, str]] = {
     "uH_per_100_turns": ("in µH per 100 turns", "uH/100"),
     "mH_per_1000_turns": ("in mH per 1000 turns", "mH/1000"),
     "open_circuit_voltage_ratio": ("open-circuit voltage ratio", ""),
+    "readings_primary": ("from LCR readings of the primary", "nH/turn²"),
+    "readings_secondary": ("from LCR readings of the secondary", "nH/turn²"),
 }
 
 # other JSON keys people see named

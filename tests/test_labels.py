@@ -2,6 +2,7 @@
 and every key of that table is a real key of the JSON contract."""
 
 import json
+import shutil
 from pathlib import Path
 
 import pytest
@@ -27,9 +28,16 @@ def test_every_table_key_is_a_json_key():
     assert _schema_keys("figures") - set(labels.FIGURE_LABELS) - set(labels.OTHER_LABELS) == {"terminations"}
 
 
-def test_figure_detail_keys_are_keys_of_the_output(sample):
-    figures = sample.to_dict()["figures"]
-    details = {key for entry in figures.values() if isinstance(entry, dict) for key in entry}
+def test_figure_detail_keys_are_keys_of_the_output(sample, tmp_path):
+    # the demo set reads the primary on an LCR meter; a copy reads the secondary too
+    unit = tmp_path / "unit"
+    shutil.copytree(SAMPLE, unit)
+    with open(unit / "manifest.toml", "a", encoding="utf-8") as fh:
+        fh.write('\n[[reading]]\nfile = "pri_lcr.csv"\nwinding = "secondary"\n')
+    details = set()
+    for analysis in (sample, analyze_manifest(unit)):
+        figures = analysis.to_dict()["figures"]
+        details |= {key for entry in figures.values() if isinstance(entry, dict) for key in entry}
     assert set(labels.FIGURE_DETAIL_LABELS) <= details
 
 

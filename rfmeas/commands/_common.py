@@ -60,6 +60,25 @@ def stdout_console():
     return _console_class()(highlight=False, width=None if wide else 120)
 
 
+DB_HELP = "History store file (default: $RFMEAS_DB, else rfmeas/history.sqlite3 in the user's data folder)."
+
+
+def db_option():
+    """The --db option of every command that reads or keeps history records."""
+    return typer.Option(None, "--db", help=DB_HELP, metavar="PATH")
+
+
+def record_option(what: str = "this analysis"):
+    """The --record/--no-record option of the commands that keep analyses in the history."""
+    return typer.Option(True, "--record/--no-record", help=f"Keep {what} in the history store (with its raw files).")
+
+
+def refuse_not_kept(not_kept) -> None:
+    """A record the store would not keep: said in one line, then the exit code of its error."""
+    report_error(f"{not_kept}; this analysis was not kept in the history (--no-record skips keeping it)")
+    raise typer.Exit(not_kept.exit_code)
+
+
 def report_error(message: str) -> None:
     """One line on stderr: 'error: <file>: <problem>', the message verbatim (never read as markup,
     control characters shown as visible escapes: rfmeas.usertext)."""

@@ -8,7 +8,7 @@ from typing import Optional
 import typer
 
 from rfmeas.errors import EXIT_INSTRUMENT, EXIT_INTERRUPTED, InputError, InstrumentError
-from rfmeas.commands._common import handles_errors, print_json, stderr_console
+from rfmeas.commands._common import db_option, handles_errors, print_json, record_option, refuse_not_kept, stderr_console
 
 # Options both commands take (typer reads these definitions; it does not change them)
 _SWEEP = typer.Option("100k:30M:201", "--sweep", help="START:STOP:POINTS, e.g. 100k:30M:201.")
@@ -161,10 +161,8 @@ def register(app: typer.Typer) -> None:
         analyze: Optional[bool] = typer.Option(None, "--analyze/--no-analyze",
                                                help="Analyse at the end without asking (default: ask)."),
         as_json: bool = typer.Option(False, "--json", help="Print the session summary as JSON on stdout."),
-        record: bool = typer.Option(True, "--record/--no-record",
-                                    help="Keep the analysis at the end in the history store (with its raw files)."),
-        db: Optional[Path] = typer.Option(None, "--db", help="History store file (default: RFMEAS_DB or the "
-                                                             "user's data folder)."),
+        record: bool = record_option("the analysis at the end"),
+        db: Optional[Path] = db_option(),
     ):
         """Guided session: walks through each sweep of a measurement set and writes the manifest."""
         from rfmeas.instruments import load_profile, parse_sweep
@@ -222,10 +220,7 @@ def register(app: typer.Typer) -> None:
         if as_json:
             print_json(summary)
         if not_kept is not None:
-            from rfmeas.commands._common import report_error
-
-            report_error(f"{not_kept}; this analysis was not kept in the history (--no-record skips keeping it)")
-            raise typer.Exit(not_kept.exit_code)
+            refuse_not_kept(not_kept)
         if last_error is not None:
             raise typer.Exit(EXIT_INSTRUMENT)
 

@@ -7,7 +7,8 @@ from typing import List, Optional
 
 import typer
 
-from rfmeas.commands._common import handles_errors, print_json, stdout_console
+from rfmeas.commands._common import (db_option, handles_errors, print_json, record_option, refuse_not_kept,
+                                     stdout_console)
 
 
 def register(app: typer.Typer) -> None:
@@ -67,8 +68,8 @@ def analyze_command(
     port1: str = typer.Option("primary", "--port1", help="One-port files without a manifest: the winding on port 1."),
     plan: Optional[str] = typer.Option(None, "--plan", help="Check against a target SOURCE:LOAD:LOWEST[:HIGHEST] (ohms, ohms, Hz, Hz; e.g. 50:450:3.5M:30M) instead of the manifest's [design]."),
     return_loss: Optional[str] = typer.Option(None, "--return-loss", help="Return-loss threshold in dB for the band and its check (default 15, or the manifest's return_loss_dB)."),
-    record: bool = typer.Option(True, "--record/--no-record", help="Keep this analysis in the history store (with its raw files)."),
-    db: Optional[Path] = typer.Option(None, "--db", help="History store file (default: RFMEAS_DB or the user's data folder)."),
+    record: bool = record_option(),
+    db: Optional[Path] = db_option(),
     report: Optional[Path] = typer.Option(None, "--report", help="Also write the HTML report to this file."),
     plots_dir: Optional[Path] = typer.Option(None, "--plots", help="Also write every plot as PNG, SVG and PDF into this folder."),
     csv_path: Optional[Path] = typer.Option(None, "--csv", metavar="FILE", help="Also write the parameters and figures as CSV (one row per quantity, with units)."),
@@ -111,10 +112,7 @@ def analyze_command(
         if not json_output:
             stdout_console().print(f"CSV: {markup(csv_path)}")
     if not_kept is not None:
-        from rfmeas.commands._common import report_error
-
-        report_error(f"{not_kept}; this analysis was not kept in the history (--no-record skips keeping it)")
-        raise typer.Exit(not_kept.exit_code)
+        refuse_not_kept(not_kept)
     from rfmeas.judge.design import design_fails
 
     if design_fails(analysis.design_status):  # failed, or could not be judged

@@ -9,7 +9,8 @@ import typer
 from rich.markup import escape
 
 from rfmeas.errors import EXIT_BAD_INPUT, EXIT_INTERRUPTED
-from rfmeas.commands._common import handles_errors, print_json, report_error, stderr_console, stdout_console
+from rfmeas.commands._common import (db_option, handles_errors, print_json, record_option, report_error, stderr_console,
+                                     stdout_console)
 
 
 def register(app: typer.Typer) -> None:
@@ -22,10 +23,8 @@ def register(app: typer.Typer) -> None:
         csv_path: Optional[Path] = typer.Option(None, "--csv", metavar="FILE", help="Also write one CSV row per unit."),
         overwrite: bool = typer.Option(False, "--overwrite", help="Replace an existing --csv file."),
         json_out: bool = typer.Option(False, "--json", help="Print JSON on stdout."),
-        record: bool = typer.Option(True, "--record/--no-record",
-                                    help="Keep each unit's analysis in the history store (with its raw files)."),
-        db: Optional[Path] = typer.Option(None, "--db", help="History store file (default: RFMEAS_DB or the "
-                                                             "user's data folder)."),
+        record: bool = record_option("each unit's analysis"),
+        db: Optional[Path] = db_option(),
     ):
         """Analyse every unit; exit 1 if any failed its design check, 2 if any could not be analysed."""
         from rich.progress import BarColumn, MofNCompleteColumn, Progress, TextColumn, TimeElapsedColumn

@@ -11,7 +11,8 @@ from rich.markup import escape
 
 from rfmeas.errors import InputError
 from rfmeas.commands._common import handles_errors, print_json, stdout_console
-from rfmeas.commands.history import db_option, print_notes
+from rfmeas.commands._common import db_option
+from rfmeas.commands.history import print_notes
 
 _SWEEP_SUFFIX = re.compile(r"^\.s\d+p$", re.IGNORECASE)
 

@@ -8,13 +8,7 @@ from typing import Optional, Tuple
 import typer
 from rich.markup import escape
 
-from rfmeas.commands._common import handles_errors, print_json, stderr_console, stdout_console
-
-DB_HELP = "History store file (default: $RFMEAS_DB, else rfmeas/history.sqlite3 in the user's data folder)."
-
-
-def db_option():
-    return typer.Option(None, "--db", help=DB_HELP, metavar="PATH")
+from rfmeas.commands._common import db_option, handles_errors, print_json, stderr_console, stdout_console
 
 
 def register(app: typer.Typer) -> None:

@@ -108,6 +108,11 @@ class ShortCurve:
         z = np.interp(f, self.f_Hz, self.impedance_ohm.real) + 1j * np.interp(f, self.f_Hz, self.impedance_ohm.imag)
         return z, np.interp(f, self.f_Hz, self.noise_ohm), inside
 
+    def to_dict(self) -> dict:
+        return {"band_Hz": [float(self.f_Hz[0]), float(self.f_Hz[-1])], "points": int(self.f_Hz.size),
+                "median_noise_ohm": float(np.median(self.noise_ohm)),
+                "note": "the swept short is taken off each winding point by point"}
+
 
 @dataclass(frozen=True)
 class LeadEstimate:
@@ -146,6 +151,7 @@ class LeadEstimate:
                 "resistance_ohm": _estimate(self.resistance_ohm, self.resistance_stderr_ohm),
                 "source": self.source, "determined": bool(self.determined),
                 "band_Hz": None if self.band_Hz is None else [float(self.band_Hz[0]), float(self.band_Hz[1])],
+                "swept_short": None if self.short is None else self.short.to_dict(),
                 "note": self.note}
 
 
@@ -1341,28 +1347,31 @@ def _network_impedance(network, method: str | None, path):
     return impedance_from_s(method, s, z0), method, z0
 
 
-def _is_core_set(path: Path) -> Path | None:
-    """The core-set manifest behind `path` (a TOML with [[winding]], or a folder holding one), else None."""
+def _core_set(path: Path) -> tuple[Path, dict] | None:
+    """The core-set manifest behind `path` (a TOML with [[winding]], or a folder holding one) and its
+    parsed document, else None."""
     from rfmeas.io.strict import read_toml
 
     candidate = path / "manifest.toml" if path.is_dir() else path
     if candidate.suffix.lower() != ".toml" or not candidate.is_file():
         return None
     _, doc = read_toml(candidate, "manifest")
-    return candidate if "winding" in doc else None
+    return (candidate, doc) if "winding" in doc else None
 
 
-def load_core_set(path) -> dict:
+def load_core_set(path, doc: dict | None = None) -> dict:
     """Read a core-set manifest: [core], [[winding]] (file, turns, label, method), [leads], [vna].
 
     Returns {"geometry", "windings": [(file, turns, label, method)], "leads": dict|None,
     "errors": VnaErrorModel|None, "name"}; strict about keys, paths relative to the manifest.
+    `doc` is the manifest already parsed (else it is read).
     """
     from rfmeas.io.strict import check_keys, read_toml
     from rfmeas.magnetics import geometry_from_table
 
     path = Path(path)
-    _, doc = read_toml(path, "manifest")
+    if doc is None:
+        _, doc = read_toml(path, "manifest")
     check_keys(doc, _CORE_SET_KEYS, "manifest", path, ["winding"])
     geometry = geometry_from_table(doc["core"], path) if "core" in doc else None
     entries = doc["winding"]
@@ -1436,9 +1445,10 @@ def analyze_core_file(path, turns: int | None = None, geometry: CoreGeometry | N
     windings = []   # (f, z, turns, label, method, z0)
     file_warnings: list[str] = []
     points = 0
-    core_set = None if path.suffix.lower() not in (".toml", "") and not path.is_dir() else _is_core_set(path)
-    if core_set is not None:
-        spec = load_core_set(core_set)
+    found = None if path.suffix.lower() not in (".toml", "") and not path.is_dir() else _core_set(path)
+    if found is not None:
+        core_set = found[0]
+        spec = load_core_set(*found)
         if geometry is None:
             geometry = spec["geometry"]
         elif spec["geometry"] is not None:

@@ -380,9 +380,9 @@ def _readings_figures(measurement, from_fit: dict, warnings: list) -> dict:
     for reading in getattr(measurement, "readings", ()):
         n = turns[reading.winding]
         key = f"readings_{reading.winding}"
-        label = f"from LCR readings of the {reading.winding}"
+        label, unit = FIGURE_DETAIL_LABELS[key]
         if not n:
-            out[key] = Figure(key, label, "nH/turn²", None, None, f"needs the {reading.winding}'s turns")
+            out[key] = Figure(key, label, unit, None, None, f"needs the {reading.winding}'s turns")
             continue
         value = reading.inductance_H / n**2 * 1e9
         fit = from_fit.get(reading.winding)
@@ -396,7 +396,7 @@ def _readings_figures(measurement, from_fit: dict, warnings: list) -> dict:
                     f"{reading.frequency_Hz:g} Hz) and from the sweeps ({fit.value:.4g} nH) differ by "
                     f"{difference:+.2g} %: check the meter's lead compensation, the reading's frequency "
                     "(the core's µ may change between them) and the turns")
-        out[key] = Figure(key, label, "nH/turn²", value, None,
+        out[key] = Figure(key, label, unit, value, None,
                           "no standard error: the meter's accuracy is not known to rfmeas",
                           details=(("turns", n), ("frequency_Hz", reading.frequency_Hz),
                                    ("inductance_H", reading.inductance_H), ("fit_difference_percent", difference),

@@ -31,7 +31,7 @@ import numpy as np
 
 from rfmeas.errors import InputError
 from rfmeas.magnetics.geometry import CoreGeometry
-from rfmeas.magnetics.permeability import MU0_H_per_m
+from rfmeas.magnetics.permeability import air_core_inductance_H
 
 RELAXATION = "relaxation"
 RESONANCE = "resonance"
@@ -81,11 +81,6 @@ def static_permeability(model: str, values) -> float:
 
 
 # ---------------------------------------------------------------- the winding
-
-def air_core_inductance_H(turns, geometry: CoreGeometry) -> float:
-    """L0 = µ0·N²·Ae/le = µ0·N²/C1: the winding's inductance per unit relative permeability."""
-    return MU0_H_per_m * turns**2 / geometry.core_constant_per_m
-
 
 def winding_impedance(f_Hz, mu, turns, geometry: CoreGeometry, series_resistance_ohm=0.0,
                       lead_inductance_H=0.0, winding_capacitance_F=0.0) -> np.ndarray:

@@ -64,10 +64,15 @@ def effective_permeability(inductance_H, turns, geometry: CoreGeometry):
         np.asarray(inductance_H, dtype=float) * geometry.core_constant_per_m / (MU0_H_per_m * n**2))
 
 
+def air_core_inductance_H(turns, geometry: CoreGeometry):
+    """L0 = µ0·N²·Ae/le = µ0·N²/C1: the winding's inductance per unit relative permeability."""
+    return MU0_H_per_m * turns**2 / geometry.core_constant_per_m
+
+
 def inductance_from_permeability(mu, turns, geometry: CoreGeometry):
     """L = µ0·µ·N²/C1; `mu` may be complex (then L is the complex inductance)."""
     n = _positive_array("turns", turns)
-    return _scalar_or_array(MU0_H_per_m * np.asarray(mu) * n**2 / geometry.core_constant_per_m)
+    return _scalar_or_array(air_core_inductance_H(n, geometry) * np.asarray(mu))
 
 
 def complex_permeability(impedance_ohm, f_Hz, turns, geometry: CoreGeometry,
@@ -82,8 +87,7 @@ def complex_permeability(impedance_ohm, f_Hz, turns, geometry: CoreGeometry,
     f = _positive_array("frequency", f_Hz)
     n = _positive_array("turns", turns)
     z = np.asarray(impedance_ohm, dtype=complex) - np.asarray(series_resistance_ohm, dtype=float)
-    air_core_inductance_H = MU0_H_per_m * n**2 / geometry.core_constant_per_m
-    return z / (1j * 2 * np.pi * f * air_core_inductance_H)
+    return z / (1j * 2 * np.pi * f * air_core_inductance_H(n, geometry))
 
 
 def gapped_effective_permeability(mu_i, gap_m, effective_length_m):
@@ -106,6 +110,8 @@ def debye_permeability(f_Hz, mu_initial, relaxation_frequency_Hz) -> np.ndarray:
     f = np.asarray(f_Hz, dtype=float)
     if not np.all(np.isfinite(f)) or np.any(f < 0):
         raise InputError("frequency must be zero or positive")
+    from rfmeas.magnetics.dispersion import relaxation_susceptibility
+
     mu_i = _positive_array("initial permeability", mu_initial)
     fr = _positive_array("relaxation frequency", relaxation_frequency_Hz)
-    return 1 + (mu_i - 1) / (1 + 1j * f / fr)
+    return 1 + relaxation_susceptibility(f, mu_i - 1, fr)

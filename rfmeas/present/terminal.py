@@ -16,26 +16,37 @@ CIRCUIT_KEYS = ("primary_inductance_H", "secondary_inductance_H", "leakage_induc
 """The equivalent circuit of the compact view: inductances, leakage, ratio, k and capacitances."""
 
 
-def parameter_table(analysis, keys=None):
-    """Every fitted parameter (or only `keys`, without the note column) as a rich table."""
-    from rich.table import Table
+def parameter_rows(analysis, keys=None) -> list[dict]:
+    """One row per fitted parameter (or only `keys`): label, value text, relative error, note.
 
-    short = keys is not None
+    The terminal table and the HTML report both show these rows (plain text, no markup).
+    """
     estimates = analysis.fit.estimates
     rows = []
-    for key in (keys if short else estimates):
+    for key in (keys if keys is not None else estimates):
         est = estimates.get(key)
         if est is None:
             continue
         unit = _UNITS[key]
         if not est.determined:
             held = "" if est.held_at is None else f" (held at {format_engineering(est.held_at, unit)})"
-            rows.append((LABELS[key], "[yellow]not determined[/]", "", escape(est.note + held)))
+            rows.append({"label": LABELS[key], "key": key, "value": "not determined", "relative": "",
+                         "note": est.note + held, "determined": False})
             continue
         rel = est.relative_stderr
         rel_text = "" if rel is None else (f"{rel * 100:.2g} %" if rel < 10 else "≫100 %")
-        rows.append((LABELS[key], estimate_text(est, unit), rel_text,
-                     escape("; ".join(n for n in (est.note, est.stderr_note) if n))))
+        rows.append({"label": LABELS[key], "key": key, "value": estimate_text(est, unit), "relative": rel_text,
+                     "note": "; ".join(n for n in (est.note, est.stderr_note) if n), "determined": True})
+    return rows
+
+
+def parameter_table(analysis, keys=None):
+    """Every fitted parameter (or only `keys`, without the note column) as a rich table."""
+    from rich.table import Table
+
+    short = keys is not None
+    rows = [(r["label"], r["value"] if r["determined"] else "[yellow]not determined[/]", r["relative"],
+             escape(r["note"])) for r in parameter_rows(analysis, keys)]
     with_notes = not short or any(row[3] for row in rows)  # the short table drops an empty note column
     table = Table(title="Circuit" if short else "Equivalent circuit", title_justify="left", show_edge=False,
                   pad_edge=False)

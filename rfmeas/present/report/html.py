@@ -14,8 +14,7 @@ import platform
 from pathlib import Path
 
 from rfmeas import __version__
-from rfmeas.fit.result import LABELS, PARAMETER_KEYS
-from rfmeas.present.terminal import figure_rows
+from rfmeas.present.terminal import figure_rows, parameter_rows
 from rfmeas.units import format_engineering, format_with_error
 
 CAUTIONS = (
@@ -27,7 +26,6 @@ CAUTIONS = (
     "no approval of any such part.",
 )
 
-_UNITS = {key: unit for key, _name, unit in PARAMETER_KEYS}
 # key suffix -> unit shown (whether it takes an SI prefix is rfmeas.units' rule)
 _SUFFIX_UNITS = (
     ("_nH_per_turn2", "nH/turn²"),
@@ -61,25 +59,6 @@ def format_number(value, unit: str = "", stderr=None) -> str:
     if isinstance(stderr, (int, float)) and stderr:
         return format_with_error(float(value), float(stderr), unit)
     return format_engineering(float(value), unit)
-
-
-def parameter_rows(analysis) -> list[dict]:
-    rows = []
-    for key, est in analysis.fit.estimates.items():
-        unit = _UNITS.get(key, "")
-        if not est.determined:
-            held = "" if est.held_at is None else f" (held at {format_engineering(est.held_at, unit)})"
-            rows.append({"label": LABELS.get(key, key), "key": key, "value": "not determined",
-                         "relative": "", "note": est.note + held, "determined": False})
-            continue
-        rel = est.relative_stderr
-        rel_text = "" if rel is None else (f"{rel * 100:.2g} %" if rel < 10 else "≫100 %")
-        value = format_number(est.value, unit, est.stderr)
-        if est.stderr is None:  # never a bare confident number
-            value += " ± ?"
-        rows.append({"label": LABELS.get(key, key), "key": key, "value": value, "relative": rel_text,
-                     "note": "; ".join(n for n in (est.note, est.stderr_note) if n), "determined": True})
-    return rows
 
 
 def _state(passed) -> str:
