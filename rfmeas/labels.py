@@ -83,13 +83,30 @@ def label(key: str) -> str:
     if last in QUANTITIES:
         return QUANTITIES[last][0]
     words = last
-    for suffix in ("_Hz", "_H", "_ohm", "_F", "_dB", "_percent"):
+    for suffix, _unit in _SUFFIX_UNITS:
         if words.endswith(suffix):
             words = words[: -len(suffix)]
             break
     return words.replace("_", " ")
 
 
+def bare_label(key: str) -> str:
+    """The label without the unit it carries in brackets ('A_L (nH/turn²)' -> 'A_L'), for a
+    place that shows the unit beside the value."""
+    text, shown = label(key), unit(key)
+    suffix = f" ({shown})"
+    return text[: -len(suffix)] if shown and text.endswith(suffix) else text
+
+
+# a key's unit by its name's suffix (docs/DESIGN.md: units in names), for keys outside the table
+_SUFFIX_UNITS = (("_nH_per_turn2", "nH/turn²"), ("_Hz", "Hz"), ("_ohm", "Ω"), ("_dB", "dB"), ("_percent", "%"),
+                 ("_H", "H"), ("_F", "F"))
+
+
 def unit(key: str) -> str:
-    """The unit a value of this key is shown in ('' when dimensionless or unknown)."""
-    return QUANTITIES.get(key.rsplit(".", 1)[-1], ("", ""))[1]
+    """The unit a value of this key is shown in: the table's, else the one its suffix names
+    ('' when dimensionless or unknown)."""
+    last = key.rsplit(".", 1)[-1]
+    if last in QUANTITIES:
+        return QUANTITIES[last][1]
+    return next((u for suffix, u in _SUFFIX_UNITS if last.endswith(suffix)), "")

@@ -85,3 +85,16 @@ def test_unknown_and_dotted_keys_read_as_words():
     assert labels.label("figures.turns_ratio") == labels.FIGURE_LABELS["turns_ratio"][0]
     assert labels.label("some_new_thing_Hz") == "some new thing"
     assert labels.unit("primary_inductance_H") == "H"
+
+
+def test_one_unit_lookup_for_every_key():
+    # the table first, then the unit the key's name carries (docs/DESIGN.md: units in names)
+    assert labels.unit("inductance_factor_nH_per_turn2") == "nH/turn²"
+    assert labels.unit("design.source_impedance_ohm") == "Ω"
+    assert labels.unit("ratio_tolerance_percent") == "%"
+    assert labels.unit("return_loss_dB") == "dB"
+    assert labels.unit("reactance_factor") == ""
+    # where the value shows its unit, the label does not repeat it
+    assert labels.bare_label("inductance_factor_nH_per_turn2") == "A_L"
+    assert labels.bare_label("midband_insertion_loss_dB") == "mid-band insertion loss"
+    assert labels.bare_label("primary_inductance_H") == labels.label("primary_inductance_H")

@@ -73,7 +73,7 @@ def _print_summary(result) -> None:
     from rich.table import Table
 
     from rfmeas.history.compare import format_quantity
-    from rfmeas.labels import label
+    from rfmeas.labels import bare_label as label  # the values carry their unit
 
     console = stdout_console()
     units = Table(title="units")

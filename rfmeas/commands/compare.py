@@ -120,6 +120,6 @@ def _print_comparison(comparison, before_label: str, after_label: str) -> None:
 
 def _label(key: str) -> str:
     """A person's name for a result key, from the one vocabulary (rfmeas.labels)."""
-    from rfmeas.labels import label
+    from rfmeas.labels import bare_label
 
-    return label(key)
+    return bare_label(key)  # the values carry their unit

@@ -16,13 +16,12 @@ import math
 from dataclasses import dataclass
 
 from rfmeas.units import format_engineering, format_with_error
-from rfmeas.labels import label as label_of
+from rfmeas.labels import label as label_of, unit as unit_of
 
 SIGMA_FACTOR = 3.0
 RULE = ("a change is significant when it exceeds 3 times the combined standard error "
         "(√(σ_before² + σ_after²)); not judged when either standard error is missing")
 
-_UNIT_SUFFIXES = (("_Hz", "Hz"), ("_ohm", "Ω"), ("_H", "H"), ("_F", "F"))
 
 
 @dataclass(frozen=True)
@@ -145,16 +144,11 @@ def _ratio_error(result: dict, design_ratio: float | None) -> tuple[float | None
             None if stderr is None else stderr / abs(design_ratio) * 100.0)
 
 
-def unit_of(key: str) -> str:
-    """The SI unit a contract key names by its suffix ('' when it names none)."""
-    return next((unit for suffix, unit in _UNIT_SUFFIXES if key.endswith(suffix)), "")
-
-
 def format_quantity(key: str, value: float | None, stderr: float | None = None) -> str:
     """A value (and its standard error, when given) for people, with the unit its key names."""
     if value is None:
         return "—"
-    unit = unit_of(key) or ("%" if key.endswith("_percent") else "")
+    unit = unit_of(key)
     return format_engineering(value, unit) if stderr is None else format_with_error(value, stderr, unit)
 
 

@@ -14,6 +14,7 @@ import math
 
 from rfmeas.fit.result import LABELS, PARAMETER_KEYS
 from rfmeas.judge.figures import FIGURE_LABELS
+from rfmeas.labels import bare_label
 
 ANALYSIS_COLUMNS = ("key", "label", "value", "standard_error", "unit", "note")
 SPECTRUM_COLUMNS = ("frequency_Hz", "mu_real", "mu_real_stderr", "mu_imag", "mu_imag_stderr", "trustworthy")
@@ -37,12 +38,8 @@ def label_and_unit(key: str) -> tuple[str, str]:
     key = key.split(".", 1)[-1]  # a batch key may carry its section ("figures.turns_ratio")
     if key in LABELS:
         return LABELS[key], _PARAMETER_UNITS.get(key) or DIMENSIONLESS
-    if key in FIGURE_LABELS:
-        label, unit = FIGURE_LABELS[key]
-        suffix = f" ({unit})"
-        if unit and label.endswith(suffix):  # "A_L (nH/turn²)": the unit has a column of its own
-            label = label[: -len(suffix)]
-        return label, unit or DIMENSIONLESS
+    if key in FIGURE_LABELS:  # "A_L (nH/turn²)": the unit has a column of its own
+        return bare_label(key), FIGURE_LABELS[key][1] or DIMENSIONLESS
     return key, ""
 
 

@@ -13,7 +13,7 @@ import math
 import platform
 from pathlib import Path
 
-from rfmeas import __version__
+from rfmeas import __version__, labels
 from rfmeas.present.terminal import figure_rows, parameter_rows
 from rfmeas.units import format_engineering, format_with_error
 
@@ -26,26 +26,6 @@ CAUTIONS = (
     "no approval of any such part.",
 )
 
-# key suffix -> unit shown (whether it takes an SI prefix is rfmeas.units' rule)
-_SUFFIX_UNITS = (
-    ("_nH_per_turn2", "nH/turn²"),
-    ("_Hz", "Hz"),
-    ("_ohm", "Ω"),
-    ("_dB", "dB"),
-    ("_percent", "%"),
-    ("_H", "H"),
-    ("_F", "F"),
-)
-
-
-def unit_of_key(key: str) -> tuple[str, str]:
-    """(label without the unit suffix, unit) for a JSON key; a key of the vocabulary gets its label."""
-    from rfmeas.labels import QUANTITIES, label
-
-    for suffix, unit in _SUFFIX_UNITS:
-        if key.endswith(suffix):
-            return (label(key) if key in QUANTITIES else key[: -len(suffix)].replace("_", " ")), unit
-    return label(key), ""
 
 
 def format_number(value, unit: str = "", stderr=None) -> str:
@@ -175,8 +155,7 @@ def design_rows(analysis) -> list[dict]:
     for key, value in design.to_dict().items():
         if value is None:
             continue
-        label, unit = unit_of_key(key)
-        rows.append({"label": label, "value": format_number(value, unit)})
+        rows.append({"label": labels.label(key), "value": format_number(value, labels.unit(key))})
     return rows
 
 
