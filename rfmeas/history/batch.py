@@ -168,7 +168,7 @@ def _failed(path: str, message: str) -> UnitOutcome:
     return UnitOutcome(path=path, name=None, status="error", error=message, values={}, stderrs={})
 
 
-def _kept(outcome: UnitOutcome, analysis, db: str | None) -> UnitOutcome:
+def _kept(outcome: UnitOutcome, analysis, db: str | None, result: dict | None = None) -> UnitOutcome:
     """The outcome with the record id of `analysis` kept in the history store at `db` (None: the
     default store), or with why it could not be kept. A result given as a dict (no sweeps) is not kept."""
     from dataclasses import replace
@@ -177,7 +177,7 @@ def _kept(outcome: UnitOutcome, analysis, db: str | None) -> UnitOutcome:
 
     if isinstance(analysis, dict):
         return outcome
-    record_id, not_kept = keep_analysis(analysis, db)
+    record_id, not_kept = keep_analysis(analysis, db, result)
     if not_kept is not None:
         return replace(outcome, record_error=f"{outcome.path}: not kept in the history: {not_kept}")
     return replace(outcome, record_id=record_id)
@@ -189,8 +189,9 @@ def _run_one(analyse: Callable[[str], object], path: str, record: bool = False,
     analysis becomes an 'error' outcome carrying its message."""
     try:
         analysis = analyse(path)
-        outcome = summarise(path, analysis)
-        return _kept(outcome, analysis, db) if record else outcome
+        result = analysis if isinstance(analysis, dict) else analysis.to_dict()  # made once, for both
+        outcome = summarise(path, result)
+        return _kept(outcome, analysis, db, result) if record else outcome
     except RfmeasError as exc:
         return _failed(path, str(exc))
     except Exception as exc:  # a bug must not stop the lot; it is reported with its type

@@ -847,15 +847,16 @@ def _manifest_renames(text: str, base: Path, names: dict[str, str], table: str =
     return renames
 
 
-def record_analysis(store: HistoryStore, analysis, note: str | None = None) -> int:
+def record_analysis(store: HistoryStore, analysis, note: str | None = None, result: dict | None = None) -> int:
     """Store an Analysis (anything with `.to_dict()` and `.sources`); returns the record id.
-    `note`: the record's note (default: the manifest's [transformer] notes).
+    `note`: the record's note (default: the manifest's [transformer] notes); `result`: its
+    `to_dict()` when the caller already has it.
 
     The files kept are those of `record_sources` (an exported record can be
     analysed again); an object without a measurement set gives its `sources`,
     and the manifest text is then the first .toml file among them.
     """
-    result = analysis.to_dict()
+    result = analysis.to_dict() if result is None else result
     measurement = getattr(analysis, "recorded", None) or getattr(analysis, "measurement", None)
     if measurement is not None and hasattr(measurement, "sweeps"):
         manifest_text, sources = record_sources(measurement)
@@ -866,14 +867,14 @@ def record_analysis(store: HistoryStore, analysis, note: str | None = None) -> i
     return store.record(result.get("name") or "unnamed", manifest_text, sources, result, note=note)
 
 
-def keep_analysis(analysis, db: str | Path | None = None):
+def keep_analysis(analysis, db: str | Path | None = None, result: dict | None = None):
     """Keep `analysis` in the store at `db` (None: the default store): (record id, None), or
     (None, the store's error) when it could not be kept, so the caller can still show the
-    analysis before it reports the error."""
+    analysis before it reports the error. `result`: its `to_dict()` when already made."""
     from rfmeas.errors import RfmeasError
 
     try:
         with HistoryStore(db) as store:
-            return record_analysis(store, analysis), None
+            return record_analysis(store, analysis, result=result), None
     except RfmeasError as exc:
         return None, exc
