@@ -63,14 +63,9 @@ def main() -> None:
     """
     import os
 
-    import warnings
-
-    from rfmeas.commands._common import log_warning
-
     for name in ("OPENBLAS_NUM_THREADS", "OMP_NUM_THREADS", "MKL_NUM_THREADS"):
         os.environ.setdefault(name, "1")
-    warnings.showwarning = log_warning  # no library warning reaches a user (shown with --debug)
-    app()
+    app()  # each command sends library warnings to the log (commands._common.handles_errors)
 
 
 if __name__ == "__main__":
