@@ -3,6 +3,8 @@
 Prints the success rates and the worst cases (not part of the normal run):
     python -m pytest tests/bench/test_core_population.py -s -p no:cacheprovider -o addopts=""
 Cores, leads, windings and VNA residual errors: tests/reference/core_sweeps.py.
+Variants (environment): RFMEAS_CORE_POPULATION (cores, 40), RFMEAS_CORE_SEED (2026),
+RFMEAS_CORE_POINTS (1010), RFMEAS_CORE_START_HZ (50e3), RFMEAS_CORE_NOISE (trace noise, 1e-3).
 """
 
 from __future__ import annotations
@@ -19,27 +21,34 @@ from tests.reference.core_sweeps import (
 
 TURNS = (1, 2, 8)
 CORES = int(os.environ.get("RFMEAS_CORE_POPULATION", "40"))
+# variants of the sweeps (the defaults are the figures in the README): points, lowest frequency, trace noise
+POINTS = int(os.environ.get("RFMEAS_CORE_POINTS", "1010"))
+START_HZ = float(os.environ.get("RFMEAS_CORE_START_HZ", "50e3"))
+NOISE = float(os.environ.get("RFMEAS_CORE_NOISE", "1e-3"))
+SEED = int(os.environ.get("RFMEAS_CORE_SEED", "2026"))
 
 
-def simulate_core(rng, points=1010):
+def simulate_core(rng, points=1010, start_Hz=50e3, noise=1e-3):
     core = random_core(rng)
     leads = Leads(rng.uniform(20e-9, 40e-9), rng.uniform(0.015, 0.08))
     cals = [Calibration.random(rng), Calibration.random(rng)]
-    f = linear_grid(points)
+    f = linear_grid(points, f_lo=start_Hz)
     windings = []
     for n in TURNS:
-        fm, s = measure(f, winding_z(f, core, n, leads, winding_capacitance_F(n, rng)), cals, rng, segments=2)
+        fm, s = measure(f, winding_z(f, core, n, leads, winding_capacitance_F(n, rng)), cals, rng, segments=2,
+                        trace_noise=noise)
         windings.append((fm, impedance(s), n))
     # the shorted leads swept in the same session: same segments, same calibrations
-    fs, s_short = measure(f, leads.resistance_ohm + 2j * np.pi * f * leads.inductance_H, cals, rng, segments=2)
+    fs, s_short = measure(f, leads.resistance_ohm + 2j * np.pi * f * leads.inductance_H, cals, rng, segments=2,
+                          trace_noise=noise)
     return core, leads, windings, (fs, impedance(s_short))
 
 
-def run_population(seed=2026, cores=CORES, points=1010):
+def run_population(seed=SEED, cores=CORES, points=POINTS, start_Hz=START_HZ, noise=NOISE):
     rng = np.random.default_rng(seed)
     rows = []
     for i in range(cores):
-        core, leads, windings, short = simulate_core(rng, points)
+        core, leads, windings, short = simulate_core(rng, points, start_Hz, noise)
         g = toroid_geometry(core.od_mm, core.id_mm, core.h_mm)
         lead_est = leads_from_short(*short)
         row = {"i": i, "mu_i": core.mu_i, "peak_Hz": core.peak_Hz()}
@@ -91,6 +100,7 @@ def summarise(rows):
 
 
 def test_population_figures():
+    print(f"\n{CORES} cores, seed {SEED}, {POINTS} points from {START_HZ:g} Hz, trace noise {NOISE:g}")
     rows = run_population()
     for line in summarise(rows):
         print(line)

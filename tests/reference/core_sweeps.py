@@ -105,18 +105,18 @@ def linear_grid(points=1010, f_lo=50e3, f_hi=300e6):
     return np.linspace(f_lo, f_hi, points)
 
 
-def measure(f_Hz, z, calibrations, rng, segments=1):
+def measure(f_Hz, z, calibrations, rng, segments=1, trace_noise=1e-3):
     """S11 as a small VNA writes it; `segments` > 1 stitches segments (each with its own
     calibration from `calibrations`) that repeat their common frequency."""
     s = s11_of(f_Hz, z)
     if segments == 1:
-        return np.asarray(f_Hz, float), calibrations[0].apply(f_Hz, s, rng)
+        return np.asarray(f_Hz, float), calibrations[0].apply(f_Hz, s, rng, trace_noise)
     edges = np.linspace(0, f_Hz.size - 1, segments + 1).astype(int)
     fs, ss = [], []
     for k in range(segments):
         sl = slice(edges[k], edges[k + 1] + 1)
         fs.append(f_Hz[sl])
-        ss.append(calibrations[k % len(calibrations)].apply(f_Hz[sl], s[sl], rng))
+        ss.append(calibrations[k % len(calibrations)].apply(f_Hz[sl], s[sl], rng, trace_noise))
     return np.concatenate(fs), np.concatenate(ss)
 
 
