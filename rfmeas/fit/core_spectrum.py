@@ -806,7 +806,7 @@ def leads_from_turns(windings, errors: VnaErrorModel = DEFAULT_VNA_ERRORS, z0_oh
     se = np.sqrt(np.abs(np.diag(cov)))
     ll, ll_se = float(best.x[0]) * _NH, float(se[0]) * _NH
     # The VNA's errors are systematic and do not average down over frequency: the lead is known
-    # no better than the best single frequencies resolve it (10th percentile of the per-frequency
+    # no better than the better single frequencies resolve it (lower quartile of the per-frequency
     # standard error of a from the error model alone).
     wt = np.where(valid, 1.0 / sig**2, 0.0)
     s0, s1, s2 = wt.sum(0), (wt * x).sum(0), (wt * x * x).sum(0)
@@ -814,7 +814,7 @@ def leads_from_turns(windings, errors: VnaErrorModel = DEFAULT_VNA_ERRORS, z0_oh
         sigma_l = np.sqrt(0.5 * s2 / (s0 * s2 - s1**2)) / w_rad
     sigma_l = sigma_l[np.isfinite(sigma_l)]
     if sigma_l.size:
-        ll_se = math.hypot(ll_se, float(np.percentile(sigma_l, 10)))
+        ll_se = math.hypot(ll_se, float(np.percentile(sigma_l, 25)))
     rl, rl_se, r_note = _resolved_resistance(float(best.x[1]), float(se[1]))
     if not best.success:
         r_note += f"; {NOT_CONVERGED_NOTE}"
