@@ -72,6 +72,8 @@ PLATEAU_LOSS_RATIO = 0.10           # µ'' ≪ µ': µ''/µ' below this
 PLATEAU_MAX_RELATIVE_UNCERTAINTY = 0.05  # a plateau resolved worse than this is only shown beside the model
 PLATEAU_FLATNESS = 0.03             # µ' may change by at most 3 % across the plateau band
 PLATEAU_MIN_POINTS = 3
+SERIES_INDUCTANCE_BIC = 10.0       # a single sweep's fitted series inductance is kept when dropping it
+                                   # costs more BIC than this ("very strong" evidence, common practice)
 POINTS_PER_DECADE = 50.0            # the fit's grid: at most this many points per decade
 POOR_MISFIT = 3.0                   # rms residual / error model above this: the fit is poor
 _BOUND_MARGIN = 1e-3                # a log parameter this close to a bound is at the bound
@@ -507,8 +509,16 @@ def _bounds(name, f, fixed_ls):
     return np.array([p[0] for p in pieces]), np.array([p[1] for p in pieces])
 
 
-def _fit_family(problem: _Problem, f_all, z_all, sigma_all, turns, geometry, fixed_ls) -> dict:
-    """Best trial of each model from a few starts."""
+def _seed_theta(seed: DispersionFit, fixed_ls) -> np.ndarray:
+    """A previous fit's parameters as a start in the internal coordinates (its lead L dropped
+    when the series inductance is held)."""
+    circuit = [seed.series_resistance_ohm] + ([] if fixed_ls is not None else [seed.lead_inductance_H / _NH])
+    return np.array([math.log(max(v, 1e-300)) for v in seed.values] + circuit + [seed.winding_capacitance_F / _PF])
+
+
+def _fit_family(problem: _Problem, f_all, z_all, sigma_all, turns, geometry, fixed_ls,
+                seed: DispersionFit | None = None) -> dict:
+    """Best trial of each model from a few starts (and from `seed`, a previous fit of the same data)."""
     mu_low, f_pk, cw0, _ = _start_values(f_all, z_all, sigma_all, turns, geometry, fixed_ls)
     if not np.all(np.isfinite([mu_low, f_pk, cw0])) or mu_low <= 0:
         raise FitError("the sweep gives no starting point for a core model: it does not look like a "
@@ -556,6 +566,11 @@ def _fit_family(problem: _Problem, f_all, z_all, sigma_all, turns, geometry, fix
         if SUM not in best or trial.chi2 < best[SUM].chi2:
             best[SUM] = trial
     best[SUM] = problem.fit(SUM, best[SUM].theta, lower, upper)
+    if seed is not None:
+        lower, upper = _bounds(seed.name, f_all, fixed_ls)
+        trial = problem.fit(seed.name, _seed_theta(seed, fixed_ls), lower, upper)
+        if trial.chi2 < best[seed.name].chi2:
+            best[seed.name] = trial
     return best
 
 
@@ -614,13 +629,13 @@ def _summarise(trial: _Trial, fixed_ls, comparison, reason) -> DispersionFit:
 
 
 def fit_dispersion(f_Hz, impedance_ohm, sigma_ohm, turns: int, geometry: CoreGeometry,
-                   lead_inductance_H: float | None = None, points_per_decade: float = POINTS_PER_DECADE
-                   ) -> DispersionFit:
+                   lead_inductance_H: float | None = None, points_per_decade: float = POINTS_PER_DECADE,
+                   seed: DispersionFit | None = None) -> DispersionFit:
     """Fit every model of the family to one winding's impedance and keep the one with the lowest BIC.
 
     `sigma_ohm` is the error model's size of the error on each point; the fit runs on a grid
     thinned to at most `points_per_decade`. `lead_inductance_H` holds the lead inductance at
-    a measured value; None fits it.
+    a measured value; None fits it. `seed`, a previous fit of the same data, is one more start.
     """
     f = np.asarray(f_Hz, dtype=float)
     z = np.asarray(impedance_ohm, dtype=complex)
@@ -630,7 +645,7 @@ def fit_dispersion(f_Hz, impedance_ohm, sigma_ohm, turns: int, geometry: CoreGeo
     if idx.size < 8:
         raise FitError(f"only {idx.size} points the VNA resolves; the dispersion fit needs at least 8")
     problem = _Problem(f[idx], z[idx], sigma[idx], turns, geometry, lead_inductance_H)
-    best = _fit_family(problem, f[usable], z[usable], sigma[usable], turns, geometry, lead_inductance_H)
+    best = _fit_family(problem, f[usable], z[usable], sigma[usable], turns, geometry, lead_inductance_H, seed)
     comparison = {name: {"bic": _bic(t), "misfit": math.sqrt(t.chi2 / t.n), "parameters": int(t.theta.size)}
                   for name, t in best.items()}
     chosen = min(best.values(), key=_bic)
@@ -1058,11 +1073,19 @@ def analyze_core(f_Hz, impedance_ohm, turns: int, geometry: CoreGeometry, z0_ohm
             lead = LeadEstimate(fit.lead_inductance_H, fit.lead_inductance_stderr_H, 0.0, None, "single sweep",
                                 True, None, "fitted with the dispersion model of this one sweep")
         else:
-            # Where µ hardly disperses inside the sweep, a series inductance and the core's are one
-            # and the same to the data: the leads stay in (never a guessed split) and a warning says so.
-            fit = fit_dispersion(f, z_fit, sigma, int(turns), geometry, 0.0)
-            lead = replace(NO_LEADS, note="this one sweep cannot tell the lead inductance from the core's; the "
-                                          "leads are left in")
+            held = fit_dispersion(f, z_fit, sigma, int(turns), geometry, 0.0, seed=fit)
+            if held.bic <= fit.bic + SERIES_INDUCTANCE_BIC:
+                # Where µ hardly disperses inside the sweep, a series inductance and the core's are one
+                # and the same to the data: the leads stay in (never a guessed split) and a warning says so.
+                fit = held
+                lead = replace(NO_LEADS, note="this one sweep cannot tell the lead inductance from the core's; "
+                                              "the leads are left in")
+            else:
+                # the model without a series inductance misses the data: it is kept at its fitted value,
+                # unresolved, and not claimed as the leads
+                lead = LeadEstimate(fit.lead_inductance_H, None, 0.0, None, "single sweep", False, None,
+                                    f"a series inductance of about {fit.lead_inductance_H / _NH:.3g} nH is needed to "
+                                    "describe this sweep but the sweep does not resolve it; it is taken off")
     l0 = air_core_inductance_H(int(turns), geometry)
     w = 2 * np.pi * f
     zc = permeability_from_impedance(f, z_fit, turns, geometry, fit.series_resistance_ohm, fit.lead_inductance_H,
