@@ -1061,15 +1061,29 @@ def analyze_core(f_Hz, impedance_ohm, turns: int, geometry: CoreGeometry, z0_ohm
     sigma = np.hypot(sigma_systematic, sigma_noise)
     # measured leads are already off z_fit: the fit holds its series inductance at 0
     fit = fit_dispersion(f, z_fit, sigma, int(turns), geometry, 0.0 if known else None)
+    # the standard error of the lead inductance taken off, carried into µ one for one (δµ = δLl/L0)
+    lead_se_H = 0.0
     if known:
         # where the swept short was taken off, its uncertainty is in sigma, not in Ll
-        fit = replace(fit, lead_inductance_stderr_H=None if compensated.all() else leads.inductance_stderr_H)
+        lead_se_H = 0.0 if compensated.all() else (leads.inductance_stderr_H or 0.0)
+        fit = replace(fit, lead_inductance_stderr_H=lead_se_H or None)
         lead = leads
     else:
+        # The fit treats the VNA's residue as independent per point; it is not: it drifts slowly, over
+        # about a decade, so the fit's points per decade count as one (its standard error × √that), and a
+        # series inductance is known no better than the better single frequencies resolve it.
+        with np.errstate(all="ignore"):
+            per_point = sigma_systematic / (2 * np.pi * f)
+        resolved = per_point[np.abs(z) > 3 * sigma]
+        floor_H = float(np.percentile(resolved, 25)) if resolved.size else math.inf
+        if fit.lead_inductance_stderr_H is not None:
+            fit = replace(fit, lead_inductance_stderr_H=math.hypot(
+                fit.lead_inductance_stderr_H * math.sqrt(POINTS_PER_DECADE), floor_H))
         # kept when resolved to better than ±70 % (its uncertainty is carried into µ); else left in
         ls_ok = fit.lead_inductance_stderr_H is not None and fit.lead_inductance_stderr_H < 0.7 * max(
             fit.lead_inductance_H, 1e-30) and fit.lead_inductance_H > 1e-3 * _NH
         if ls_ok:
+            lead_se_H = fit.lead_inductance_stderr_H
             lead = LeadEstimate(fit.lead_inductance_H, fit.lead_inductance_stderr_H, 0.0, None, "single sweep",
                                 True, None, "fitted with the dispersion model of this one sweep")
         else:
@@ -1082,7 +1096,9 @@ def analyze_core(f_Hz, impedance_ohm, turns: int, geometry: CoreGeometry, z0_ohm
                                               "the leads are left in")
             else:
                 # the model without a series inductance misses the data: it is kept at its fitted value,
-                # unresolved, and not claimed as the leads
+                # unresolved (known to about the residue's floor), and not claimed as the leads
+                lead_se_H = min(floor_H, fit.lead_inductance_H)
+                fit = replace(fit, lead_inductance_stderr_H=lead_se_H)
                 lead = LeadEstimate(fit.lead_inductance_H, None, 0.0, None, "single sweep", False, None,
                                     f"a series inductance of about {fit.lead_inductance_H / _NH:.3g} nH is needed to "
                                     "describe this sweep but the sweep does not resolve it; it is taken off")
@@ -1120,9 +1136,6 @@ def analyze_core(f_Hz, impedance_ohm, turns: int, geometry: CoreGeometry, z0_ohm
         source, plateau_points, plateau_band = "plateau", last - first + 1, (float(f[first]), float(f[last]))
     else:
         mu_i, mu_i_se = fit.static_permeability, fit.static_permeability_stderr
-        if mu_i_se is not None and known and leads.inductance_stderr_H and not compensated.all():
-            # a lead inductance held at a measured value moves µ(0) one for one: δµ = δLl/L0
-            mu_i_se = math.hypot(mu_i_se, leads.inductance_stderr_H / air_core_inductance_H(int(turns), geometry))
         if mu_i_se is not None:
             # the model leans on the lowest resolved points, whose systematic VNA error does not
             # average down: their relative size is carried into µ(0)
@@ -1136,6 +1149,9 @@ def analyze_core(f_Hz, impedance_ohm, turns: int, geometry: CoreGeometry, z0_ohm
         warnings.append("the data hold no flat, low-loss, well-resolved plateau of µ' at the low end; the initial "
                         "permeability is the dispersion model's extrapolation to f → 0: sweep lower or wind "
                         "more turns")
+    if mu_i_se is not None and lead_se_H:
+        # the lead inductance taken off moves µi one for one: δµ = δLl/L0
+        mu_i_se = math.hypot(mu_i_se, lead_se_H / l0)
     if known or lead.determined:
         pass
     elif plateau is not None or fit.static_permeability > 0:

@@ -68,7 +68,8 @@ def run_population(seed=SEED, cores=CORES, points=POINTS, start_Hz=START_HZ, noi
         s = analyze_core_windings(windings, g)
         row["set"] = s.initial_permeability / core.mu_i - 1
         row["lead"] = s.leads.inductance_H / leads.inductance_H - 1
-        row["lead_determined"] = s.leads.determined
+        row["lead_determined"] = s.leads.determined and s.leads.source == "turn counts"
+        row["lead_source"] = s.leads.source
         lead_se = s.leads.inductance_stderr_H
         row["lead_z"] = abs(s.leads.inductance_H - leads.inductance_H) / lead_se if lead_se else math.inf
         row["poor"] = s.model.poor
@@ -97,10 +98,12 @@ def summarise(rows):
                      "leads warning"
                      + "".join(f"; {100 * r[f'bare_{n}']:+.1f} % (µi {r['mu_i']:.0f})" for r in silent[:3]))
     undetermined = sum(not r["lead_determined"] for r in rows)
+    sources = sorted({r["lead_source"] for r in rows if not r["lead_determined"]})
     rows = [r for r in rows if r["lead_determined"]]
     lead_z = np.array([r["lead_z"] for r in rows])
-    lines.append(f"lead L from turn counts: not determined (said so) for {undetermined}; of the rest "
-                 f"{int(np.sum(lead_z > 3))} more than 3 stderr off")
+    lines.append(f"lead L from turn counts: not separated (said so, the headline winding's own estimate used: "
+                 f"{', '.join(sources)}) for {undetermined}; of the rest {int(np.sum(lead_z > 3))} more than "
+                 "3 stderr off")
     lead = np.array([r["lead"] for r in rows])
     lines.append(f"lead L from turn counts: median |error| {100 * np.median(np.abs(lead)):.1f} %, "
                  f"{100 * np.mean(np.abs(lead) <= 0.1):.0f} % within 10 %, worst {100 * lead[np.argmax(np.abs(lead))]:+.1f} %")
