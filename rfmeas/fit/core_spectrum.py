@@ -774,7 +774,10 @@ def leads_from_turns(windings, errors: VnaErrorModel = DEFAULT_VNA_ERRORS, z0_oh
     if f.size < 4:
         raise InputError("the windings' sweeps do not overlap in frequency")
     zs = np.stack([_on_grid(f, np.asarray(w[0], float), np.asarray(w[1], complex)) for w in windings])
-    sig = np.stack([errors.sigma_impedance(z, z0_ohm, method) for z in zs])
+    # the VNA's residue and each sweep's trace noise (read from its own neighbouring points)
+    noise = [_trace_noise_ohm(np.asarray(w[1], complex), z0_ohm, method) for w in windings]
+    sig = np.stack([np.hypot(errors.sigma_impedance(z, z0_ohm, method),
+                             np.interp(f, np.asarray(w[0], float), n)) for z, w, n in zip(zs, windings, noise)])
     # each winding counts where it is resolved and below 1.5× its own self-resonance (its C_k is
     # modelled; further up, distributed effects take over); a frequency needs two turn counts
     srf = np.array([_raw_self_resonance(f, z, s) for z, s in zip(zs, sig)])
