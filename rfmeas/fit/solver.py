@@ -495,20 +495,19 @@ def fit_sweeps(sweeps: list[Sweep]) -> FitOutcome:
 
     held: dict[str, tuple[float, str]] = {}
     referred: dict[str, str] = {}
-    for winding, own, ref, side in (("secondary", "L2_H", ("R2_ohm", "C2_F"), "primary"),
-                                    ("primary", "L1_H", ("R1_ohm", "C1_F"), "secondary")):
+    ties = []  # (unseen winding's inductance, the seen one it is held equal to)
+    for winding, own, ref, side in (("secondary", "L2_H", ("R2_ohm", "C2_F", "C12_F"), "primary"),
+                                    ("primary", "L1_H", ("R1_ohm", "C1_F", "C12_F"), "secondary")):
         if sweeps_that_see(sweeps, winding):
             continue
         # The unseen winding is modelled 1:1 (its inductance held equal to the seen one), so
-        # its resistance and capacitance come out referred to the seen side; C12 cannot be
-        # told from the referred capacitance and is held at zero.
-        seen = "L1_H" if own == "L2_H" else "L2_H"
-        for st in starts:
-            st[own] = st[seen]
-        held[own] = (starts[0][own], f"no sweep sees the {winding} winding's inductance")
-        held["C12_F"] = (NEUTRAL["C12_F"], f"needs the {winding} winding's inductance to be referred")
+        # its resistance and capacitances come out referred to the seen side. The referral is
+        # exact with C12 free: C12' = n·C12, C1' = C1 + (1 − n)·C12, n²·C2 + n(n − 1)·C12.
+        ties.append((own, "L1_H" if own == "L2_H" else "L2_H"))
+        held[own] = (None, f"no sweep sees the {winding} winding's inductance")
         for name in ref:
             referred[name] = f"referred to the {side} (the turns ratio is not measured)"
+    _tie(starts, ties)
     free = [n for n in PARAMETER_NAMES if n not in held]
     _hold_for_point_count(free, points, held)
     for name, (value, reason) in list(held.items()):
@@ -518,31 +517,28 @@ def fit_sweeps(sweeps: list[Sweep]) -> FitOutcome:
     total_evals = 0
 
     # Global stage: screen every start by its cost, run the best few to the end on the thinned
-    # problem, keep the lowest cost and record whether the others agree.
-    X0 = np.array([[to_internal(n, st[n]) for n in free] for st in starts])
-    screen = _Objective(coarse, free, fixed)
-    with np.errstate(all="ignore"):
-        costs = 0.5 * np.sum(coarse.residual_rows(screen.values(X0)) ** 2, axis=1)
-    total_evals += len(X0)
-    runs = []
-    for i in np.argsort(costs)[:MAX_STARTS]:
-        res, obj, score, evaluations, weights = _robust_solve(coarse, free, fixed, X0[i], START_BUDGET, 0)
+    # problem, keep the lowest cost and record whether the others agree. Without a two-port
+    # sweep the polarity shows only through C12, so both polarities are searched.
+    searches = []
+    for pol in ([polarity] if any(s.is_two_port for s in sweeps) else [polarity, -polarity]):
+        pol_starts = starts if pol == polarity else _tie(start_candidates(sweeps, polarity=pol)[0], ties)
+        coarse.polarity = pol
+        pol_runs, evaluations = _global_search(coarse, free, fixed, pol_starts)
         total_evals += evaluations
-        runs.append((res, obj, score, weights))
-        if len(runs) == 2 and _settled(runs, coarse):
-            break
-    # the most promising starts go on, re-weighted against sweeps the model misses
-    for j in sorted(range(len(runs)), key=lambda r: runs[r][2])[:ROBUST_STARTS]:
-        res, obj, score, evaluations, weights = _robust_solve(coarse, free, fixed, runs[j][0].x, START_BUDGET,
-                                                              ROBUST_ROUNDS)
-        total_evals += evaluations
-        runs[j] = (res, obj, score, weights)
+        searches.append((min(r[2] for r in pol_runs), pol, pol_runs))
+    _, polarity, _ = min(searches, key=lambda t: t[0])
+    runs = [r for _, _, pol_runs in searches for r in pol_runs]
+    coarse.polarity = problem.polarity = polarity
     res, obj, score, weights = min(runs, key=lambda r: r[2])
     agreement, disagree, spread, start_shifts = _start_agreement(runs, res, obj, coarse, free)
     if "Rc_ohm" in free:
         # The other place the core loss may sit: taken only when the sweeps clearly prefer it.
         coarse.core_loss = "primary"
-        res2, obj2, score2, evaluations, weights2 = _robust_solve(coarse, free, fixed, res.x, START_BUDGET,
+        # Rc starts from its reading: driven out of range under the other placement, its
+        # gradient has vanished and it could not come back
+        x_try = res.x.copy()
+        x_try[free.index("Rc_ohm")] = to_internal("Rc_ohm", starts[0]["Rc_ohm"])
+        res2, obj2, score2, evaluations, weights2 = _robust_solve(coarse, free, fixed, x_try, START_BUDGET,
                                                                   ROBUST_ROUNDS, weights)
         total_evals += evaluations
         other = (res2, obj2)
@@ -622,6 +618,40 @@ def fit_sweeps(sweeps: list[Sweep]) -> FitOutcome:
         sweep_error_sigma=tuple(np.asarray(s, float) for s in sigma), reduced_chi2=chi2, dof=dof,
         starts=len(runs), start_agreement=agreement, starts_disagree=disagree, start_spread=spread,
     )
+
+
+def _tie(starts: list[dict], ties) -> list[dict]:
+    """Starts with each unseen winding's inductance set equal to the seen one (1:1 model)."""
+    for own, seen in ties:
+        for st in starts:
+            st[own] = st[seen]
+    return starts
+
+
+def _global_search(coarse: SweepProblem, free, fixed, starts) -> tuple[list, int]:
+    """Every start screened by its cost in one stacked evaluation; the MAX_STARTS best run
+    Levenberg–Marquardt (the rest skipped when the first two agree at the noise), the
+    ROBUST_STARTS best go on with robust sweep weights. Returns the runs
+    (solution, objective, profile score, sweep weights) and the evaluations spent."""
+    X0 = np.array([[to_internal(n, st[n]) for n in free] for st in starts])
+    screen = _Objective(coarse, free, fixed)
+    with np.errstate(all="ignore"):
+        costs = 0.5 * np.sum(coarse.residual_rows(screen.values(X0)) ** 2, axis=1)
+    total = len(X0)
+    runs = []
+    for i in np.argsort(costs)[:MAX_STARTS]:
+        res, obj, score, evaluations, weights = _robust_solve(coarse, free, fixed, X0[i], START_BUDGET, 0)
+        total += evaluations
+        runs.append((res, obj, score, weights))
+        if len(runs) == 2 and _settled(runs, coarse):
+            break
+    # the most promising starts go on, re-weighted against sweeps the model misses
+    for j in sorted(range(len(runs)), key=lambda r: runs[r][2])[:ROBUST_STARTS]:
+        res, obj, score, evaluations, weights = _robust_solve(coarse, free, fixed, runs[j][0].x, START_BUDGET,
+                                                              ROBUST_ROUNDS)
+        total += evaluations
+        runs[j] = (res, obj, score, weights)
+    return runs, total
 
 
 def _reweight_sweeps(problem: SweepProblem, values: np.ndarray) -> bool:
