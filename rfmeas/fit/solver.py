@@ -68,7 +68,7 @@ from rfmeas.errors import FitError
 from rfmeas.fit.rules import EDGE_TOLERANCE_LOG
 from rfmeas.fit.start import start_candidates, sweeps_that_see
 from rfmeas.model.circuit import y_elements
-from rfmeas.model.params import PARAMETER_NAMES, TransformerParams
+from rfmeas.model.params import CORE_LOSS_PLACEMENTS, PARAMETER_NAMES, TransformerParams
 from rfmeas.measurement.noise import error_sigma
 from rfmeas.measurement.sweep import Sweep
 
@@ -115,6 +115,9 @@ SMOOTH_DEGREE = 4
 SMOOTH_SIGNIFICANCE = 3.0
 """A sweep's misfit counts as systematic when χ² exceeds its noise expectation by this many
 standard deviations (sqrt(2/n) per residual)."""
+GLOBAL_RETRY_CHI2 = 4.0
+"""When the best start leaves a sweep's χ² per residual above this (misfit ratio 2: not a good
+fit), the global search is run again with the core loss across the whole primary."""
 PLACEMENT_DELTA_CHI2 = 10.0
 """The core loss is placed across the whole primary only when that lowers −2 log-likelihood by this."""
 ROBUST_ROUNDS = 3
@@ -518,22 +521,38 @@ def fit_sweeps(sweeps: list[Sweep]) -> FitOutcome:
 
     # Global stage: screen every start by its cost, run the best few to the end on the thinned
     # problem, keep the lowest cost and record whether the others agree. Without a two-port
-    # sweep the polarity shows only through C12, so both polarities are searched.
-    searches = []
-    for pol in ([polarity] if any(s.is_two_port for s in sweeps) else [polarity, -polarity]):
-        pol_starts = starts if pol == polarity else _tie(start_candidates(sweeps, polarity=pol)[0], ties)
-        coarse.polarity = pol
-        pol_runs, evaluations = _global_search(coarse, free, fixed, pol_starts)
-        total_evals += evaluations
-        searches.append((min(r[2] for r in pol_runs), pol, pol_runs))
-    _, polarity, _ = min(searches, key=lambda t: t[0])
-    runs = [r for _, _, pol_runs in searches for r in pol_runs]
+    # sweep the polarity shows only through C12, so both polarities are searched; when the
+    # model's own core-loss placement fits no start well, the search is run again with the
+    # core loss across the whole primary.
+    polarities = [polarity] if any(s.is_two_port for s in sweeps) else [polarity, -polarity]
+    pol_starts = {pol: starts if pol == polarity else _tie(start_candidates(sweeps, polarity=pol)[0], ties)
+                  for pol in polarities}
+    searches = []  # (score, polarity, placement, runs)
+    for placement in CORE_LOSS_PLACEMENTS:
+        if searches and ("Rc_ohm" not in free or _good_enough(coarse, min(searches)[3])):
+            break
+        seeds = {pol: [] for pol in polarities}
+        for _, pol, _, pol_runs in searches:
+            # the other placement's best solution, Rc from its reading (see below)
+            x_seed = min(pol_runs, key=lambda r: r[2])[0].x.copy()
+            x_seed[free.index("Rc_ohm")] = to_internal("Rc_ohm", starts[0]["Rc_ohm"])
+            seeds[pol].append(x_seed)
+        coarse.core_loss = placement
+        for pol in polarities:
+            coarse.polarity = pol
+            pol_runs, evaluations = _global_search(coarse, free, fixed, pol_starts[pol], seeds[pol])
+            total_evals += evaluations
+            searches.append((min(r[2] for r in pol_runs), pol, placement, pol_runs))
+    _, polarity, placement, _ = min(searches, key=lambda t: t[0])
+    runs = [r for search in searches for r in search[3]]
     coarse.polarity = problem.polarity = polarity
+    coarse.core_loss = placement
     res, obj, score, weights = min(runs, key=lambda r: r[2])
     agreement, disagree, spread, start_shifts = _start_agreement(runs, res, obj, coarse, free)
     if "Rc_ohm" in free:
-        # The other place the core loss may sit: taken only when the sweeps clearly prefer it.
-        coarse.core_loss = "primary"
+        # The other place the core loss may sit, tried from the winner; the core loss across the
+        # whole primary is taken only when the sweeps clearly prefer it.
+        coarse.core_loss = "primary" if placement == "magnetizing" else "magnetizing"
         # Rc starts from its reading: driven out of range under the other placement, its
         # gradient has vanished and it could not come back
         x_try = res.x.copy()
@@ -542,14 +561,15 @@ def fit_sweeps(sweeps: list[Sweep]) -> FitOutcome:
                                                                   ROBUST_ROUNDS, weights)
         total_evals += evaluations
         other = (res2, obj2)
-        if score2 < score - PLACEMENT_DELTA_CHI2:
+        primary_score, own_score = (score2, score) if placement == "magnetizing" else (score, score2)
+        chosen = "primary" if primary_score < own_score - PLACEMENT_DELTA_CHI2 else "magnetizing"
+        if chosen != placement:
             other = (res, obj)
             res, obj, weights = res2, obj2, weights2
-            problem.core_loss = "primary"
+        coarse.core_loss = problem.core_loss = chosen
+        if chosen == "primary":
             referred["Rc_ohm"] = ("across the whole primary inductance: these sweeps show the core loss "
                                   "outside the leakage, not across the magnetising branch alone")
-        else:
-            coarse.core_loss = "magnetizing"
         if abs(score2 - score) <= COMPETITIVE_DELTA_CHI2:
             # both placements fit about as well: what they disagree on is not known better than that
             mine = _key_quantities(obj.values(res.x[None, :])[0])
@@ -620,6 +640,12 @@ def fit_sweeps(sweeps: list[Sweep]) -> FitOutcome:
     )
 
 
+def _good_enough(problem: SweepProblem, runs) -> bool:
+    """Whether the best of `runs` fits every sweep within GLOBAL_RETRY_CHI2 of its noise."""
+    res, obj, _, _ = min(runs, key=lambda r: r[2])
+    return bool(np.all(problem.sweep_chi2(obj.values(res.x[None, :])[0]) <= GLOBAL_RETRY_CHI2))
+
+
 def _tie(starts: list[dict], ties) -> list[dict]:
     """Starts with each unseen winding's inductance set equal to the seen one (1:1 model)."""
     for own, seen in ties:
@@ -628,22 +654,27 @@ def _tie(starts: list[dict], ties) -> list[dict]:
     return starts
 
 
-def _global_search(coarse: SweepProblem, free, fixed, starts) -> tuple[list, int]:
+def _global_search(coarse: SweepProblem, free, fixed, starts, seeds=()) -> tuple[list, int]:
     """Every start screened by its cost in one stacked evaluation; the MAX_STARTS best run
     Levenberg–Marquardt (the rest skipped when the first two agree at the noise), the
-    ROBUST_STARTS best go on with robust sweep weights. Returns the runs
-    (solution, objective, profile score, sweep weights) and the evaluations spent."""
+    ROBUST_STARTS best go on with robust sweep weights. `seeds`: solutions of an earlier
+    search (internal coordinates), run first. Returns the runs (solution, objective,
+    profile score, sweep weights) and the evaluations spent."""
     X0 = np.array([[to_internal(n, st[n]) for n in free] for st in starts])
     screen = _Objective(coarse, free, fixed)
     with np.errstate(all="ignore"):
         costs = 0.5 * np.sum(coarse.residual_rows(screen.values(X0)) ** 2, axis=1)
     total = len(X0)
     runs = []
+    for x0 in seeds:
+        res, obj, score, evaluations, weights = _robust_solve(coarse, free, fixed, x0, START_BUDGET, 0)
+        total += evaluations
+        runs.append((res, obj, score, weights))
     for i in np.argsort(costs)[:MAX_STARTS]:
         res, obj, score, evaluations, weights = _robust_solve(coarse, free, fixed, X0[i], START_BUDGET, 0)
         total += evaluations
         runs.append((res, obj, score, weights))
-        if len(runs) == 2 and _settled(runs, coarse):
+        if len(runs) == 2 + len(seeds) and _settled(runs[len(seeds):], coarse):
             break
     # the most promising starts go on, re-weighted against sweeps the model misses
     for j in sorted(range(len(runs)), key=lambda r: runs[r][2])[:ROBUST_STARTS]:
