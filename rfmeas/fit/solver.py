@@ -115,9 +115,9 @@ SMOOTH_DEGREE = 4
 SMOOTH_SIGNIFICANCE = 3.0
 """A sweep's misfit counts as systematic when χ² exceeds its noise expectation by this many
 standard deviations (sqrt(2/n) per residual)."""
-GLOBAL_RETRY_CHI2 = 4.0
-"""When the best start leaves a sweep's χ² per residual above this (misfit ratio 2: not a good
-fit), the global search is run again with the core loss across the whole primary."""
+RETRY_CHI2 = 4.0
+"""When the best start leaves a sweep's χ² per residual above this (misfit ratio 2: not a good fit),
+each core-loss placement is searched again on its own (see fit_sweeps)."""
 PLACEMENT_DELTA_CHI2 = 10.0
 """The core loss is placed across the whole primary only when that lowers −2 log-likelihood by this."""
 ROBUST_ROUNDS = 3
@@ -520,34 +520,36 @@ def fit_sweeps(sweeps: list[Sweep]) -> FitOutcome:
     total_evals = 0
 
     # Global stage: screen every start by its cost, run the best few to the end on the thinned
-    # problem, keep the lowest cost and record whether the others agree. Without a two-port
-    # sweep the polarity shows only through C12, so both polarities are searched; when the
-    # model's own core-loss placement fits no start well, the search is run again with the
-    # core loss across the whole primary.
+    # problem, keep the lowest cost and record whether the others agree. The starts are screened
+    # under both core-loss placements, and without a two-port sweep (the polarity then shows
+    # only through C12) under both polarities.
     polarities = [polarity] if any(s.is_two_port for s in sweeps) else [polarity, -polarity]
-    pol_starts = {pol: starts if pol == polarity else _tie(start_candidates(sweeps, polarity=pol)[0], ties)
-                  for pol in polarities}
-    searches = []  # (score, polarity, placement, runs)
-    for placement in CORE_LOSS_PLACEMENTS:
-        if searches and ("Rc_ohm" not in free or _good_enough(coarse, min(searches)[3])):
-            break
-        seeds = {pol: [] for pol in polarities}
-        for _, pol, _, pol_runs in searches:
-            # the other placement's best solution, Rc from its reading (see below)
-            x_seed = min(pol_runs, key=lambda r: r[2])[0].x.copy()
-            x_seed[free.index("Rc_ohm")] = to_internal("Rc_ohm", starts[0]["Rc_ohm"])
-            seeds[pol].append(x_seed)
-        coarse.core_loss = placement
-        for pol in polarities:
-            coarse.polarity = pol
-            pol_runs, evaluations = _global_search(coarse, free, fixed, pol_starts[pol], seeds[pol])
-            total_evals += evaluations
-            searches.append((min(r[2] for r in pol_runs), pol, placement, pol_runs))
-    _, polarity, placement, _ = min(searches, key=lambda t: t[0])
-    runs = [r for search in searches for r in search[3]]
-    coarse.polarity = problem.polarity = polarity
-    coarse.core_loss = placement
-    res, obj, score, weights = min(runs, key=lambda r: r[2])
+    placements = CORE_LOSS_PLACEMENTS if "Rc_ohm" in free else ("magnetizing",)
+    groups = [(placement, pol, starts if pol == polarity else _tie(start_candidates(sweeps, polarity=pol)[0], ties))
+              for pol in polarities for placement in placements]
+    runs, configs, evaluations = _global_search(coarse, free, fixed, groups)
+    total_evals += evaluations
+    best = min(range(len(runs)), key=lambda r: runs[r][2])
+    if not _fits_well(coarse, runs[best], configs[best]):
+        # Second chance: each placement searched on its own, the model's own first, the next one
+        # seeded with the best solution of the one before (Rc from its reading: driven out of
+        # range under another placement, its gradient has vanished and it could not come back).
+        seeds = []
+        for placement in placements:
+            more, more_configs, evaluations = _global_search(
+                coarse, free, fixed, [g for g in groups if g[0] == placement],
+                [((placement, pol), x) for pol, x in seeds])
+            runs, configs, total_evals = runs + more, configs + more_configs, total_evals + evaluations
+            j = min(range(len(more)), key=lambda r: more[r][2])
+            seed = more[j][0].x.copy()
+            if "Rc_ohm" in free:
+                seed[free.index("Rc_ohm")] = to_internal("Rc_ohm", starts[0]["Rc_ohm"])
+            seeds = [(more_configs[j][1], seed)]
+        best = min(range(len(runs)), key=lambda r: runs[r][2])
+    placement, polarity = configs[best]
+    coarse.core_loss, coarse.polarity = placement, polarity
+    problem.polarity = polarity
+    res, obj, score, weights = runs[best]
     agreement, disagree, spread, start_shifts = _start_agreement(runs, res, obj, coarse, free)
     if "Rc_ohm" in free:
         # The other place the core loss may sit, tried from the winner; the core loss across the
@@ -640,12 +642,6 @@ def fit_sweeps(sweeps: list[Sweep]) -> FitOutcome:
     )
 
 
-def _good_enough(problem: SweepProblem, runs) -> bool:
-    """Whether the best of `runs` fits every sweep within GLOBAL_RETRY_CHI2 of its noise."""
-    res, obj, _, _ = min(runs, key=lambda r: r[2])
-    return bool(np.all(problem.sweep_chi2(obj.values(res.x[None, :])[0]) <= GLOBAL_RETRY_CHI2))
-
-
 def _tie(starts: list[dict], ties) -> list[dict]:
     """Starts with each unseen winding's inductance set equal to the seen one (1:1 model)."""
     for own, seen in ties:
@@ -654,35 +650,61 @@ def _tie(starts: list[dict], ties) -> list[dict]:
     return starts
 
 
-def _global_search(coarse: SweepProblem, free, fixed, starts, seeds=()) -> tuple[list, int]:
-    """Every start screened by its cost in one stacked evaluation; the MAX_STARTS best run
-    Levenberg–Marquardt (the rest skipped when the first two agree at the noise), the
-    ROBUST_STARTS best go on with robust sweep weights. `seeds`: solutions of an earlier
-    search (internal coordinates), run first. Returns the runs (solution, objective,
-    profile score, sweep weights) and the evaluations spent."""
-    X0 = np.array([[to_internal(n, st[n]) for n in free] for st in starts])
-    screen = _Objective(coarse, free, fixed)
-    with np.errstate(all="ignore"):
-        costs = 0.5 * np.sum(coarse.residual_rows(screen.values(X0)) ** 2, axis=1)
-    total = len(X0)
-    runs = []
-    for x0 in seeds:
+def _fits_well(coarse: SweepProblem, run, config) -> bool:
+    """Whether a run fits every sweep within RETRY_CHI2 of its noise (χ² per residual)."""
+    coarse.core_loss, coarse.polarity = config
+    res, obj, _, _ = run
+    return bool(np.all(coarse.sweep_chi2(obj.values(res.x[None, :])[0]) <= RETRY_CHI2))
+
+
+def _global_search(coarse: SweepProblem, free, fixed, groups, seeds=()) -> tuple[list, list, int]:
+    """The best starts run to the end, from `groups` of (core-loss placement, polarity, starts).
+
+    Every start is screened by its cost in one stacked evaluation per group and keeps
+    the placement it screens better under; for each polarity the MAX_STARTS best run
+    Levenberg–Marquardt under their placement (the rest skipped when the first two
+    agree at the noise), the
+    ROBUST_STARTS best go on with robust sweep weights. Returns the runs (solution,
+    objective, profile score, sweep weights), each run's (placement, polarity) and
+    the evaluations spent. `seeds`: ((placement, polarity), x0) run before the starts.
+    `coarse` is left configured as the last run needed.
+    """
+    best, total = {}, 0  # (polarity, start) -> (screening cost, (placement, polarity), x0)
+    for placement, pol, starts in groups:
+        coarse.core_loss, coarse.polarity = placement, pol
+        X0 = np.array([[to_internal(n, st[n]) for n in free] for st in starts])
+        screen = _Objective(coarse, free, fixed)
+        with np.errstate(all="ignore"):
+            costs = 0.5 * np.sum(coarse.residual_rows(screen.values(X0)) ** 2, axis=1)
+        total += len(X0)
+        for i, (c, x) in enumerate(zip(costs, X0)):
+            if (pol, i) not in best or c < best[pol, i][0]:  # each start under its better placement
+                best[pol, i] = (float(c), (placement, pol), x)
+    runs, configs = [], []
+
+    def run(config, x0):
+        coarse.core_loss, coarse.polarity = config
         res, obj, score, evaluations, weights = _robust_solve(coarse, free, fixed, x0, START_BUDGET, 0)
-        total += evaluations
         runs.append((res, obj, score, weights))
-    for i in np.argsort(costs)[:MAX_STARTS]:
-        res, obj, score, evaluations, weights = _robust_solve(coarse, free, fixed, X0[i], START_BUDGET, 0)
-        total += evaluations
-        runs.append((res, obj, score, weights))
-        if len(runs) == 2 + len(seeds) and _settled(runs[len(seeds):], coarse):
-            break
+        configs.append(config)
+        return evaluations
+
+    for config, x0 in seeds:
+        total += run(config, x0)
+    for pol in sorted({pol for pol, _ in best}):  # each polarity its own starts
+        candidates = sorted((c for (p, _), c in best.items() if p == pol), key=lambda c: c[0])
+        for i, (_, config, x0) in enumerate(candidates[:MAX_STARTS]):
+            total += run(config, x0)
+            if i == 1 and configs[-2] == configs[-1] and _settled(runs[-2:], coarse):
+                break
     # the most promising starts go on, re-weighted against sweeps the model misses
     for j in sorted(range(len(runs)), key=lambda r: runs[r][2])[:ROBUST_STARTS]:
+        coarse.core_loss, coarse.polarity = configs[j]
         res, obj, score, evaluations, weights = _robust_solve(coarse, free, fixed, runs[j][0].x, START_BUDGET,
                                                               ROBUST_ROUNDS)
         total += evaluations
         runs[j] = (res, obj, score, weights)
-    return runs, total
+    return runs, configs, total
 
 
 def _reweight_sweeps(problem: SweepProblem, values: np.ndarray) -> bool:
