@@ -115,9 +115,13 @@ SMOOTH_DEGREE = 4
 SMOOTH_SIGNIFICANCE = 3.0
 """A sweep's misfit counts as systematic when χ² exceeds its noise expectation by this many
 standard deviations (sqrt(2/n) per residual)."""
-RETRY_CHI2 = 4.0
-"""When the best start leaves a sweep's χ² per residual above this (misfit ratio 2: not a good fit),
-each core-loss placement is searched again on its own (see fit_sweeps)."""
+RETRY_CHI2 = 25.0
+"""When the best start leaves a sweep's χ² per residual above this (misfit ratio 5, the line of a
+poor fit: rfmeas.fit.rules.POOR_MISFIT_RATIO), each core-loss placement is searched again on its
+own (see fit_sweeps). A lower line would also search again wherever a calibration residue leaves
+a moderate misfit, at twice the cost and with no gain."""
+RETRY_STARTS = 2
+"""Starts per polarity (besides the seed) run again in that second search."""
 PLACEMENT_DELTA_CHI2 = 10.0
 """The core loss is placed across the whole primary only when that lowers −2 log-likelihood by this."""
 ROBUST_ROUNDS = 3
@@ -527,7 +531,8 @@ def fit_sweeps(sweeps: list[Sweep]) -> FitOutcome:
     placements = CORE_LOSS_PLACEMENTS if "Rc_ohm" in free else ("magnetizing",)
     groups = [(placement, pol, starts if pol == polarity else _tie(start_candidates(sweeps, polarity=pol)[0], ties))
               for pol in polarities for placement in placements]
-    runs, configs, evaluations = _global_search(coarse, free, fixed, groups)
+    memo: dict = {}
+    runs, configs, evaluations = _global_search(coarse, free, fixed, groups, memo=memo)
     total_evals += evaluations
     best = min(range(len(runs)), key=lambda r: runs[r][2])
     if not _fits_well(coarse, runs[best], configs[best]):
@@ -538,8 +543,12 @@ def fit_sweeps(sweeps: list[Sweep]) -> FitOutcome:
         for placement in placements:
             more, more_configs, evaluations = _global_search(
                 coarse, free, fixed, [g for g in groups if g[0] == placement],
-                [((placement, pol), x) for pol, x in seeds])
-            runs, configs, total_evals = runs + more, configs + more_configs, total_evals + evaluations
+                [((placement, pol), x) for pol, x in seeds], memo, RETRY_STARTS)
+            total_evals += evaluations
+            for r, config in zip(more, more_configs):
+                if not any(r is q for q in runs):  # a run taken from the memo is there already
+                    runs.append(r)
+                    configs.append(config)
             j = min(range(len(more)), key=lambda r: more[r][2])
             seed = more[j][0].x.copy()
             if "Rc_ohm" in free:
@@ -657,18 +666,21 @@ def _fits_well(coarse: SweepProblem, run, config) -> bool:
     return bool(np.all(coarse.sweep_chi2(obj.values(res.x[None, :])[0]) <= RETRY_CHI2))
 
 
-def _global_search(coarse: SweepProblem, free, fixed, groups, seeds=()) -> tuple[list, list, int]:
+def _global_search(coarse: SweepProblem, free, fixed, groups, seeds=(), memo=None,
+                   max_starts=MAX_STARTS) -> tuple[list, list, int]:
     """The best starts run to the end, from `groups` of (core-loss placement, polarity, starts).
 
     Every start is screened by its cost in one stacked evaluation per group and keeps
-    the placement it screens better under; for each polarity the MAX_STARTS best run
+    the placement it screens better under; for each polarity the `max_starts` best run
     Levenberg–Marquardt under their placement (the rest skipped when the first two
-    agree at the noise), the
-    ROBUST_STARTS best go on with robust sweep weights. Returns the runs (solution,
-    objective, profile score, sweep weights), each run's (placement, polarity) and
-    the evaluations spent. `seeds`: ((placement, polarity), x0) run before the starts.
-    `coarse` is left configured as the last run needed.
+    agree at the noise), the ROBUST_STARTS best go on with robust sweep weights.
+    Returns the runs (solution, objective, profile score, sweep weights), each run's
+    (placement, polarity) and the evaluations spent. `seeds`: ((placement, polarity),
+    x0) run before the starts. `memo` (a dict) keeps each start's run under its
+    placement, so a later search takes it instead of running it again. `coarse` is
+    left configured as the last run needed.
     """
+    memo = {} if memo is None else memo
     best, total = {}, 0  # (polarity, start) -> (screening cost, (placement, polarity), x0)
     for placement, pol, starts in groups:
         coarse.core_loss, coarse.polarity = placement, pol
@@ -680,30 +692,38 @@ def _global_search(coarse: SweepProblem, free, fixed, groups, seeds=()) -> tuple
         for i, (c, x) in enumerate(zip(costs, X0)):
             if (pol, i) not in best or c < best[pol, i][0]:  # each start under its better placement
                 best[pol, i] = (float(c), (placement, pol), x)
-    runs, configs = [], []
+    runs, configs, keys = [], [], []
 
-    def run(config, x0):
+    def run(config, x0, key=None):
         coarse.core_loss, coarse.polarity = config
-        res, obj, score, evaluations, weights = _robust_solve(coarse, free, fixed, x0, START_BUDGET, 0)
-        runs.append((res, obj, score, weights))
+        if key in memo:
+            runs.append(memo[key])
+            evaluations = 0
+        else:
+            res, obj, score, evaluations, weights = _robust_solve(coarse, free, fixed, x0, START_BUDGET, 0)
+            runs.append((res, obj, score, weights))
         configs.append(config)
+        keys.append(key)
         return evaluations
 
     for config, x0 in seeds:
         total += run(config, x0)
     for pol in sorted({pol for pol, _ in best}):  # each polarity its own starts
-        candidates = sorted((c for (p, _), c in best.items() if p == pol), key=lambda c: c[0])
-        for i, (_, config, x0) in enumerate(candidates[:MAX_STARTS]):
-            total += run(config, x0)
-            if i == 1 and configs[-2] == configs[-1] and _settled(runs[-2:], coarse):
+        candidates = sorted(((i, c) for (p, i), c in best.items() if p == pol), key=lambda c: c[1][0])
+        for n, (i, (_, config, x0)) in enumerate(candidates[:max_starts]):
+            total += run(config, x0, (config, i))
+            if n == 1 and configs[-2] == configs[-1] and _settled(runs[-2:], coarse):
                 break
     # the most promising starts go on, re-weighted against sweeps the model misses
     for j in sorted(range(len(runs)), key=lambda r: runs[r][2])[:ROBUST_STARTS]:
+        if keys[j] in memo:
+            continue  # re-weighted already
         coarse.core_loss, coarse.polarity = configs[j]
         res, obj, score, evaluations, weights = _robust_solve(coarse, free, fixed, runs[j][0].x, START_BUDGET,
                                                               ROBUST_ROUNDS)
         total += evaluations
         runs[j] = (res, obj, score, weights)
+    memo.update((key, r) for key, r in zip(keys, runs) if key is not None)
     return runs, configs, total
 
 
