@@ -56,6 +56,7 @@ small error bar. Derived quantities follow by first-order propagation
 
 from __future__ import annotations
 
+import itertools
 import logging
 import math
 import time
@@ -509,11 +510,16 @@ def fit_sweeps(sweeps: list[Sweep]) -> FitOutcome:
             continue
         # The unseen winding is modelled 1:1 (its inductance held equal to the seen one), so
         # its resistance and capacitances come out referred to the seen side. The referral is
-        # exact with C12 free: C12' = n·C12, C1' = C1 + (1 − n)·C12, n²·C2 + n(n − 1)·C12.
+        # exact with C12 free: C12' = n·C12, C1' = C1 + (1 − n)·C12, n²·C2 + n(n − 1)·C12
+        # (while C1' and C2' stay positive), but only sweeps of the seen winding with the unseen
+        # one both open and shorted (or loaded) tell C12' from the other two.
         ties.append((own, "L1_H" if own == "L2_H" else "L2_H"))
         held[own] = (None, f"no sweep sees the {winding} winding's inductance")
+        if len({s.termination for s in sweeps if not s.is_two_port}) < 2:
+            held["C12_F"] = (NEUTRAL["C12_F"], f"needs the {winding} winding's inductance to be referred")
         for name in ref:
-            referred[name] = f"referred to the {side} (the turns ratio is not measured)"
+            if name not in held:
+                referred[name] = f"referred to the {side} (the turns ratio is not measured)"
     _tie(starts, ties)
     free = [n for n in PARAMETER_NAMES if n not in held]
     _hold_for_point_count(free, points, held)
@@ -670,10 +676,10 @@ def _global_search(coarse: SweepProblem, free, fixed, groups, seeds=(), memo=Non
                    max_starts=MAX_STARTS) -> tuple[list, list, int]:
     """The best starts run to the end, from `groups` of (core-loss placement, polarity, starts).
 
-    Every start is screened by its cost in one stacked evaluation per group and keeps
-    the placement it screens better under; for each polarity the `max_starts` best run
-    Levenberg–Marquardt under their placement (the rest skipped when the first two
-    agree at the noise), the ROBUST_STARTS best go on with robust sweep weights.
+    Every start is screened by its cost in one stacked evaluation per group; for each
+    polarity `max_starts` starts run Levenberg–Marquardt, the placements taking turns
+    with their next best-screened start (the rest skipped when the first two agree
+    at the noise), the ROBUST_STARTS best go on with robust sweep weights.
     Returns the runs (solution, objective, profile score, sweep weights), each run's
     (placement, polarity) and the evaluations spent. `seeds`: ((placement, polarity),
     x0) run before the starts. `memo` (a dict) keeps each start's run under its
@@ -681,7 +687,7 @@ def _global_search(coarse: SweepProblem, free, fixed, groups, seeds=(), memo=Non
     left configured as the last run needed.
     """
     memo = {} if memo is None else memo
-    best, total = {}, 0  # (polarity, start) -> (screening cost, (placement, polarity), x0)
+    ranked, total = {}, 0  # (placement, polarity) -> [(screening cost, start index, x0)], best first
     for placement, pol, starts in groups:
         coarse.core_loss, coarse.polarity = placement, pol
         X0 = np.array([[to_internal(n, st[n]) for n in free] for st in starts])
@@ -689,9 +695,8 @@ def _global_search(coarse: SweepProblem, free, fixed, groups, seeds=(), memo=Non
         with np.errstate(all="ignore"):
             costs = 0.5 * np.sum(coarse.residual_rows(screen.values(X0)) ** 2, axis=1)
         total += len(X0)
-        for i, (c, x) in enumerate(zip(costs, X0)):
-            if (pol, i) not in best or c < best[pol, i][0]:  # each start under its better placement
-                best[pol, i] = (float(c), (placement, pol), x)
+        ranked[placement, pol] = sorted(((float(c), i, x) for i, (c, x) in enumerate(zip(costs, X0))),
+                                        key=lambda c: c[0])
     runs, configs, keys = [], [], []
 
     def run(config, x0, key=None):
@@ -708,14 +713,16 @@ def _global_search(coarse: SweepProblem, free, fixed, groups, seeds=(), memo=Non
 
     for config, x0 in seeds:
         total += run(config, x0)
-    for pol in sorted({pol for pol, _ in best}):  # each polarity its own starts
-        candidates = sorted(((i, c) for (p, i), c in best.items() if p == pol), key=lambda c: c[1][0])
-        for n, (i, (_, config, x0)) in enumerate(candidates[:max_starts]):
+    for pol in sorted({pol for _, pol in ranked}):  # each polarity its own starts
+        # the placements take turns, each with its next best-screened start
+        lists = [[((placement, p), i, x) for _, i, x in ranked[placement, p]] for placement, p in ranked if p == pol]
+        turns = [c for tier in itertools.zip_longest(*lists) for c in tier if c is not None]
+        for n, (config, i, x0) in enumerate(turns[:max_starts]):
             total += run(config, x0, (config, i))
-            if n == 1 and configs[-2] == configs[-1] and _settled(runs[-2:], coarse):
+            if n == 1 and _settled(runs[-2:], coarse, configs[-2:]):
                 break
-    # the most promising starts go on, re-weighted against sweeps the model misses
-    for j in sorted(range(len(runs)), key=lambda r: runs[r][2])[:ROBUST_STARTS]:
+    # the most promising distinct solutions go on, re-weighted against sweeps the model misses
+    for j in _distinct(runs, ROBUST_STARTS):
         if keys[j] in memo:
             continue  # re-weighted already
         coarse.core_loss, coarse.polarity = configs[j]
@@ -725,6 +732,22 @@ def _global_search(coarse: SweepProblem, free, fixed, groups, seeds=(), memo=Non
         runs[j] = (res, obj, score, weights)
     memo.update((key, r) for key, r in zip(keys, runs) if key is not None)
     return runs, configs, total
+
+
+def _distinct(runs, count: int) -> list[int]:
+    """Indices of the `count` best runs (by profile score), one per solution: a run ending on the
+    key quantities of a better one (AGREEMENT_TOLERANCE) is passed over."""
+    chosen, keys = [], []
+    for j in sorted(range(len(runs)), key=lambda r: runs[r][2]):
+        res, obj = runs[j][:2]
+        mine = _key_quantities(obj.values(res.x[None, :])[0])
+        if any(all(abs(mine[k] / other[k] - 1.0) <= AGREEMENT_TOLERANCE[k] for k in mine) for other in keys):
+            continue
+        chosen.append(j)
+        keys.append(mine)
+        if len(chosen) == count:
+            break
+    return chosen
 
 
 def _reweight_sweeps(problem: SweepProblem, values: np.ndarray) -> bool:
@@ -820,15 +843,17 @@ def _start_agreement(runs, best_res, best_obj, problem, free) -> tuple[float, bo
     return agree / max(len(runs), 1), disagree, spread, shifts
 
 
-def _settled(runs, problem) -> bool:
+def _settled(runs, problem, configs) -> bool:
     """The first two starts ended on the same key quantities, fitted down to the noise: no
-    further start is run (SETTLED_CHI2). Anything worse, or any disagreement, runs them all."""
+    further start is run (SETTLED_CHI2). Anything worse, or any disagreement, runs them all.
+    `configs`: each run's (core-loss placement, polarity)."""
     keys = [_key_quantities(obj.values(res.x[None, :])[0]) for res, obj, _, _ in runs[:2]]
     same = all(abs(keys[1][k] / keys[0][k] - 1.0) <= AGREEMENT_TOLERANCE[k] for k in keys[0])
     if not same:
         return False
     n = np.array([2 * m.size for m in problem.measured], float)
-    for res, obj, _, _ in runs[:2]:
+    for (res, obj, _, _), config in zip(runs[:2], configs):
+        problem.core_loss, problem.polarity = config
         per_sweep = problem.sweep_chi2(obj.values(res.x[None, :])[0])
         if float(np.sum(per_sweep * n) / np.sum(n)) > SETTLED_CHI2:
             return False

@@ -130,6 +130,10 @@ def _weighted_median(x: np.ndarray, w: np.ndarray) -> float:
     return float(x[order][np.searchsorted(c, 0.5 * c[-1])])
 
 
+LOSSLESS_SHARE = 0.05
+"""thru_low_band reads nothing when more than this share of the incident power is absorbed."""
+
+
 def thru_low_band(f_Hz, s11, s21, z01_ohm: float, z02_ohm: float) -> tuple[float, float, float] | None:
     """(L of the port-1 winding, L of the port-2 winding, signed M) read off a thru's low band.
 
@@ -140,7 +144,8 @@ def thru_low_band(f_Hz, s11, s21, z01_ohm: float, z02_ohm: float) -> tuple[float
     ωL1, ωL2 and ωM (the sign of M is the winding polarity). Points are
     weighted by |det(I − S)|, which is small where the conversion amplifies the
     noise; the lower half (in log frequency) of the band where both
-    self-reactances are inductive is used.
+    self-reactances are inductive is used, and nothing is read when the thru there
+    absorbs more than LOSSLESS_SHARE of the power.
     """
     with np.errstate(all="ignore"):
         s22 = -np.conj(s11) * s21 / np.conj(s21)
@@ -168,6 +173,11 @@ def thru_low_band(f_Hz, s11, s21, z01_ohm: float, z02_ohm: float) -> tuple[float
     keep = slice(first, first + max(3, int(np.searchsorted(f_band, math.sqrt(f_band[0] * f_band[-1])))))
     weight = np.abs(det[keep])
     if not np.all(np.isfinite(weight)) or not weight.sum() > 0:
+        return None
+    # the reading assumes a lossless thru: where the core loss or the windings' resistance takes
+    # a noticeable share of the power (1 − |S11|² − |S21|²), it does not hold
+    absorbed = 1.0 - np.abs(s11[keep]) ** 2 - np.abs(s21[keep]) ** 2
+    if _weighted_median(absorbed, weight) > LOSSLESS_SHARE:
         return None
     return (_weighted_median(l1[keep], weight), _weighted_median(l2[keep], weight),
             _weighted_median(m[keep], weight))
@@ -205,10 +215,13 @@ def _readings(sweeps: list[Sweep]) -> tuple[dict, int]:
                 polarity = -1 if low[2] < 0 else 1
                 add(f"nsqM_thru{side}", (low[2] / low[0]) ** 2)
             # low band: the winding's inductance (else: in parallel with the other port's load)
-            l_port1 = low[0] if low is not None else parallel_inductance_at_low_frequency(f, z)
+            l_parallel = parallel_inductance_at_low_frequency(f, z)
+            l_port1 = low[0] if low is not None else l_parallel
             if l_port1:
                 add(f"Lthru{side}", l_port1)
                 add(f"Lthru{other}", l_port1 * n_sq)  # n_sq: port-2 winding over port-1 winding
+            if low is not None and l_parallel:
+                add(f"Lpar{side}", l_parallel)  # a second reading, for starts of its own
             continue
         if sweep.termination.is_open:
             l_open, c_open = band_fit_LC(f, z, z0)
@@ -245,7 +258,7 @@ CAPACITANCE_SPLITS = ((1 / 3, 1 / 3, 1 / 3), (0.8, 0.1, 0.1), (0.1, 0.8, 0.1), (
 COUPLING_STARTS = (0.9, 0.99, 0.999)
 """Extra couplings tried when no shorted sweep gives k directly."""
 RATIO_STARTS_APART = 0.1
-"""Two readings of L2/L1 further apart than this (natural log, ≈ 10 %) each get their own starts."""
+"""Two readings of L1 or L2 further apart than this (natural log, ≈ 10 %) each get their own starts."""
 
 
 
@@ -274,11 +287,11 @@ def start_candidates(sweeps: list[Sweep], polarity: int | None = None) -> tuple[
     ratios = {side: [r for r in (pick(f"nsqM_thru{side}"), pick(f"nsq_thru{side}")) if r]
               for side in ("1", "2")}
     pairs = []  # (L1, L2) from each ratio reading, the first preferred
-    if pick("L1") is None and pick("L2") is None:
+    if pick("L1") is None and pick("L2") is None:  # a thru alone: each inductance reading with each ratio
         if ratios["1"]:
-            pairs = [(pick("Lthru1"), pick("Lthru1") * r) for r in ratios["1"]]
+            pairs = [(l, l * r) for l in (pick("Lthru1"), pick("Lpar1")) if l for r in ratios["1"]]
         elif ratios["2"]:
-            pairs = [(pick("Lthru2") * r, pick("Lthru2")) for r in ratios["2"]]
+            pairs = [(l * r, l) for l in (pick("Lthru2"), pick("Lpar2")) if l for r in ratios["2"]]
     elif pick("L1") and not pick("L2") and ratios["1"]:
         pairs = [(L1, L1 * r) for r in ratios["1"]]
     elif pick("L2") and not pick("L1") and ratios["2"]:
@@ -325,12 +338,17 @@ def start_candidates(sweeps: list[Sweep], polarity: int | None = None) -> tuple[
         starts.append(dict(base, C1_F=c1, C2_F=c2, C12_F=c12))
     if not k_known:
         starts += [dict(st, k=kk) for kk in COUPLING_STARTS for st in starts]
-    # a second ratio reading that differs clearly gives its own starts (R2 and C2 scaled with it)
+    # another reading of the inductances that differs clearly gives its own starts (R2 and C2
+    # scaled with the ratio)
+    first = list(starts)
+    taken = [(L1, L2)]
     for l1, l2 in pairs[1:]:
-        scale = (l2 / l1) / (L2 / L1)
-        if abs(math.log(scale)) > RATIO_STARTS_APART:
+        if all(abs(math.log(l1 / a)) > RATIO_STARTS_APART or abs(math.log(l2 / b)) > RATIO_STARTS_APART
+               for a, b in taken):
+            taken.append((l1, l2))
+            scale = (l2 / l1) / (L2 / L1)
             starts += [dict(st, L1_H=l1, L2_H=l2, R2_ohm=st["R2_ohm"] * scale, C2_F=st["C2_F"] / scale)
-                       for st in list(starts)]
+                       for st in first]
     return starts, polarity
 
 
