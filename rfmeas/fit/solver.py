@@ -56,7 +56,6 @@ small error bar. Derived quantities follow by first-order propagation
 
 from __future__ import annotations
 
-import itertools
 import logging
 import math
 import time
@@ -677,9 +676,9 @@ def _global_search(coarse: SweepProblem, free, fixed, groups, seeds=(), memo=Non
     """The best starts run to the end, from `groups` of (core-loss placement, polarity, starts).
 
     Every start is screened by its cost in one stacked evaluation per group; for each
-    polarity `max_starts` starts run Levenberg–Marquardt, the placements taking turns
-    with their next best-screened start (the rest skipped when the first two agree
-    at the noise), the ROBUST_STARTS best go on with robust sweep weights.
+    polarity `max_starts` starts run Levenberg–Marquardt, each placement's best first,
+    then the rest by their screening cost (stopping when two runs agree at the
+    noise), the ROBUST_STARTS best go on with robust sweep weights.
     Returns the runs (solution, objective, profile score, sweep weights), each run's
     (placement, polarity) and the evaluations spent. `seeds`: ((placement, polarity),
     x0) run before the starts. `memo` (a dict) keeps each start's run under its
@@ -714,13 +713,15 @@ def _global_search(coarse: SweepProblem, free, fixed, groups, seeds=(), memo=Non
     for config, x0 in seeds:
         total += run(config, x0)
     for pol in sorted({pol for _, pol in ranked}):  # each polarity its own starts
-        # the placements take turns, each with its next best-screened start
-        lists = [[((placement, p), i, x) for _, i, x in ranked[placement, p]] for placement, p in ranked if p == pol]
-        turns = [c for tier in itertools.zip_longest(*lists) for c in tier if c is not None]
-        for n, (config, i, x0) in enumerate(turns[:max_starts]):
+        # each placement's best-screened start first, then the others by their screening cost
+        lists = [[(c, (placement, p), i, x) for c, i, x in ranked[placement, p]] for placement, p in ranked if p == pol]
+        turns = [lst[0] for lst in lists] + sorted((c for lst in lists for c in lst[1:]), key=lambda c: c[0])
+        mine = []
+        for _, config, i, x0 in turns[:max_starts]:
             total += run(config, x0, (config, i))
-            if n == 1 and _settled(runs[-2:], coarse, configs[-2:]):
+            if any(_settled([runs[j], runs[-1]], coarse, [configs[j], config]) for j in mine):
                 break
+            mine.append(len(runs) - 1)
     # the most promising distinct solutions go on, re-weighted against sweeps the model misses
     for j in _distinct(runs, ROBUST_STARTS):
         if keys[j] in memo:
