@@ -15,23 +15,31 @@ reach.
 Method (global, then local):
 1. Readings (rfmeas.fit.start): L and C of each open winding from a weighted
    straight-line fit of its inductive band, the short-circuit inductance
-   (hence k), the turns ratio from the thru's mid-band reflection and its
-   low-band inductance. What the sweeps cannot split — the open-circuit
-   capacitance C1 + n²·C2 + (n ∓ 1)²·C12 among the three, and the coupling
-   when nothing is shorted — is spread over several start points.
+   (hence k), and from a thru its low-band L1, L2 and signed M (the polarity,
+   and the ratio as (M/L1)²) where it is nearly lossless, plus the ratio from
+   its mid-band reflection. What the sweeps cannot split — the open-circuit
+   capacitance C1 + n²·C2 + (n ∓ 1)²·C12 among the three, the coupling when
+   nothing is shorted, the ratio when two readings disagree — is spread over
+   several start points.
 2. Global stage on about COARSE_POINTS points per sweep (spread in log and
-   linear frequency): every start is screened by its cost in one stacked
-   evaluation, the MAX_STARTS best run Levenberg–Marquardt, the ROBUST_STARTS
-   most promising go on with robust sweep weights, and the lowest profile
-   score wins. Whether the other starts ended on the same key quantities is
-   recorded (`start_agreement`, `starts_disagree`, `start_spread`).
+   linear frequency): every start is screened by its cost under both core-loss
+   placements (and, with no two-port sweep, both polarities) in one stacked
+   evaluation each; for each polarity up to MAX_STARTS run Levenberg–Marquardt,
+   each placement's best-screened start first, then the others by cost, until
+   two runs agree at the noise; the ROBUST_STARTS best distinct solutions go on
+   with robust sweep weights, and the lowest profile score wins. When even that
+   misses a sweep like a poor fit (RETRY_CHI2), each placement is searched again
+   on its own, the model's own first, the next seeded with its best. Whether the
+   other starts ended on the same key quantities is recorded (`start_agreement`,
+   `starts_disagree`, `start_spread`).
 3. Robust sweep weights: a sweep the model misses is weighted as if its noise
    were max(σ, its misfit) — the maximum-likelihood weighting when each sweep
    may carry an error of its own — so one mislabelled or unmodelled sweep
    cannot drag what the others pin down. χ² is still reported against σ.
-4. Core-loss placement: the fit also tries Rc across the whole primary
-   inductance (outside the leakage) and keeps it only when the sweeps prefer
-   it clearly (PLACEMENT_DELTA_CHI2); Rc's note then says so.
+4. Core-loss placement: from the winner the fit tries the other placement (Rc
+   restarted from its reading) and puts the core loss across the whole primary
+   inductance only when the sweeps prefer it clearly (PLACEMENT_DELTA_CHI2);
+   Rc's note then says so.
 5. Local stage on every point from the winner. A parameter the sweeps cannot
    pin down (log-space standard error above UNDETERMINED_LOG_STDERR, or
    pressed against the edge of its range after one restart from its reading)
@@ -98,7 +106,7 @@ _STEP = 1e-6  # forward-difference step in internal (log) coordinates
 COARSE_POINTS = 200
 """The global stage uses about this many points per sweep; the local stage uses them all."""
 MAX_STARTS = 4
-"""Starts (lowest screening cost first) run to the end in the global stage."""
+"""Starts per polarity run to the end in the global stage (see _global_search)."""
 START_BUDGET = 100
 """Function evaluations allowed to one start in the global stage."""
 MIN_RESIDUALS_PER_PARAMETER = 5
