@@ -542,8 +542,9 @@ def fit_sweeps(sweeps: list[Sweep]) -> FitOutcome:
     # only through C12) under both polarities.
     polarities = [polarity] if any(s.is_two_port for s in sweeps) else [polarity, -polarity]
     placements = CORE_LOSS_PLACEMENTS if "Rc_ohm" in free else ("magnetizing",)
-    groups = [(placement, pol, starts if pol == polarity else _tie(start_candidates(sweeps, polarity=pol)[0], ties))
-              for pol in polarities for placement in placements]
+    pol_starts = {pol: starts if pol == polarity else _tie(start_candidates(sweeps, polarity=pol)[0], ties)
+                  for pol in polarities}
+    groups = [(placement, pol, pol_starts[pol]) for pol in polarities for placement in placements]
     memo: dict = {}
     runs, configs, evaluations = _global_search(coarse, free, fixed, groups, memo=memo)
     total_evals += evaluations
@@ -722,7 +723,8 @@ def _global_search(coarse: SweepProblem, free, fixed, groups, seeds=(), memo=Non
         total += run(config, x0)
     for pol in sorted({pol for _, pol in ranked}):  # each polarity its own starts
         # each placement's best-screened start first, then the others by their screening cost
-        lists = [[(c, (placement, p), i, x) for c, i, x in ranked[placement, p]] for placement, p in ranked if p == pol]
+        lists = [[(c, (placement, p), i, x) for c, i, x in ranked[placement, p]]
+                 for placement, p in ranked if p == pol]
         turns = [lst[0] for lst in lists] + sorted((c for lst in lists for c in lst[1:]), key=lambda c: c[0])
         mine = []
         for _, config, i, x0 in turns[:max_starts]:
