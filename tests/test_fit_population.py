@@ -35,6 +35,10 @@ CASES = [
     (1, dict(sweeps="three-oneport", core_loss="magnetizing"), "recover"),
     (0, dict(sweeps="two", core_loss="magnetizing"), "recover"),
     (1, dict(sweeps="thru", core_loss="magnetizing"), "recover"),
+    # no sweep sees the secondary: the 1:1 model needs C12 free to refer it exactly
+    (6, dict(sweeps="two-oneport", core_loss="primary"), "recover"),
+    # no thru, inverting polarity: only C12 shows the polarity, so both are searched
+    (0, dict(sweeps="three-oneport", core_loss="magnetizing", polarity=-1), "recover"),
     (2, dict(sweeps="four", core_loss="magnetizing"), "flag"),
     (9, dict(sweeps="four", core_loss="primary"), "flag"),
 ]
@@ -45,6 +49,7 @@ pytestmark = [pytest.mark.spice, pytest.mark.skipif(not spice_available(), reaso
 def _params(cases):
     for index, overrides, expect in cases:
         name = f"unit{index}-{overrides['sweeps']}-{overrides['core_loss']}"
+        name += "-inverting" if overrides.get("polarity") == -1 else ""
         yield pytest.param(index, overrides, expect, id=name)
 
 

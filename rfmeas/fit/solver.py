@@ -15,23 +15,31 @@ reach.
 Method (global, then local):
 1. Readings (rfmeas.fit.start): L and C of each open winding from a weighted
    straight-line fit of its inductive band, the short-circuit inductance
-   (hence k), the turns ratio from the thru's mid-band reflection and its
-   low-band inductance. What the sweeps cannot split — the open-circuit
-   capacitance C1 + n²·C2 + (n ∓ 1)²·C12 among the three, and the coupling
-   when nothing is shorted — is spread over several start points.
+   (hence k), and from a thru its low-band L1, L2 and signed M (the polarity,
+   and the ratio as (M/L1)²) where it is nearly lossless, plus the ratio from
+   its mid-band reflection. What the sweeps cannot split — the open-circuit
+   capacitance C1 + n²·C2 + (n ∓ 1)²·C12 among the three, the coupling when
+   nothing is shorted, the ratio when two readings disagree — is spread over
+   several start points.
 2. Global stage on about COARSE_POINTS points per sweep (spread in log and
-   linear frequency): every start is screened by its cost in one stacked
-   evaluation, the MAX_STARTS best run Levenberg–Marquardt, the ROBUST_STARTS
-   most promising go on with robust sweep weights, and the lowest profile
-   score wins. Whether the other starts ended on the same key quantities is
-   recorded (`start_agreement`, `starts_disagree`, `start_spread`).
+   linear frequency): every start is screened by its cost under both core-loss
+   placements (and, with no two-port sweep, both polarities) in one stacked
+   evaluation each; for each polarity up to MAX_STARTS run Levenberg–Marquardt,
+   each placement's best-screened start first, then the others by cost, until
+   two runs agree at the noise; the ROBUST_STARTS best distinct solutions go on
+   with robust sweep weights, and the lowest profile score wins. When even that
+   misses a sweep like a poor fit (RETRY_CHI2), each placement is searched again
+   on its own, the model's own first, the next seeded with its best. Whether the
+   other starts ended on the same key quantities is recorded (`start_agreement`,
+   `starts_disagree`, `start_spread`).
 3. Robust sweep weights: a sweep the model misses is weighted as if its noise
    were max(σ, its misfit) — the maximum-likelihood weighting when each sweep
    may carry an error of its own — so one mislabelled or unmodelled sweep
    cannot drag what the others pin down. χ² is still reported against σ.
-4. Core-loss placement: the fit also tries Rc across the whole primary
-   inductance (outside the leakage) and keeps it only when the sweeps prefer
-   it clearly (PLACEMENT_DELTA_CHI2); Rc's note then says so.
+4. Core-loss placement: from the winner the fit tries the other placement (Rc
+   restarted from its reading) and puts the core loss across the whole primary
+   inductance only when the sweeps prefer it clearly (PLACEMENT_DELTA_CHI2);
+   Rc's note then says so.
 5. Local stage on every point from the winner. A parameter the sweeps cannot
    pin down (log-space standard error above UNDETERMINED_LOG_STDERR, or
    pressed against the edge of its range after one restart from its reading)
@@ -68,7 +76,7 @@ from rfmeas.errors import FitError
 from rfmeas.fit.rules import EDGE_TOLERANCE_LOG
 from rfmeas.fit.start import start_candidates, sweeps_that_see
 from rfmeas.model.circuit import y_elements
-from rfmeas.model.params import PARAMETER_NAMES, TransformerParams
+from rfmeas.model.params import CORE_LOSS_PLACEMENTS, PARAMETER_NAMES, TransformerParams
 from rfmeas.measurement.noise import error_sigma
 from rfmeas.measurement.sweep import Sweep
 
@@ -98,7 +106,7 @@ _STEP = 1e-6  # forward-difference step in internal (log) coordinates
 COARSE_POINTS = 200
 """The global stage uses about this many points per sweep; the local stage uses them all."""
 MAX_STARTS = 4
-"""Starts (lowest screening cost first) run to the end in the global stage."""
+"""Starts per polarity run to the end in the global stage (see _global_search)."""
 START_BUDGET = 100
 """Function evaluations allowed to one start in the global stage."""
 MIN_RESIDUALS_PER_PARAMETER = 5
@@ -115,6 +123,13 @@ SMOOTH_DEGREE = 4
 SMOOTH_SIGNIFICANCE = 3.0
 """A sweep's misfit counts as systematic when χ² exceeds its noise expectation by this many
 standard deviations (sqrt(2/n) per residual)."""
+RETRY_CHI2 = 25.0
+"""When the best start leaves a sweep's χ² per residual above this (misfit ratio 5, the line of a
+poor fit: rfmeas.fit.rules.POOR_MISFIT_RATIO), each core-loss placement is searched again on its
+own (see fit_sweeps). A lower line would also search again wherever a calibration residue leaves
+a moderate misfit, at twice the cost and with no gain."""
+RETRY_STARTS = 2
+"""Starts per polarity (besides the seed) run again in that second search."""
 PLACEMENT_DELTA_CHI2 = 10.0
 """The core loss is placed across the whole primary only when that lowers −2 log-likelihood by this."""
 ROBUST_ROUNDS = 3
@@ -495,20 +510,24 @@ def fit_sweeps(sweeps: list[Sweep]) -> FitOutcome:
 
     held: dict[str, tuple[float, str]] = {}
     referred: dict[str, str] = {}
-    for winding, own, ref, side in (("secondary", "L2_H", ("R2_ohm", "C2_F"), "primary"),
-                                    ("primary", "L1_H", ("R1_ohm", "C1_F"), "secondary")):
+    ties = []  # (unseen winding's inductance, the seen one it is held equal to)
+    for winding, own, ref, side in (("secondary", "L2_H", ("R2_ohm", "C2_F", "C12_F"), "primary"),
+                                    ("primary", "L1_H", ("R1_ohm", "C1_F", "C12_F"), "secondary")):
         if sweeps_that_see(sweeps, winding):
             continue
         # The unseen winding is modelled 1:1 (its inductance held equal to the seen one), so
-        # its resistance and capacitance come out referred to the seen side; C12 cannot be
-        # told from the referred capacitance and is held at zero.
-        seen = "L1_H" if own == "L2_H" else "L2_H"
-        for st in starts:
-            st[own] = st[seen]
-        held[own] = (starts[0][own], f"no sweep sees the {winding} winding's inductance")
-        held["C12_F"] = (NEUTRAL["C12_F"], f"needs the {winding} winding's inductance to be referred")
+        # its resistance and capacitances come out referred to the seen side. The referral is
+        # exact with C12 free: C12' = n·C12, C1' = C1 + (1 − n)·C12, n²·C2 + n(n − 1)·C12
+        # (while C1' and C2' stay positive), but only sweeps of the seen winding with the unseen
+        # one both open and shorted (or loaded) tell C12' from the other two.
+        ties.append((own, "L1_H" if own == "L2_H" else "L2_H"))
+        held[own] = (None, f"no sweep sees the {winding} winding's inductance")
+        if len({s.termination for s in sweeps if not s.is_two_port}) < 2:
+            held["C12_F"] = (NEUTRAL["C12_F"], f"needs the {winding} winding's inductance to be referred")
         for name in ref:
-            referred[name] = f"referred to the {side} (the turns ratio is not measured)"
+            if name not in held:
+                referred[name] = f"referred to the {side} (the turns ratio is not measured)"
+    _tie(starts, ties)
     free = [n for n in PARAMETER_NAMES if n not in held]
     _hold_for_point_count(free, points, held)
     for name, (value, reason) in list(held.items()):
@@ -518,42 +537,64 @@ def fit_sweeps(sweeps: list[Sweep]) -> FitOutcome:
     total_evals = 0
 
     # Global stage: screen every start by its cost, run the best few to the end on the thinned
-    # problem, keep the lowest cost and record whether the others agree.
-    X0 = np.array([[to_internal(n, st[n]) for n in free] for st in starts])
-    screen = _Objective(coarse, free, fixed)
-    with np.errstate(all="ignore"):
-        costs = 0.5 * np.sum(coarse.residual_rows(screen.values(X0)) ** 2, axis=1)
-    total_evals += len(X0)
-    runs = []
-    for i in np.argsort(costs)[:MAX_STARTS]:
-        res, obj, score, evaluations, weights = _robust_solve(coarse, free, fixed, X0[i], START_BUDGET, 0)
-        total_evals += evaluations
-        runs.append((res, obj, score, weights))
-        if len(runs) == 2 and _settled(runs, coarse):
-            break
-    # the most promising starts go on, re-weighted against sweeps the model misses
-    for j in sorted(range(len(runs)), key=lambda r: runs[r][2])[:ROBUST_STARTS]:
-        res, obj, score, evaluations, weights = _robust_solve(coarse, free, fixed, runs[j][0].x, START_BUDGET,
-                                                              ROBUST_ROUNDS)
-        total_evals += evaluations
-        runs[j] = (res, obj, score, weights)
-    res, obj, score, weights = min(runs, key=lambda r: r[2])
+    # problem, keep the lowest cost and record whether the others agree. The starts are screened
+    # under both core-loss placements, and without a two-port sweep (the polarity then shows
+    # only through C12) under both polarities.
+    polarities = [polarity] if any(s.is_two_port for s in sweeps) else [polarity, -polarity]
+    placements = CORE_LOSS_PLACEMENTS if "Rc_ohm" in free else ("magnetizing",)
+    pol_starts = {pol: starts if pol == polarity else _tie(start_candidates(sweeps, polarity=pol)[0], ties)
+                  for pol in polarities}
+    groups = [(placement, pol, pol_starts[pol]) for pol in polarities for placement in placements]
+    memo: dict = {}
+    runs, configs, evaluations = _global_search(coarse, free, fixed, groups, memo=memo)
+    total_evals += evaluations
+    best = min(range(len(runs)), key=lambda r: runs[r][2])
+    if not _fits_well(coarse, runs[best], configs[best]):
+        # Second chance: each placement searched on its own, the model's own first, the next one
+        # seeded with the best solution of the one before (Rc from its reading: driven out of
+        # range under another placement, its gradient has vanished and it could not come back).
+        seeds = []
+        for placement in placements:
+            more, more_configs, evaluations = _global_search(
+                coarse, free, fixed, [g for g in groups if g[0] == placement],
+                [((placement, pol), x) for pol, x in seeds], memo, RETRY_STARTS)
+            total_evals += evaluations
+            for r, config in zip(more, more_configs):
+                if not any(r is q for q in runs):  # a run taken from the memo is there already
+                    runs.append(r)
+                    configs.append(config)
+            j = min(range(len(more)), key=lambda r: more[r][2])
+            seed = more[j][0].x.copy()
+            if "Rc_ohm" in free:
+                seed[free.index("Rc_ohm")] = to_internal("Rc_ohm", starts[0]["Rc_ohm"])
+            seeds = [(more_configs[j][1], seed)]
+        best = min(range(len(runs)), key=lambda r: runs[r][2])
+    placement, polarity = configs[best]
+    coarse.core_loss, coarse.polarity = placement, polarity
+    problem.polarity = polarity
+    res, obj, score, weights = runs[best]
     agreement, disagree, spread, start_shifts = _start_agreement(runs, res, obj, coarse, free)
     if "Rc_ohm" in free:
-        # The other place the core loss may sit: taken only when the sweeps clearly prefer it.
-        coarse.core_loss = "primary"
-        res2, obj2, score2, evaluations, weights2 = _robust_solve(coarse, free, fixed, res.x, START_BUDGET,
+        # The other place the core loss may sit, tried from the winner; the core loss across the
+        # whole primary is taken only when the sweeps clearly prefer it.
+        coarse.core_loss = "primary" if placement == "magnetizing" else "magnetizing"
+        # Rc starts from its reading: driven out of range under the other placement, its
+        # gradient has vanished and it could not come back
+        x_try = res.x.copy()
+        x_try[free.index("Rc_ohm")] = to_internal("Rc_ohm", starts[0]["Rc_ohm"])
+        res2, obj2, score2, evaluations, weights2 = _robust_solve(coarse, free, fixed, x_try, START_BUDGET,
                                                                   ROBUST_ROUNDS, weights)
         total_evals += evaluations
         other = (res2, obj2)
-        if score2 < score - PLACEMENT_DELTA_CHI2:
+        primary_score, own_score = (score2, score) if placement == "magnetizing" else (score, score2)
+        chosen = "primary" if primary_score < own_score - PLACEMENT_DELTA_CHI2 else "magnetizing"
+        if chosen != placement:
             other = (res, obj)
             res, obj, weights = res2, obj2, weights2
-            problem.core_loss = "primary"
+        coarse.core_loss = problem.core_loss = chosen
+        if chosen == "primary":
             referred["Rc_ohm"] = ("across the whole primary inductance: these sweeps show the core loss "
                                   "outside the leakage, not across the magnetising branch alone")
-        else:
-            coarse.core_loss = "magnetizing"
         if abs(score2 - score) <= COMPETITIVE_DELTA_CHI2:
             # both placements fit about as well: what they disagree on is not known better than that
             mine = _key_quantities(obj.values(res.x[None, :])[0])
@@ -622,6 +663,102 @@ def fit_sweeps(sweeps: list[Sweep]) -> FitOutcome:
         sweep_error_sigma=tuple(np.asarray(s, float) for s in sigma), reduced_chi2=chi2, dof=dof,
         starts=len(runs), start_agreement=agreement, starts_disagree=disagree, start_spread=spread,
     )
+
+
+def _tie(starts: list[dict], ties) -> list[dict]:
+    """Starts with each unseen winding's inductance set equal to the seen one (1:1 model)."""
+    for own, seen in ties:
+        for st in starts:
+            st[own] = st[seen]
+    return starts
+
+
+def _fits_well(coarse: SweepProblem, run, config) -> bool:
+    """Whether a run fits every sweep within RETRY_CHI2 of its noise (χ² per residual)."""
+    coarse.core_loss, coarse.polarity = config
+    res, obj, _, _ = run
+    return bool(np.all(coarse.sweep_chi2(obj.values(res.x[None, :])[0]) <= RETRY_CHI2))
+
+
+def _global_search(coarse: SweepProblem, free, fixed, groups, seeds=(), memo=None,
+                   max_starts=MAX_STARTS) -> tuple[list, list, int]:
+    """The best starts run to the end, from `groups` of (core-loss placement, polarity, starts).
+
+    Every start is screened by its cost in one stacked evaluation per group; for each
+    polarity `max_starts` starts run Levenberg–Marquardt, each placement's best first,
+    then the rest by their screening cost (stopping when two runs agree at the
+    noise), the ROBUST_STARTS best go on with robust sweep weights.
+    Returns the runs (solution, objective, profile score, sweep weights), each run's
+    (placement, polarity) and the evaluations spent. `seeds`: ((placement, polarity),
+    x0) run before the starts. `memo` (a dict) keeps each start's run under its
+    placement, so a later search takes it instead of running it again. `coarse` is
+    left configured as the last run needed.
+    """
+    memo = {} if memo is None else memo
+    ranked, total = {}, 0  # (placement, polarity) -> [(screening cost, start index, x0)], best first
+    for placement, pol, starts in groups:
+        coarse.core_loss, coarse.polarity = placement, pol
+        X0 = np.array([[to_internal(n, st[n]) for n in free] for st in starts])
+        screen = _Objective(coarse, free, fixed)
+        with np.errstate(all="ignore"):
+            costs = 0.5 * np.sum(coarse.residual_rows(screen.values(X0)) ** 2, axis=1)
+        total += len(X0)
+        ranked[placement, pol] = sorted(((float(c), i, x) for i, (c, x) in enumerate(zip(costs, X0))),
+                                        key=lambda c: c[0])
+    runs, configs, keys = [], [], []
+
+    def run(config, x0, key=None):
+        coarse.core_loss, coarse.polarity = config
+        if key in memo:
+            runs.append(memo[key])
+            evaluations = 0
+        else:
+            res, obj, score, evaluations, weights = _robust_solve(coarse, free, fixed, x0, START_BUDGET, 0)
+            runs.append((res, obj, score, weights))
+        configs.append(config)
+        keys.append(key)
+        return evaluations
+
+    for config, x0 in seeds:
+        total += run(config, x0)
+    for pol in sorted({pol for _, pol in ranked}):  # each polarity its own starts
+        # each placement's best-screened start first, then the others by their screening cost
+        lists = [[(c, (placement, p), i, x) for c, i, x in ranked[placement, p]]
+                 for placement, p in ranked if p == pol]
+        turns = [lst[0] for lst in lists] + sorted((c for lst in lists for c in lst[1:]), key=lambda c: c[0])
+        mine = []
+        for _, config, i, x0 in turns[:max_starts]:
+            total += run(config, x0, (config, i))
+            if any(_settled([runs[j], runs[-1]], coarse, [configs[j], config]) for j in mine):
+                break
+            mine.append(len(runs) - 1)
+    # the most promising distinct solutions go on, re-weighted against sweeps the model misses
+    for j in _distinct(runs, ROBUST_STARTS):
+        if keys[j] in memo:
+            continue  # re-weighted already
+        coarse.core_loss, coarse.polarity = configs[j]
+        res, obj, score, evaluations, weights = _robust_solve(coarse, free, fixed, runs[j][0].x, START_BUDGET,
+                                                              ROBUST_ROUNDS)
+        total += evaluations
+        runs[j] = (res, obj, score, weights)
+    memo.update((key, r) for key, r in zip(keys, runs) if key is not None)
+    return runs, configs, total
+
+
+def _distinct(runs, count: int) -> list[int]:
+    """Indices of the `count` best runs (by profile score), one per solution: a run ending on the
+    key quantities of a better one (AGREEMENT_TOLERANCE) is passed over."""
+    chosen, keys = [], []
+    for j in sorted(range(len(runs)), key=lambda r: runs[r][2]):
+        res, obj = runs[j][:2]
+        mine = _key_quantities(obj.values(res.x[None, :])[0])
+        if any(all(abs(mine[k] / other[k] - 1.0) <= AGREEMENT_TOLERANCE[k] for k in mine) for other in keys):
+            continue
+        chosen.append(j)
+        keys.append(mine)
+        if len(chosen) == count:
+            break
+    return chosen
 
 
 def _reweight_sweeps(problem: SweepProblem, values: np.ndarray) -> bool:
@@ -717,15 +854,17 @@ def _start_agreement(runs, best_res, best_obj, problem, free) -> tuple[float, bo
     return agree / max(len(runs), 1), disagree, spread, shifts
 
 
-def _settled(runs, problem) -> bool:
+def _settled(runs, problem, configs) -> bool:
     """The first two starts ended on the same key quantities, fitted down to the noise: no
-    further start is run (SETTLED_CHI2). Anything worse, or any disagreement, runs them all."""
+    further start is run (SETTLED_CHI2). Anything worse, or any disagreement, runs them all.
+    `configs`: each run's (core-loss placement, polarity)."""
     keys = [_key_quantities(obj.values(res.x[None, :])[0]) for res, obj, _, _ in runs[:2]]
     same = all(abs(keys[1][k] / keys[0][k] - 1.0) <= AGREEMENT_TOLERANCE[k] for k in keys[0])
     if not same:
         return False
     n = np.array([2 * m.size for m in problem.measured], float)
-    for res, obj, _, _ in runs[:2]:
+    for (res, obj, _, _), config in zip(runs[:2], configs):
+        problem.core_loss, problem.polarity = config
         per_sweep = problem.sweep_chi2(obj.values(res.x[None, :])[0])
         if float(np.sum(per_sweep * n) / np.sum(n)) > SETTLED_CHI2:
             return False

@@ -71,6 +71,11 @@ def _below_resonance(f_Hz, z_ohm, fraction=0.5):
     return f_Hz < (fraction * fr if fr else np.inf)
 
 
+BAND_FRACTIONS = (0.5, 0.7, 0.9)
+"""Shares of the first resonance frequency below which band_fit_LC reads L and C, widened in
+turn until at least four points are left (the two-term reading holds up to the resonance)."""
+
+
 def band_fit_LC(f_Hz, z_ohm, z0_ohm, short: bool = False) -> tuple[float | None, float | None]:
     """(L, C) of a winding read off its inductive band by a weighted straight-line fit.
 
@@ -79,7 +84,11 @@ def band_fit_LC(f_Hz, z_ohm, z0_ohm, short: bool = False) -> tuple[float | None,
     a `z0_ohm` reflection resolves it (|1 + Γ|² for admittance, |1 − Γ|² for
     impedance), so the poorly resolved ends of a sweep do not pull the estimate.
     """
-    ok = np.isfinite(z_ohm) & (f_Hz > 0) & _below_resonance(f_Hz, z_ohm)
+    finite = np.isfinite(z_ohm) & (f_Hz > 0)
+    for fraction in BAND_FRACTIONS:  # a coarse grid may hold only a few points below resonance
+        ok = finite & _below_resonance(f_Hz, z_ohm, fraction)
+        if np.count_nonzero(ok) >= 4:
+            break
     if not short:
         # where the core loss (or a load) takes over from the inductance, the parallel L-C
         # reading no longer holds: keep the points whose susceptance is thrice the conductance
@@ -88,7 +97,7 @@ def band_fit_LC(f_Hz, z_ohm, z0_ohm, short: bool = False) -> tuple[float | None,
         inductive = ok & (-np.imag(y) > 3.0 * np.real(y))
         ok = inductive if np.count_nonzero(inductive) >= 3 else ok
     f, z = f_Hz[ok], z_ohm[ok]
-    if f.size < 3:
+    if f.size < 2:  # two points fix the two terms exactly: enough for a start value
         return None, None
     w = 2 * np.pi * f
     gamma = (z - z0_ohm) / (z + z0_ohm)
@@ -113,6 +122,65 @@ def band_fit_LC(f_Hz, z_ohm, z0_ohm, short: bool = False) -> tuple[float | None,
     L = float(L) if L is not None and L > 0 and math.isfinite(L) else None
     C = float(C) if L is not None and C is not None and C > 0 and math.isfinite(C) else None
     return L, C
+
+
+def _weighted_median(x: np.ndarray, w: np.ndarray) -> float:
+    order = np.argsort(x)
+    c = np.cumsum(w[order])
+    return float(x[order][np.searchsorted(c, 0.5 * c[-1])])
+
+
+LOSSLESS_SHARE = 0.05
+"""thru_low_band reads nothing when more than this share of the incident power is absorbed."""
+
+
+def thru_low_band(f_Hz, s11, s21, z01_ohm: float, z02_ohm: float) -> tuple[float, float, float] | None:
+    """(L of the port-1 winding, L of the port-2 winding, signed M) read off a thru's low band.
+
+    Only S11 and S21 are needed (forward-only files): below the first resonance
+    the thru is nearly lossless and reciprocal, so S is symmetric and unitary,
+    which gives S22 = −S11*·S21/S21*; the whole S matrix then converts to Z
+    (Z = Z0·(I + S)(I − S)⁻¹ in port-normalised form), whose reactances are
+    ωL1, ωL2 and ωM (the sign of M is the winding polarity). Points are
+    weighted by |det(I − S)|, which is small where the conversion amplifies the
+    noise; the lower half (in log frequency) of the band where both
+    self-reactances are inductive is used, and nothing is read when the thru there
+    absorbs more than LOSSLESS_SHARE of the power.
+    """
+    with np.errstate(all="ignore"):
+        s22 = -np.conj(s11) * s21 / np.conj(s21)
+        a11, a12, a22 = 1.0 - s11, -s21, 1.0 - s22
+        det = a11 * a22 - a12 * a12
+        # (I + S)(I − S)⁻¹ for a symmetric 2×2 S, element by element
+        z11 = ((1.0 + s11) * a22 - s21 * a12) / det
+        z12 = (s21 * a11 - (1.0 + s11) * a12) / det
+        z22 = (s21 * (-a12) + (1.0 + s22) * a11) / det
+        w = 2 * np.pi * np.asarray(f_Hz, float)
+        l1 = np.imag(z11) * z01_ohm / w
+        l2 = np.imag(z22) * z02_ohm / w
+        m = np.imag(z12) * math.sqrt(z01_ohm * z02_ohm) / w
+    inductive = np.isfinite(l1) & np.isfinite(l2) & np.isfinite(m) & (l1 > 0) & (l2 > 0)
+    if not inductive.any():
+        return None
+    first = int(np.argmax(inductive))
+    ends = np.nonzero(~inductive[first:])[0]
+    stop = first + int(ends[0]) if ends.size else len(inductive)
+    if stop - first < 3:
+        return None
+    f_band = np.asarray(f_Hz[first:stop], float)
+    if f_band[0] <= 0:
+        return None
+    keep = slice(first, first + max(3, int(np.searchsorted(f_band, math.sqrt(f_band[0] * f_band[-1])))))
+    weight = np.abs(det[keep])
+    if not np.all(np.isfinite(weight)) or not weight.sum() > 0:
+        return None
+    # the reading assumes a lossless thru: where the core loss or the windings' resistance takes
+    # a noticeable share of the power (1 − |S11|² − |S21|²), it does not hold
+    absorbed = 1.0 - np.abs(s11[keep]) ** 2 - np.abs(s21[keep]) ** 2
+    if _weighted_median(absorbed, weight) > LOSSLESS_SHARE:
+        return None
+    return (_weighted_median(l1[keep], weight), _weighted_median(l2[keep], weight),
+            _weighted_median(m[keep], weight))
 
 
 def _readings(sweeps: list[Sweep]) -> tuple[dict, int]:
@@ -140,11 +208,20 @@ def _readings(sweeps: list[Sweep]) -> tuple[dict, int]:
             g = min(max(g, -0.999), 0.999)
             n_sq = (1.0 - g) / (1.0 + g) * (sweep.z0_ohm[1] / z0)
             add(f"nsq_thru{side}", n_sq)
-            # low band: the winding's inductance in parallel with the other port's load
-            l_port1 = parallel_inductance_at_low_frequency(f, z)
+            low = thru_low_band(f, s[:, 0], s21, z0, sweep.z0_ohm[1])
+            if low is not None:
+                # the mutual inductance's sign is the polarity, and (M/L)² the ratio's square to
+                # within k² (a few per cent): both more robust than the mid-band reading
+                polarity = -1 if low[2] < 0 else 1
+                add(f"nsqM_thru{side}", (low[2] / low[0]) ** 2)
+            # low band: the winding's inductance (else: in parallel with the other port's load)
+            l_parallel = parallel_inductance_at_low_frequency(f, z)
+            l_port1 = low[0] if low is not None else l_parallel
             if l_port1:
                 add(f"Lthru{side}", l_port1)
-                add(f"Lthru{other}", l_port1 * (n_sq if side == "1" else 1.0 / n_sq))
+                add(f"Lthru{other}", l_port1 * n_sq)  # n_sq: port-2 winding over port-1 winding
+            if low is not None and l_parallel:
+                add(f"Lpar{side}", l_parallel)  # a second reading, for starts of its own
             continue
         if sweep.termination.is_open:
             l_open, c_open = band_fit_LC(f, z, z0)
@@ -180,17 +257,23 @@ CAPACITANCE_SPLITS = ((1 / 3, 1 / 3, 1 / 3), (0.8, 0.1, 0.1), (0.1, 0.8, 0.1), (
 """Shares of the open-circuit capacitance given to C1, n²·C2 and (n ∓ 1)²·C12 by the starts."""
 COUPLING_STARTS = (0.9, 0.99, 0.999)
 """Extra couplings tried when no shorted sweep gives k directly."""
+RATIO_STARTS_APART = 0.1
+"""Two readings of L1 or L2 further apart than this (natural log, ≈ 10 %) each get their own starts."""
 
 
-def start_candidates(sweeps: list[Sweep]) -> tuple[list[dict], int]:
+
+def start_candidates(sweeps: list[Sweep], polarity: int | None = None) -> tuple[list[dict], int]:
     """Start points for the fit (best reading first), and the winding polarity.
 
     The readings pin L1, L2 and (with a shorted sweep) k; what the open sweeps
     cannot split — the capacitance C1 + n²·C2 + (n ∓ 1)²·C12 referred to the
     primary, and the coupling when nothing is shorted — is spread over several
     starts, from which the fit keeps the one that ends with the lowest cost.
+    With a thru, both ratio readings (low band and mid band) get starts when
+    they differ. `polarity` given: the starts for that polarity, not the one read.
     """
-    est, polarity = _readings(sweeps)
+    est, read_polarity = _readings(sweeps)
+    polarity = read_polarity if polarity is None else polarity
 
     def pick(key, default=None):
         values = est.get(key)
@@ -200,10 +283,21 @@ def start_candidates(sweeps: list[Sweep]) -> tuple[list[dict], int]:
     L2 = pick("L2") or pick("Lthru2")
     if L1 is None and L2 is None:
         L1 = L2 = pick("Lload1") or pick("Lload2") or 1e-6
-    if pick("L1") and not pick("L2") and pick("nsq_thru1"):
-        L2 = L1 * pick("nsq_thru1")
-    if pick("L2") and not pick("L1") and pick("nsq_thru2"):
-        L1 = L2 * pick("nsq_thru2")
+    # ratio readings of a thru (low band, then mid band), for a winding no open sweep reads
+    ratios = {side: [r for r in (pick(f"nsqM_thru{side}"), pick(f"nsq_thru{side}")) if r]
+              for side in ("1", "2")}
+    pairs = []  # (L1, L2) from each ratio reading, the first preferred
+    if pick("L1") is None and pick("L2") is None:  # a thru alone: each inductance reading with each ratio
+        if ratios["1"]:
+            pairs = [(l, l * r) for l in (pick("Lthru1"), pick("Lpar1")) if l for r in ratios["1"]]
+        elif ratios["2"]:
+            pairs = [(l * r, l) for l in (pick("Lthru2"), pick("Lpar2")) if l for r in ratios["2"]]
+    elif pick("L1") and not pick("L2") and ratios["1"]:
+        pairs = [(L1, L1 * r) for r in ratios["1"]]
+    elif pick("L2") and not pick("L1") and ratios["2"]:
+        pairs = [(L2 * r, L2) for r in ratios["2"]]
+    if pairs:
+        L1, L2 = pairs[0]
     if L1 is not None and L2 is None:
         nsq = pick("nsq1")
         L2 = L1 * nsq if nsq else L1
@@ -244,6 +338,17 @@ def start_candidates(sweeps: list[Sweep]) -> tuple[list[dict], int]:
         starts.append(dict(base, C1_F=c1, C2_F=c2, C12_F=c12))
     if not k_known:
         starts += [dict(st, k=kk) for kk in COUPLING_STARTS for st in starts]
+    # another reading of the inductances that differs clearly gives its own starts (R2 and C2
+    # scaled with the ratio)
+    first = list(starts)
+    taken = [(L1, L2)]
+    for l1, l2 in pairs[1:]:
+        if all(abs(math.log(l1 / a)) > RATIO_STARTS_APART or abs(math.log(l2 / b)) > RATIO_STARTS_APART
+               for a, b in taken):
+            taken.append((l1, l2))
+            scale = (l2 / l1) / (L2 / L1)
+            starts += [dict(st, L1_H=l1, L2_H=l2, R2_ohm=st["R2_ohm"] * scale, C2_F=st["C2_F"] / scale)
+                       for st in first]
     return starts, polarity
 
 
