@@ -164,12 +164,28 @@ def test_wrong_termination_in_the_manifest_is_flagged():
 def test_an_unseen_winding_reports_its_resistance_and_capacitance_as_referred():
     """Primary open and shorted only: no sweep sees L2, so R2 and C2 are fitted as referred values."""
     sweeps = {"pri_open": OnePort("primary", "open", 50.0), "pri_short": OnePort("primary", "short", 50.0)}
-    analysis = analyze(simulated_set(TRUE, F_HZ, sweeps=sweeps, rng=np.random.default_rng(10)))
+    true = TRUE.replace(C12_F=0.3e-12)
+    analysis = analyze(simulated_set(true, F_HZ, sweeps=sweeps, rng=np.random.default_rng(10)))
     params = analysis.to_dict()["parameters"]
     c2 = params["secondary_capacitance_F"]
     assert c2["determined"] is True and "referred to the primary" in c2["note"]
-    # referred, C2 stands for about n²·C2 (54 pF here) plus what C12 adds: well above C2 itself
-    assert c2["value"] > 5 * TRUE.C2_F
+    # referred 1:1, C2 stands for n²·C2 + n(n − 1)·C12 (55.8 pF here, n = 3): well above C2 itself
+    assert c2["value"] == pytest.approx(true.C2_F * 9 + 6 * true.C12_F, rel=0.15)
     assert params["secondary_inductance_H"]["determined"] is False
-    # C1 is the primary's own (held when the referral leaves it below zero), never a referred value
+    # C1 is the primary's own, never a referred value
     assert "referred" not in params["primary_capacitance_F"].get("note", "")
+
+
+def test_an_unseen_winding_whose_1_to_1_referral_needs_a_negative_capacitance_is_tied_further():
+    # n = 3 and C12 = C1: referred 1:1, C1 would be C1 + (1 − n)·C12 = −3 pF (the exact referral of
+    # a winding through another ratio, common practice), which no capacitance can be. The fit ties
+    # the unseen secondary at 1:3 instead, here the true ratio, so C2 comes out as itself.
+    sweeps = {"pri_open": OnePort("primary", "open", 50.0), "pri_short": OnePort("primary", "short", 50.0)}
+    analysis = analyze(simulated_set(TRUE, F_HZ, sweeps=sweeps, rng=np.random.default_rng(10)))
+    params = analysis.to_dict()["parameters"]
+    c2 = params["secondary_capacitance_F"]
+    assert "referred to the primary through an assumed ratio" in c2["note"]
+    assert c2["value"] == pytest.approx(TRUE.C2_F, rel=0.15)
+    assert params["primary_inductance_H"]["value"] == pytest.approx(TRUE.L1_H, rel=0.01)
+    assert params["secondary_inductance_H"]["determined"] is False
+    assert analysis.to_dict()["fit"]["quality"]["grade"] == "good"

@@ -67,7 +67,7 @@ from __future__ import annotations
 import logging
 import math
 import time
-from dataclasses import dataclass, field
+from dataclasses import dataclass, field, replace
 
 import numpy as np
 from scipy.optimize import least_squares
@@ -139,6 +139,10 @@ ROBUST_STARTS = 2
 HELD_SPREAD_CAP = 10.0
 """A held parameter's spread is capped at this many times its distance to the sweeps' reading."""
 _LINEAR_HOLDS = ("R1_ohm", "R2_ohm", "Rc_ohm", "C1_F", "C2_F", "C12_F")
+_EDGE_REASON = "pressed against the edge of its range: too small (or too large) to show in these sweeps"
+REFERRAL_RATIO_SQ = 9.0
+"""How much further (in L2/L1) an unseen winding is tied when the 1:1 tie needs a negative referred
+capacitance (see fit_sweeps): a 1:3 step in the ratio."""
 _HOLD_ORDER = ("C12_F", "C2_F", "C1_F", "Rc_ohm", "R2_ohm", "R1_ohm", "k", "L2_H", "L1_H")
 _BAD_RESIDUAL = 1e6
 _TINY_EIGENVALUE = 1e-14  # relative eigenvalue of the scaled normal matrix that carries no information
@@ -494,7 +498,30 @@ def _hold_for_point_count(free: list[str], residuals: int, held: dict) -> None:
 
 
 def fit_sweeps(sweeps: list[Sweep]) -> FitOutcome:
-    """Fit the equivalent circuit to all `sweeps` at once (method in the module docstring)."""
+    """Fit the equivalent circuit to all `sweeps` at once (method in the module docstring).
+
+    A winding no sweep sees is modelled with its inductance tied to the seen one's (1:1). Its
+    ratio is not measured, so any tie fits as well as long as the referred C1 and C2 stay
+    positive; when one is pressed against zero (a large C12 with a ratio far from 1:1 needs a
+    negative one), the fit is run again with the tie REFERRAL_RATIO_SQ times further in that
+    direction and kept when it fits clearly better (PLACEMENT_DELTA_CHI2).
+    """
+    t0 = time.perf_counter()
+    outcome = _fit_sweeps(sweeps, 1.0)
+    pressed = [n for n in ("C1_F", "C2_F") if n in outcome.held and outcome.held[n][1] == _EDGE_REASON]
+    unseen = not (sweeps_that_see(sweeps, "primary") and sweeps_that_see(sweeps, "secondary"))
+    if not unseen or "C12_F" not in outcome.free or len(pressed) != 1:
+        return outcome
+    # a referred C1 below zero needs a larger modelled L2/L1, a referred C2 below zero a smaller one
+    again = _fit_sweeps(sweeps, REFERRAL_RATIO_SQ if pressed[0] == "C1_F" else 1.0 / REFERRAL_RATIO_SQ)
+    better = again.reduced_chi2 * again.dof < outcome.reduced_chi2 * outcome.dof - PLACEMENT_DELTA_CHI2
+    chosen = again if better else outcome
+    return replace(chosen, evaluations=outcome.evaluations + again.evaluations,
+                   elapsed_s=time.perf_counter() - t0)
+
+
+def _fit_sweeps(sweeps: list[Sweep], tie_ratio_sq: float) -> FitOutcome:
+    """fit_sweeps with an unseen winding's inductance tied at `tie_ratio_sq` times (L2/L1) the seen one."""
     t0 = time.perf_counter()
     if not sweeps:
         raise FitError("no sweeps to fit")
@@ -515,18 +542,21 @@ def fit_sweeps(sweeps: list[Sweep]) -> FitOutcome:
                                     ("primary", "L1_H", ("R1_ohm", "C1_F", "C12_F"), "secondary")):
         if sweeps_that_see(sweeps, winding):
             continue
-        # The unseen winding is modelled 1:1 (its inductance held equal to the seen one), so
-        # its resistance and capacitances come out referred to the seen side. The referral is
-        # exact with C12 free: C12' = n·C12, C1' = C1 + (1 − n)·C12, n²·C2 + n(n − 1)·C12
-        # (while C1' and C2' stay positive), but only sweeps of the seen winding with the unseen
-        # one both open and shorted (or loaded) tell C12' from the other two.
-        ties.append((own, "L1_H" if own == "L2_H" else "L2_H"))
+        # The unseen winding is modelled 1:1 (its inductance held equal to the seen one; at
+        # `tie_ratio_sq` on the second try, see fit_sweeps), so its resistance and capacitances
+        # come out referred to the seen side. The referral is exact with C12 free: C12' = n·C12,
+        # C1' = C1 + (1 − n)·C12, n²·C2 + n(n − 1)·C12 (while C1' and C2' stay positive), but only
+        # sweeps of the seen winding with the unseen one both open and shorted (or loaded) tell
+        # C12' from the other two.
+        ties.append((own, "L1_H" if own == "L2_H" else "L2_H", tie_ratio_sq))
         held[own] = (None, f"no sweep sees the {winding} winding's inductance")
         if len({s.termination for s in sweeps if not s.is_two_port}) < 2:
             held["C12_F"] = (NEUTRAL["C12_F"], f"needs the {winding} winding's inductance to be referred")
         for name in ref:
             if name not in held:
-                referred[name] = f"referred to the {side} (the turns ratio is not measured)"
+                referred[name] = (f"referred to the {side} (the turns ratio is not measured)" if tie_ratio_sq == 1
+                                  else f"referred to the {side} through an assumed ratio √(L2/L1) of "
+                                       f"{math.sqrt(tie_ratio_sq):.3g} (the turns ratio is not measured)")
     _tie(starts, ties)
     free = [n for n in PARAMETER_NAMES if n not in held]
     _hold_for_point_count(free, points, held)
@@ -633,8 +663,7 @@ def fit_sweeps(sweeps: list[Sweep]) -> FitOutcome:
                 x, weights = res2.x, weights2
                 continue
         values = obj.values(res.x[None, :])[0]
-        reason = ("pressed against the edge of its range: too small (or too large) to show in these sweeps"
-                  if edge else "the sweeps do not constrain it")
+        reason = _EDGE_REASON if edge else "the sweeps do not constrain it"
         if not edge:
             hidden.append(_hidden_by_holding(free, j, cov))
         held[name] = (NEUTRAL.get(name, float(values[PARAMETER_NAMES.index(name)])), reason)
@@ -666,10 +695,10 @@ def fit_sweeps(sweeps: list[Sweep]) -> FitOutcome:
 
 
 def _tie(starts: list[dict], ties) -> list[dict]:
-    """Starts with each unseen winding's inductance set equal to the seen one (1:1 model)."""
-    for own, seen in ties:
+    """Starts with each unseen winding's inductance tied to the seen one: (own, seen, L2/L1)."""
+    for own, seen, ratio_sq in ties:
         for st in starts:
-            st[own] = st[seen]
+            st[own] = st[seen] * (ratio_sq if own == "L2_H" else 1.0 / ratio_sq)
     return starts
 
 

@@ -255,6 +255,9 @@ def _readings(sweeps: list[Sweep]) -> tuple[dict, int]:
 
 CAPACITANCE_SPLITS = ((1 / 3, 1 / 3, 1 / 3), (0.8, 0.1, 0.1), (0.1, 0.8, 0.1), (0.1, 0.1, 0.8))
 """Shares of the open-circuit capacitance given to C1, n²·C2 and (n ∓ 1)²·C12 by the starts."""
+SHORT_SPLITS = (0.2, 0.5, 0.8)
+"""Shares of a shorted sweep's capacitance C1 + C12 (or C2 + C12) given to C12 by the starts that
+keep it (see _short_capacitance_splits)."""
 COUPLING_STARTS = (0.9, 0.99, 0.999)
 """Extra couplings tried when no shorted sweep gives k directly."""
 RATIO_STARTS_APART = 0.1
@@ -268,7 +271,8 @@ def start_candidates(sweeps: list[Sweep], polarity: int | None = None) -> tuple[
     The readings pin L1, L2 and (with a shorted sweep) k; what the open sweeps
     cannot split — the capacitance C1 + n²·C2 + (n ∓ 1)²·C12 referred to the
     primary, and the coupling when nothing is shorted — is spread over several
-    starts, from which the fit keeps the one that ends with the lowest cost.
+    starts, from which the fit keeps the one that ends with the lowest cost; a shorted sweep's
+    C1 + C12 (or C2 + C12) gives starts of its own along that reading.
     With a thru, both ratio readings (low band and mid band) get starts when
     they differ. `polarity` given: the starts for that polarity, not the one read.
     """
@@ -336,6 +340,9 @@ def start_candidates(sweeps: list[Sweep], polarity: int | None = None) -> tuple[
     for split in CAPACITANCE_SPLITS:
         c1, c2, c12 = (share * c_total / wgt for share, wgt in zip(split, weights))
         starts.append(dict(base, C1_F=c1, C2_F=c2, C12_F=c12))
+    if c_referred:
+        starts += [dict(base, C1_F=c1, C2_F=c2, C12_F=c12) for c1, c2, c12 in
+                   _short_capacitance_splits(c_total, pick("Csc1"), pick("Csc2"), n, weights[2])]
     if not k_known:
         starts += [dict(st, k=kk) for kk in COUPLING_STARTS for st in starts]
     # another reading of the inductances that differs clearly gives its own starts (R2 and C2
@@ -350,6 +357,31 @@ def start_candidates(sweeps: list[Sweep], polarity: int | None = None) -> tuple[
             starts += [dict(st, L1_H=l1, L2_H=l2, R2_ohm=st["R2_ohm"] * scale, C2_F=st["C2_F"] / scale)
                        for st in first]
     return starts, polarity
+
+
+def _short_capacitance_splits(c_total: float, csc1: float | None, csc2: float | None, n: float,
+                              w12: float) -> list[tuple[float, float, float]]:
+    """(C1, C2, C12) splits that keep what a shorted sweep reads, besides the open-circuit total.
+
+    A winding swept with the other one shorted sees C1 + C12 (C2 + C12 from the secondary: the
+    shorted side's own capacitance drops out), a second reading of the split that the open
+    sweeps' total C1 + n²·C2 + w12·C12 (primary-referred) cannot give. With one such reading the
+    splits run along it (SHORT_SPLITS of it to C12); with both, the three readings fix the split.
+    Splits needing a negative capacitance are left out.
+    """
+    out = []
+    for t in SHORT_SPLITS if csc1 or csc2 else ():
+        if csc1:
+            c1, c12 = (1.0 - t) * csc1, t * csc1
+            c2 = (c_total - c1 - w12 * c12) / n ** 2
+        else:
+            c2, c12 = (1.0 - t) * csc2, t * csc2
+            c1 = c_total - n ** 2 * c2 - w12 * c12
+        out.append((c1, c2, c12))
+    if csc1 and csc2 and abs(w12 - 1.0 - n ** 2) > 0:
+        c12 = (c_total - csc1 - n ** 2 * csc2) / (w12 - 1.0 - n ** 2)
+        out.append((csc1 - c12, csc2 - c12, c12))
+    return [c for c in out if min(c) > 0]
 
 
 def sweeps_that_see(sweeps: list[Sweep], winding: str) -> bool:
