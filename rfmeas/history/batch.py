@@ -259,6 +259,11 @@ def _stop_workers(pool: ProcessPoolExecutor) -> None:
             process.kill()
     for process in processes:
         process.join(timeout=5)
+    # Let the pool's manager thread finish closing its wake-up pipe now: at interpreter exit,
+    # concurrent.futures writes to that pipe and would race the closing (a traceback on Ctrl-C).
+    manager = getattr(pool, "_executor_manager_thread", None)
+    if manager is not None:
+        manager.join(timeout=5)
 
 
 def run_batch(manifest_paths: Iterable[str | Path], workers: int | None = None,
