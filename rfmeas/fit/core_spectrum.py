@@ -739,12 +739,11 @@ def _on_grid(f_target, f, z):
 
 def _raw_self_resonance(f, z, sigma) -> float:
     """The lowest frequency where the resolved reactance turns from inductive to capacitive (inf if none)."""
+    from rfmeas.fit.start import first_resonance_Hz
+
     idx = np.flatnonzero(np.abs(z) > 3 * sigma)
-    if idx.size < 2:
-        return math.inf
-    x = z.imag[idx]
-    cross = np.flatnonzero((x[:-1] > 0) & (x[1:] <= 0))
-    return float(f[idx[cross[0] + 1]]) if cross.size else math.inf
+    found = first_resonance_Hz(f[idx], z[idx]) if idx.size >= 2 else None
+    return math.inf if found is None else found
 
 
 def leads_from_turns(windings, errors: VnaErrorModel = DEFAULT_VNA_ERRORS, z0_ohm: float = 50.0,
