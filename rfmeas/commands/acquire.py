@@ -8,7 +8,8 @@ from typing import Optional
 import typer
 
 from rfmeas.errors import EXIT_INSTRUMENT, EXIT_INTERRUPTED, InputError, InstrumentError
-from rfmeas.commands._common import db_option, handles_errors, print_json, record_option, refuse_not_kept, stderr_console
+from rfmeas.commands._common import (db_option, handles_errors, print_json, record_option, refuse_not_kept,
+                                     stderr_console)
 
 # Options both commands take (typer reads these definitions; it does not change them)
 _SWEEP = typer.Option("100k:30M:201", "--sweep", help="START:STOP:POINTS, e.g. 100k:30M:201.")

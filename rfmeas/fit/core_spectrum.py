@@ -722,7 +722,8 @@ def _trace_noise_ohm(z, z0_ohm, method) -> np.ndarray:
     with np.errstate(all="ignore"):
         s = s_from_impedance(method, z, z0_ohm)
         sigma_s = trace_noise_sigma(s)
-        out = np.abs(impedance_sensitivity(method, z, z0_ohm)) * math.sqrt(2) * (sigma_s if np.isfinite(sigma_s) else 0.0)
+        sigma_s = sigma_s if np.isfinite(sigma_s) else 0.0
+        out = np.abs(impedance_sensitivity(method, z, z0_ohm)) * math.sqrt(2) * sigma_s
     return np.where(np.isfinite(out), out, np.inf)
 
 
@@ -893,9 +894,8 @@ def _plateau(f, z, mu, real_se, noise_se, systematic_se, below_srf, compensated)
 
     `real_se` is the whole standard uncertainty of µ' per point; `noise_se` (for µ', µ'') the
     trace noise's part, which averages down; `systematic_se` the VNA residue's part of µ', which
-    does not. Below
-    PLATEAU_MIN_IMPEDANCE_OHM a point counts only where a swept short was taken off
-    (`compensated`): there the residue largely cancels. Loss and flatness are judged against
+    does not. Below PLATEAU_MIN_IMPEDANCE_OHM a point counts only where a swept short was taken
+    off (`compensated`): there the residue largely cancels. Loss and flatness are judged against
     each point's noise, so trace noise neither ends the band early nor passes a real slope.
     """
     with np.errstate(all="ignore"):
@@ -933,7 +933,7 @@ def _plateau(f, z, mu, real_se, noise_se, systematic_se, below_srf, compensated)
             values = mu.real[sl]
             n = values.size
             # a few points' spread says little: their own noise bounds it from below
-            spread = 1.4826 * float(np.median(np.abs(values - level)))
+            spread = 1.4826 * float(np.median(np.abs(values - level)))  # MAD → σ of a normal variable
             scatter = max(spread, float(np.median(noise_se[0][sl]))) / math.sqrt(n)
             systematic = float(np.median(systematic_se[sl]))  # the VNA's residue does not average down
             return level, math.hypot(scatter, systematic), first, last
