@@ -107,8 +107,7 @@ class ShortCurve:
         """(impedance, its noise, inside): the curve on `f_Hz`, and where `f_Hz` lies inside its sweep."""
         f = np.asarray(f_Hz, dtype=float)
         inside = (f >= self.f_Hz[0]) & (f <= self.f_Hz[-1])
-        z = np.interp(f, self.f_Hz, self.impedance_ohm.real) + 1j * np.interp(f, self.f_Hz, self.impedance_ohm.imag)
-        return z, np.interp(f, self.f_Hz, self.noise_ohm), inside
+        return _on_grid(f, self.f_Hz, self.impedance_ohm), np.interp(f, self.f_Hz, self.noise_ohm), inside
 
     def to_dict(self) -> dict:
         return {"band_Hz": [float(self.f_Hz[0]), float(self.f_Hz[-1])], "points": int(self.f_Hz.size),

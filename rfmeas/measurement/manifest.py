@@ -255,8 +255,7 @@ def _load_readings(entries, path: Path) -> tuple[WindingReadings, ...]:
         return ()
     if not isinstance(entries, list):
         raise InputError("reading must be an array of tables ([[reading]])", path)
-    check_sweep_count(len(entries), path)
-    out, seen = [], {}
+    out, seen = [], {}  # one file per winding: a third entry is refused before it is read
     for i, entry in enumerate(entries, start=1):
         where = f"reading {i}"
         check_keys(entry, _READING_KEYS, f"[{where}]", path)
@@ -280,8 +279,7 @@ def _load_readings(entries, path: Path) -> tuple[WindingReadings, ...]:
         if not data.impedance_ohm[0].imag > 0:
             raise InputError(f"{where}: the lowest-frequency reading of {entry['file']} is not inductive "
                              "(Ls ≤ 0): not an open winding on a core", path)
-        out.append(WindingReadings(label, winding, data.f_Hz, data.impedance_ohm, data.form,
-                                   str(path.parent / entry["file"]), data.raw_bytes))
+        out.append(WindingReadings(label, winding, data))
     return tuple(out)
 
 

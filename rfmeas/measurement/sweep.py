@@ -234,26 +234,30 @@ class WindingReadings:
 
     label: str
     winding: str
-    f_Hz: np.ndarray
-    impedance_ohm: np.ndarray
-    form: str
-    path: str | None = None
-    raw_bytes: bytes | None = field(default=None, repr=False, compare=False)
+    data: Any  # rfmeas.io.readings.LcrReadings, sorted by frequency
+
+    @property
+    def path(self) -> str:
+        return self.data.path
+
+    @property
+    def raw_bytes(self) -> bytes | None:
+        return self.data.raw_bytes
 
     @property
     def frequency_Hz(self) -> float:
         """The frequency of the reading the inductance is taken from (the lowest)."""
-        return float(self.f_Hz[0])
+        return float(self.data.f_Hz[0])
 
     @property
     def inductance_H(self) -> float:
-        """Series inductance Im(Z)/ω of the lowest-frequency reading."""
-        return float(self.impedance_ohm[0].imag / (2 * math.pi * self.f_Hz[0]))
+        """Series inductance of the lowest-frequency reading."""
+        return float(self.data.series_inductance_H[0])
 
     def to_dict(self) -> dict:
+        f = self.data.f_Hz
         return {"label": self.label, "file": self.path, "winding": self.winding, "termination": "open",
-                "form": self.form, "readings": int(self.f_Hz.size),
-                "frequency_range_Hz": [float(self.f_Hz[0]), float(self.f_Hz[-1])]}
+                "form": self.data.form, "readings": int(f.size), "frequency_range_Hz": [float(f[0]), float(f[-1])]}
 
 
 @dataclass(frozen=True)
