@@ -377,7 +377,7 @@ def _readings_figures(measurement, from_fit: dict, warnings: list) -> dict:
     """
     turns = {"primary": measurement.primary_turns, "secondary": measurement.secondary_turns}
     out = {}
-    for reading in getattr(measurement, "readings", ()):
+    for reading in measurement.readings:
         n = turns[reading.winding]
         key = f"readings_{reading.winding}"
         label, unit = FIGURE_DETAIL_LABELS[key]
